@@ -1,0 +1,42 @@
+// One error type for everything a user can cause. The CLI prints `message` as one line and exits
+// with `exitCode`; library callers can read the fields.
+import type { SourcePlace } from "./types.ts";
+
+/** Exit codes (documented in README.md and DEVELOPERS.md). */
+export const ExitCode = {
+  /** Internal error: a bug in rbfield. */
+  internal: 1,
+  /** Bad command line: unknown verb or option, bad option value. */
+  usage: 2,
+  /** Bad input data: unreadable content, missing columns, too few points, bad model file. */
+  input: 3,
+  /** A file cannot be read or written (missing, permission, output equals input). */
+  io: 4,
+  /** The data cannot support the model asked for (e.g. all points on one line for linear drift). */
+  numerical: 5,
+} as const;
+export type ExitCodeValue = (typeof ExitCode)[keyof typeof ExitCode];
+
+export class RbfieldError extends Error {
+  readonly exitCode: ExitCodeValue;
+  readonly place?: SourcePlace;
+  constructor(message: string, exitCode: ExitCodeValue = ExitCode.input, place?: SourcePlace) {
+    super(place ? `${formatPlace(place)}: ${message}` : message);
+    this.name = "RbfieldError";
+    this.exitCode = exitCode;
+    this.place = place;
+  }
+}
+
+/** "file.csv, line 12, column 3" — the form every input error uses. */
+export function formatPlace(place: SourcePlace): string {
+  let text = place.file;
+  if (place.line !== undefined) text += `, line ${place.line}`;
+  if (place.column !== undefined) text += `, column ${place.column}`;
+  return text;
+}
+
+/** Shorthand for an input error at a place. */
+export function inputError(message: string, place: SourcePlace): RbfieldError {
+  return new RbfieldError(message, ExitCode.input, place);
+}

@@ -1,0 +1,158 @@
+// Grid layout, masks and gridding. Cells are areas (PixelIsArea in OGC GeoTIFF 1.1 terms): the
+// extent is the outer edge of the outer cells; cell centres sit half a cell inside.
+import { ExitCode, RbfieldError } from "../errors.ts";
+import type { SurfaceModel } from "../model/model.ts";
+import type { GridSpec, GridValues } from "../types.ts";
+import { makeEvaluator } from "./evaluate.ts";
+
+/** Grids with more cells than this are refused unless forced (100 M cells ≈ 400 MB as Float32). */
+export const MAX_CELLS = 100_000_000;
+
+/** Largest "nice" number (1, 2, 2.5 or 5 × 10ᵏ) not above v. */
+export function niceFloor(v: number): number {
+  const k = Math.floor(Math.log10(v));
+  const base = Math.pow(10, k);
+  const f = v / base;
+  const step = f >= 5 ? 5 : f >= 2.5 ? 2.5 : f >= 2 ? 2 : 1;
+  return step * base;
+}
+
+/** Default cell: half the median point spacing, and at least 200 cells along the longer side. */
+export function defaultCell(model: SurfaceModel): number {
+  const { xmin, ymin, xmax, ymax } = model.extent;
+  const side = Math.max(xmax - xmin, ymax - ymin) || 1;
+  return niceFloor(Math.min(model.spacing / 2 || side / 200, side / 200));
+}
+
+export interface GridLayoutOptions {
+  cell?: number;
+  /** [xmin, ymin, xmax, ymax], outer edges of the outer cells. */
+  extent?: [number, number, number, number];
+  /** Allow grids above MAX_CELLS. */
+  force?: boolean;
+}
+
+/**
+ * Grid layout. With an extent given, its north-west corner is kept and the east and south edges are
+ * moved out to whole cells; without one, the data's bounding box is snapped outward to multiples of
+ * the cell size.
+ */
+export function gridLayout(model: SurfaceModel, options: GridLayoutOptions = {}): GridSpec {
+  const cell = options.cell ?? defaultCell(model);
+  if (!(cell > 0) || !Number.isFinite(cell)) throw new RbfieldError(`cell size must be a positive number, not ${cell}`, ExitCode.usage);
+  let xmin: number, ymin: number, xmax: number, ymax: number;
+  if (options.extent) {
+    [xmin, ymin, xmax, ymax] = options.extent;
+    if (!(xmax > xmin && ymax > ymin) || ![xmin, ymin, xmax, ymax].every(Number.isFinite)) {
+      throw new RbfieldError("extent must be XMIN,YMIN,XMAX,YMAX with XMAX > XMIN and YMAX > YMIN", ExitCode.usage);
+    }
+    const e = model.extent;
+    if (xmax < e.xmin || xmin > e.xmax || ymax < e.ymin || ymin > e.ymax) {
+      throw new RbfieldError(
+        `the extent ${xmin},${ymin},${xmax},${ymax} does not overlap the data (${e.xmin},${e.ymin},${e.xmax},${e.ymax}); ` +
+          "check the coordinate order and the CRS",
+        ExitCode.usage,
+      );
+    }
+  } else {
+    const e = model.extent;
+    xmin = Math.floor(e.xmin / cell) * cell;
+    ymin = Math.floor(e.ymin / cell) * cell;
+    xmax = Math.ceil(e.xmax / cell) * cell;
+    ymax = Math.ceil(e.ymax / cell) * cell;
+    if (xmax <= xmin) xmax = xmin + cell;
+    if (ymax <= ymin) ymin = ymax - cell;
+  }
+  const cols = Math.max(1, Math.ceil((xmax - xmin) / cell - 1e-9));
+  const rows = Math.max(1, Math.ceil((ymax - ymin) / cell - 1e-9));
+  if (cols * rows > MAX_CELLS && !options.force) {
+    throw new RbfieldError(
+      `a ${cols} × ${rows} grid (${(cols * rows).toLocaleString("en")} cells) is larger than the ${MAX_CELLS.toLocaleString("en")}-cell limit; ` +
+        "choose a larger --cell or pass --force",
+      ExitCode.usage,
+    );
+  }
+  return { xmin, ymax, cols, rows, cell, xmax: xmin + cols * cell, ymin: ymax - rows * cell };
+}
+
+/** A polygon as rings of [x, y]; the first ring is the outer boundary, the rest holes. */
+export type PolygonRings = [number, number][][];
+
+/**
+ * Cells whose centre lies inside any of the polygons (even-odd rule within each polygon, union
+ * across polygons), by scanline crossing (common practice; O(cells + edges·rows)).
+ */
+export function polygonMask(spec: GridSpec, polygons: PolygonRings[]): Uint8Array {
+  const inside = new Uint8Array(spec.cols * spec.rows);
+  const xs: number[] = [];
+  for (let r = 0; r < spec.rows; r++) {
+    const yc = spec.ymax - (r + 0.5) * spec.cell;
+    for (const poly of polygons) {
+      xs.length = 0;
+      for (const ring of poly) {
+        for (let i = 0; i + 1 < ring.length; i++) {
+          const [x1, y1] = ring[i];
+          const [x2, y2] = ring[i + 1];
+          // Half-open rule so a vertex on the scanline is counted once.
+          if ((y1 <= yc && y2 > yc) || (y2 <= yc && y1 > yc)) xs.push(x1 + ((yc - y1) / (y2 - y1)) * (x2 - x1));
+        }
+      }
+      xs.sort((a, b) => a - b);
+      for (let k = 0; k + 1 < xs.length; k += 2) {
+        // columns whose centre x lies in [xs[k], xs[k+1])
+        const c0 = Math.max(0, Math.ceil((xs[k] - spec.xmin) / spec.cell - 0.5));
+        const c1 = Math.min(spec.cols - 1, Math.ceil((xs[k + 1] - spec.xmin) / spec.cell - 0.5) - 1);
+        for (let c = c0; c <= c1; c++) inside[r * spec.cols + c] = 1;
+      }
+    }
+  }
+  return inside;
+}
+
+/** Read Polygon/MultiPolygon rings from a parsed GeoJSON object (Feature, FeatureCollection or geometry). */
+export function polygonsFromGeoJson(data: unknown, file: string): PolygonRings[] {
+  const out: PolygonRings[] = [];
+  const visit = (g: unknown): void => {
+    const o = g as { type?: string; coordinates?: unknown; geometry?: unknown; features?: unknown[]; geometries?: unknown[] };
+    if (!o || typeof o !== "object") return;
+    if (o.type === "FeatureCollection" && Array.isArray(o.features)) o.features.forEach(visit);
+    else if (o.type === "Feature") visit(o.geometry);
+    else if (o.type === "GeometryCollection" && Array.isArray(o.geometries)) o.geometries.forEach(visit);
+    else if (o.type === "Polygon") out.push(o.coordinates as PolygonRings);
+    else if (o.type === "MultiPolygon") for (const p of o.coordinates as PolygonRings[]) out.push(p);
+  };
+  visit(data);
+  const ok = out.length > 0 && out.every((p) => Array.isArray(p) && p.every((ring) =>
+    Array.isArray(ring) && ring.length >= 4 && ring.every((pt) => Array.isArray(pt) && Number.isFinite(pt[0]) && Number.isFinite(pt[1]))
+  ));
+  if (!ok) throw new RbfieldError(`${file}: the mask file holds no valid Polygon or MultiPolygon`, ExitCode.input, { file });
+  return out;
+}
+
+export interface GridOptions extends GridLayoutOptions {
+  /** "hull" (default), "none", or polygons to keep. */
+  mask?: "hull" | "none" | PolygonRings[];
+  progress?: (message: string) => void;
+}
+
+/** Evaluate the model on a grid; masked cells are NaN. */
+export function gridModel(model: SurfaceModel, options: GridOptions = {}): GridValues {
+  const spec = gridLayout(model, options);
+  const maskOpt = options.mask ?? "hull";
+  const mask = maskOpt === "none" ? undefined : polygonMask(spec, maskOpt === "hull" ? [[model.hull]] : maskOpt);
+  const ev = makeEvaluator(model);
+  const values = new Float64Array(spec.cols * spec.rows);
+  let lastReport = Date.now();
+  for (let r = 0; r < spec.rows; r++) {
+    const yc = spec.ymax - (r + 0.5) * spec.cell;
+    for (let c = 0; c < spec.cols; c++) {
+      const k = r * spec.cols + c;
+      values[k] = mask && !mask[k] ? NaN : ev.at(spec.xmin + (c + 0.5) * spec.cell, yc);
+    }
+    if (options.progress && Date.now() - lastReport > 1000) {
+      lastReport = Date.now();
+      options.progress(`gridding: row ${r + 1} of ${spec.rows}`);
+    }
+  }
+  return { spec, values, crs: model.crs };
+}

@@ -1,0 +1,368 @@
+// Fit and select: RBF regression with polynomial drift, smoothing chosen by GCV.
+//
+// Model (Wahba 1990, ch. 2; Fasshauer 2007, ch. 19):
+//   f(x) = Σᵢ wᵢ φ(‖x − xᵢ‖) + Σⱼ cⱼ pⱼ(x),   (K + λI) w + P c = y,   Pᵀ w = 0.
+// With P = Q [R; 0] and Q = [Q₁ Q₂], w = Q₂ (B + λI)⁻¹ Q₂ᵀ y where B = Q₂ᵀ K Q₂ (positive definite
+// for a kernel that is conditionally positive definite of the drift's order). B is reduced once to
+// tridiagonal form T = Hᵀ B H; then for every λ
+//   residual y − f = λ w,  ‖y − f‖² = λ² ‖(T + λI)⁻¹ h‖²,  h = Hᵀ Q₂ᵀ y,
+//   tr(I − A_λ) = Σₖ λ / (μₖ + λ)  (μₖ the eigenvalues of B),
+// so GCV(λ) = N ‖(I − A_λ) y‖² / tr(I − A_λ)² (Craven & Wahba 1979; Golub, Heath & Wahba 1979)
+// costs O(N) per λ after one O(N³) reduction.
+// Leave-one-out residuals: eᵢ = wᵢ / Gᵢᵢ with G = Q₂ (B + λI)⁻¹ Q₂ᵀ, the upper-left block of the
+// inverse of the bordered system (Rippa 1999 for λ = 0; the same identity eᵢ = rᵢ / (1 − Aᵢᵢ) for λ > 0).
+import { ExitCode, RbfieldError } from "../errors.ts";
+import type { DriftName, KernelName } from "../types.ts";
+import { driftRow, driftTerms, hasShape, kernelMatrix, minimumDrift } from "./kernels.ts";
+import {
+  applyReflector,
+  applyReflectors,
+  applyReflectorsTransposed,
+  householderQR,
+  type Reflector,
+  reflectSymmetric,
+  solveTridiagonal,
+  solveUpper,
+  tridiagonalEigenvalues,
+  tridiagonalize,
+} from "./linalg.ts";
+
+/** Largest condition number (μmax + λ)/(μmin + λ) we accept before adding smoothing. */
+export const CONDITION_LIMIT = 1e12;
+
+/** Centring and isotropic scaling of coordinates and values: u = (x − cx)/s, ỹ = (z − zc)/zs. */
+export interface Scaling {
+  cx: number;
+  cy: number;
+  s: number;
+  zc: number;
+  zs: number;
+}
+
+export function computeScaling(x: Float64Array, y: Float64Array, z: Float64Array): Scaling {
+  const n = x.length;
+  let xmin = Infinity, xmax = -Infinity, ymin = Infinity, ymax = -Infinity, zsum = 0;
+  for (let i = 0; i < n; i++) {
+    xmin = Math.min(xmin, x[i]);
+    xmax = Math.max(xmax, x[i]);
+    ymin = Math.min(ymin, y[i]);
+    ymax = Math.max(ymax, y[i]);
+    zsum += z[i];
+  }
+  const cx = 0.5 * (xmin + xmax);
+  const cy = 0.5 * (ymin + ymax);
+  // One scale for both axes keeps distances isotropic.
+  const s = Math.max(0.5 * (xmax - xmin), 0.5 * (ymax - ymin)) || 1;
+  const zc = zsum / n;
+  let ss = 0;
+  for (let i = 0; i < n; i++) ss += (z[i] - zc) ** 2;
+  const zs = Math.sqrt(ss / n) || 1;
+  return { cx, cy, s, zc, zs };
+}
+
+/** Which smoothing was used and how it was chosen. */
+export type SmoothingChoice = "gcv" | "given" | "given-raised";
+
+/** One point of the GCV curve, in the user's units. */
+export interface GcvPoint {
+  lambda: number;
+  gcv: number;
+  edf: number;
+}
+
+/** Everything the fit of one kernel/shape/drift produces, in scaled units unless stated. */
+export interface KernelFit {
+  kernel: KernelName;
+  drift: DriftName;
+  /** Shape ε in scaled units (1 for the thin-plate spline, which has none). */
+  epsilonScaled: number;
+  /** λ in scaled units (added to the diagonal of the scaled kernel matrix). */
+  lambdaScaled: number;
+  smoothingChoice: SmoothingChoice;
+  weights: Float64Array;
+  driftCoefficients: Float64Array;
+  /** GCV score, in squared value units. */
+  gcv: number;
+  edf: number;
+  /** Residual sum of squares in value units. */
+  rss: number;
+  /** (μmax + λ)/(μmin + λ): the condition estimate of the solved system. */
+  condition: number;
+  /** The GCV curve over λ (user units). */
+  curve: GcvPoint[];
+  warnings: string[];
+  /** Kept for leave-one-out and error estimates. */
+  state: FitState;
+}
+
+/** Factorisation pieces reused after λ is chosen. */
+export interface FitState {
+  n: number; // N points
+  m: number; // drift terms
+  qr: Reflector[];
+  tri: { d: Float64Array; e: Float64Array; reflectors: Reflector[] };
+  mu: Float64Array;
+  h: Float64Array;
+  y: Float64Array; // scaled values
+}
+
+export interface CoreOptions {
+  kernel: KernelName;
+  drift: DriftName;
+  epsilonScaled: number;
+  /** "gcv" or λ in scaled units. */
+  smoothing: "gcv" | number;
+  /** Multiply scaled λ by this to report it in the user's units. */
+  lambdaToUser: number;
+}
+
+/** Fit one kernel, shape and drift to scaled coordinates (u, v) and scaled values y. */
+export function fitCore(u: Float64Array, v: Float64Array, y: Float64Array, zs: number, opts: CoreOptions): KernelFit {
+  const n = u.length;
+  const m = driftTerms(opts.drift);
+  if (n < m + 1) {
+    throw new RbfieldError(
+      `${n} points are too few for ${opts.drift} drift (${m} terms): at least ${m + 1} are needed`,
+      ExitCode.input,
+    );
+  }
+  const warnings: string[] = [];
+  // Drift basis and its QR factorisation.
+  const p = new Float64Array(n * m);
+  const row = new Float64Array(Math.max(m, 1));
+  for (let i = 0; i < n; i++) {
+    driftRow(u[i], v[i], m, row);
+    for (let j = 0; j < m; j++) p[i * m + j] = row[j];
+  }
+  const { reflectors: qr, r } = householderQR(p, n, m);
+  let rmax = 0;
+  for (let j = 0; j < m; j++) rmax = Math.max(rmax, Math.abs(r[j * m + j]));
+  for (let j = 0; j < m; j++) {
+    if (Math.abs(r[j * m + j]) <= 1e-10 * rmax * Math.sqrt(n)) {
+      throw new RbfieldError(
+        `the points do not support ${opts.drift} drift (they lie on a line or on a conic, so the drift terms ` +
+          `are not independent); use --drift ${m > 3 ? "linear" : "constant"} or add points off the line`,
+        ExitCode.numerical,
+      );
+    }
+  }
+  // Qᵀ K Q, then B = its trailing (n−m)×(n−m) block.
+  const k = kernelMatrix(opts.kernel, opts.epsilonScaled, u, v);
+  for (const refl of qr) reflectSymmetric(k, n, refl);
+  const nb = n - m;
+  const b = new Float64Array(nb * nb);
+  for (let i = 0; i < nb; i++) b.set(k.subarray((m + i) * n + m, (m + i) * n + n), i * nb);
+  // Top m rows of QᵀKQ (columns m…) are needed for the drift coefficients.
+  const top = new Float64Array(m * nb);
+  for (let i = 0; i < m; i++) top.set(k.subarray(i * n + m, i * n + n), i * nb);
+  const qty = Float64Array.from(y);
+  for (const refl of qr) applyReflector(refl, qty);
+  const tri = tridiagonalize(b, nb);
+  const mu = tridiagonalEigenvalues(tri.d, tri.e);
+  const h = qty.slice(m);
+  applyReflectorsTransposed(tri.reflectors, h);
+
+  const muMin = mu[0];
+  const muMax = Math.max(mu[nb - 1], 1e-300);
+  // Smallest λ that keeps (μmax+λ)/(μmin+λ) ≤ CONDITION_LIMIT.
+  const floor = Math.max(0, (muMax - CONDITION_LIMIT * muMin) / (CONDITION_LIMIT - 1));
+  const t = new Float64Array(nb);
+  // GCV in the λ-free form N ‖t‖² / (Σ 1/(μₖ+λ))², t = (T+λI)⁻¹h, which equals the usual form
+  // after dividing numerator and denominator by λ²; it stays finite as λ → 0.
+  const gcvAt = (lambda: number): { gcv: number; edf: number; rssScaled: number } => {
+    solveTridiagonal(tri.d, tri.e, lambda, h, t);
+    let tt = 0;
+    for (let i = 0; i < nb; i++) tt += t[i] * t[i];
+    let inv = 0;
+    for (let i = 0; i < nb; i++) inv += 1 / (mu[i] + lambda);
+    const edf = n - lambda * inv;
+    return { gcv: (n * tt) / (inv * inv), edf, rssScaled: lambda * lambda * tt };
+  };
+
+  const lower = Math.max(floor, muMax * 1e-13);
+  const upper = muMax * 1e4;
+  const steps = 61;
+  const curve: GcvPoint[] = [];
+  let best = { lambda: lower, gcv: Infinity };
+  const grid: number[] = [];
+  for (let s = 0; s < steps; s++) grid.push(lower * Math.pow(upper / lower, s / (steps - 1)));
+  for (const lambda of grid) {
+    const g = gcvAt(lambda);
+    curve.push({ lambda: lambda * opts.lambdaToUser, gcv: g.gcv * zs * zs, edf: g.edf });
+    if (g.gcv < best.gcv) best = { lambda, gcv: g.gcv };
+  }
+
+  let lambda: number;
+  let smoothingChoice: SmoothingChoice;
+  if (opts.smoothing === "gcv") {
+    // Golden-section refinement in log λ between the grid neighbours of the best grid point.
+    const idx = grid.indexOf(best.lambda);
+    let a = Math.log(grid[Math.max(0, idx - 1)]);
+    let c = Math.log(grid[Math.min(steps - 1, idx + 1)]);
+    const phi = (Math.sqrt(5) - 1) / 2;
+    let x1 = c - phi * (c - a);
+    let x2 = a + phi * (c - a);
+    let f1 = gcvAt(Math.exp(x1)).gcv;
+    let f2 = gcvAt(Math.exp(x2)).gcv;
+    for (let it = 0; it < 40; it++) {
+      if (f1 < f2) {
+        c = x2;
+        x2 = x1;
+        f2 = f1;
+        x1 = c - phi * (c - a);
+        f1 = gcvAt(Math.exp(x1)).gcv;
+      } else {
+        a = x1;
+        x1 = x2;
+        f1 = f2;
+        x2 = a + phi * (c - a);
+        f2 = gcvAt(Math.exp(x2)).gcv;
+      }
+    }
+    const xm = Math.exp(0.5 * (a + c));
+    lambda = gcvAt(xm).gcv <= best.gcv ? xm : best.lambda;
+    smoothingChoice = "gcv";
+    if (idx === 0 && floor > 0) {
+      warnings.push(
+        `GCV asks for less smoothing than the system can take stably (condition limit ${CONDITION_LIMIT.toExponential(0)}); ` +
+          `smoothing was held at the stable minimum`,
+      );
+    }
+  } else {
+    lambda = opts.smoothing;
+    smoothingChoice = "given";
+    if (lambda < floor || (lambda === 0 && muMin <= 0)) {
+      const cond = muMin + lambda > 0 ? (muMax + lambda) / (muMin + lambda) : Infinity;
+      warnings.push(
+        `the system is ill-conditioned at the smoothing given (condition estimate ${fmtExp(cond)}); ` +
+          `smoothing was raised to ${fmtExp(floor * opts.lambdaToUser)} so the solution is stable`,
+      );
+      lambda = floor;
+      smoothingChoice = "given-raised";
+    }
+  }
+
+  const g = gcvAt(lambda);
+  const condition = mu[0] + lambda > 0 ? (muMax + lambda) / (mu[0] + lambda) : Infinity;
+  // Weights w = Q₂ H t, t = (T+λI)⁻¹ h.
+  solveTridiagonal(tri.d, tri.e, lambda, h, t);
+  const ht = Float64Array.from(t);
+  applyReflectors(tri.reflectors, ht);
+  const w = new Float64Array(n);
+  w.set(ht, m);
+  for (let j = qr.length - 1; j >= 0; j--) applyReflector(qr[j], w);
+  // Drift: R c = (Qᵀ y)₁..ₘ − (QᵀKQ)₁..ₘ,ₘ.. · H t.
+  const rhs = new Float64Array(m);
+  for (let i = 0; i < m; i++) {
+    let s = qty[i];
+    for (let j = 0; j < nb; j++) s -= top[i * nb + j] * ht[j];
+    rhs[i] = s;
+  }
+  solveUpper(r, m, rhs);
+
+  if (!Number.isFinite(g.gcv) || !w.every(Number.isFinite) || !rhs.every(Number.isFinite)) {
+    throw new RbfieldError(
+      `the ${opts.kernel} fit failed numerically (condition estimate ${fmtExp(condition)}); ` +
+        `try more smoothing, another shape or another kernel`,
+      ExitCode.numerical,
+    );
+  }
+  return {
+    kernel: opts.kernel,
+    drift: opts.drift,
+    epsilonScaled: opts.epsilonScaled,
+    lambdaScaled: lambda,
+    smoothingChoice,
+    weights: w,
+    driftCoefficients: rhs,
+    gcv: g.gcv * zs * zs,
+    edf: g.edf,
+    rss: g.rssScaled * zs * zs,
+    condition,
+    curve,
+    warnings,
+    state: { n, m, qr, tri, mu, h, y },
+  };
+}
+
+/**
+ * Zᵀ = Hᵀ Q₂ᵀ (nb × N, row-major): the orthonormal basis in which (B + λI) is tridiagonal.
+ * With it G = Q₂(B+λI)⁻¹Q₂ᵀ = Z (T+λI)⁻¹ Zᵀ for any λ. O(N³) once.
+ */
+export function rotatedBasis(state: FitState): Float64Array {
+  const { n, m, qr, tri } = state;
+  const nb = n - m;
+  const zt = new Float64Array(nb * n);
+  const col = new Float64Array(n);
+  // Q₂ᵀ: column j is (Qᵀ eⱼ) rows m…; Q has m reflectors so this is O(N² m).
+  for (let j = 0; j < n; j++) {
+    col.fill(0);
+    col[j] = 1;
+    for (const refl of qr) applyReflector(refl, col);
+    for (let i = 0; i < nb; i++) zt[i * n + j] = col[m + i];
+  }
+  // Apply Hᵀ = … H₁ H₀ to every column, row-block style for contiguous access.
+  const dots = new Float64Array(n);
+  for (const refl of tri.reflectors) {
+    const { start, v, beta } = refl;
+    if (beta === 0) continue;
+    dots.fill(0);
+    for (let i = 0; i < v.length; i++) {
+      const vi = v[i];
+      if (vi === 0) continue;
+      const rowOff = (start + i) * n;
+      for (let j = 0; j < n; j++) dots[j] += vi * zt[rowOff + j];
+    }
+    for (let i = 0; i < v.length; i++) {
+      const f = beta * v[i];
+      if (f === 0) continue;
+      const rowOff = (start + i) * n;
+      for (let j = 0; j < n; j++) zt[rowOff + j] -= f * dots[j];
+    }
+  }
+  return zt;
+}
+
+/** Diagonal of G = Z (T+λI)⁻¹ Zᵀ: Gᵢᵢ = zᵢᵀ (T+λI)⁻¹ zᵢ. O(N²) given Zᵀ. */
+export function influenceComplementDiagonal(state: FitState, zt: Float64Array, lambda: number): Float64Array {
+  const { n, m, tri } = state;
+  const nb = n - m;
+  const gii = new Float64Array(n);
+  const zi = new Float64Array(nb);
+  const sol = new Float64Array(nb);
+  for (let i = 0; i < n; i++) {
+    for (let k = 0; k < nb; k++) zi[k] = zt[k * n + i];
+    solveTridiagonal(tri.d, tri.e, lambda, zi, sol);
+    let s = 0;
+    for (let k = 0; k < nb; k++) s += zi[k] * sol[k];
+    gii[i] = s;
+  }
+  return gii;
+}
+
+/** Leave-one-out residuals eᵢ = wᵢ / Gᵢᵢ (Rippa 1999), in value units. */
+export function leaveOneOutResiduals(fit: KernelFit, zs: number, zt?: Float64Array): Float64Array {
+  const basis = zt ?? rotatedBasis(fit.state);
+  const gii = influenceComplementDiagonal(fit.state, basis, fit.lambdaScaled);
+  const e = new Float64Array(gii.length);
+  for (let i = 0; i < e.length; i++) e[i] = (fit.weights[i] / gii[i]) * zs;
+  return e;
+}
+
+function fmtExp(v: number): string {
+  return Number.isFinite(v) ? v.toExponential(2) : "infinite";
+}
+
+/** Check that the kernel can be used with the drift asked for; return a message if not. */
+export function driftProblem(kernel: KernelName, drift: DriftName): string | undefined {
+  const need = minimumDrift(kernel);
+  if (driftTerms(drift) < driftTerms(need)) {
+    const why = kernel === "thin-plate"
+      ? "the thin-plate spline is conditionally positive definite of order 2"
+      : "the multiquadric is conditionally positive definite of order 1";
+    return `${kernel} needs at least ${need} drift (${why}); use --drift ${need} or a higher degree`;
+  }
+  return undefined;
+}
+
+export { hasShape };

@@ -1,0 +1,62 @@
+// Plain-text summary of a fit, for the CLI and the run folder. Strings from input files (column
+// names, file names) are passed through printableText so control characters cannot reach a terminal.
+import { CAUTION } from "../caution.ts";
+import type { SurfaceModel } from "../model/model.ts";
+
+/** Replace control characters (terminal escapes, newlines) in text that came from an input. */
+export function printableText(s: string): string {
+  // deno-lint-ignore no-control-regex
+  return s.replace(/[\u0000-\u001f\u007f-\u009f]/g, "?");
+}
+
+export function fmt(v: number, digits = 4): string {
+  if (!Number.isFinite(v)) return String(v);
+  if (v === 0) return "0";
+  const a = Math.abs(v);
+  if (a >= 1e6 || a < 1e-3) return v.toExponential(digits - 1);
+  return String(Number(v.toPrecision(digits)));
+}
+
+export const KERNEL_TEXT: Record<string, string> = {
+  "thin-plate": "thin-plate spline r² log r",
+  gaussian: "Gaussian exp(−(εr)²)",
+  multiquadric: "multiquadric −√(1+(εr)²)",
+  "inverse-multiquadric": "inverse multiquadric 1/√(1+(εr)²)",
+};
+
+/** Lines describing the model and its diagnostics. */
+export function modelSummaryLines(model: SurfaceModel): string[] {
+  const d = model.diagnostics;
+  const lines: string[] = [];
+  const src = model.source;
+  lines.push(
+    `Input: ${printableText(src.file)} (x = ${printableText(src.x)}, y = ${printableText(src.y)}, value = ${printableText(src.z)}); CRS ${printableText(model.crs.label)}`,
+  );
+  lines.push(`Model: ${KERNEL_TEXT[model.kernel]}, ${model.drift} drift, ${d.n} points`);
+  const shape = model.shape === null ? "none (scale-free kernel)" : `ε = ${fmt(model.shape)} per map unit (${d.shapeChoice === "auto" ? "chosen by GCV" : "given"})`;
+  lines.push(`  shape: ${shape}`);
+  const how = d.smoothingChoice === "gcv" ? "chosen by GCV" : d.smoothingChoice === "given" ? "given" : "given, raised for stability";
+  lines.push(`  smoothing λ = ${fmt(model.lambda)} (${how}); effective degrees of freedom ${fmt(d.edf)} of ${d.n}`);
+  lines.push(`  GCV score ${fmt(d.gcv)}; leave-one-out RMSE ${fmt(d.loocvRmse)}; fit RMSE ${fmt(d.rmse)}; noise σ estimate ${fmt(d.sigma)}`);
+  lines.push(`  condition estimate ${fmt(d.condition, 3)}`);
+  const order = model.loo.map((e, i) => i).sort((a, b) => Math.abs(model.loo[b]) - Math.abs(model.loo[a])).slice(0, 3);
+  if (order.length > 0) {
+    lines.push(
+      "  largest leave-one-out residuals: " +
+        order.map((i) => `line ${model.points.line[i]}: ${model.loo[i] >= 0 ? "+" : ""}${fmt(model.loo[i], 3)}`).join("; "),
+    );
+  }
+  for (const w of d.warnings) lines.push(`WARNING: ${w}`);
+  return lines;
+}
+
+/** The whole plain-text summary, ending with the caution. */
+export function summaryText(title: string, sections: string[][]): string {
+  const out = [title, "=".repeat(title.length)];
+  for (const s of sections) {
+    if (s.length === 0) continue;
+    out.push("", ...s);
+  }
+  out.push("", CAUTION, "");
+  return out.join("\n");
+}

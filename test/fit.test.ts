@@ -1,0 +1,214 @@
+// Checks of the fitting core against sources outside rbfield: ml-matrix (general-purpose linear
+// algebra library, npm), analytic facts of RBF theory (Fasshauer 2007; Wendland 2005), the GCV
+// definition (Craven & Wahba 1979) evaluated by brute force, leave-one-out by actual refitting,
+// and Franke's 1982 test function.
+import { describe, expect, it } from "vitest";
+import { EigenvalueDecomposition, Matrix, solve } from "ml-matrix";
+import { tridiagonalEigenvalues, tridiagonalize } from "../src/fit/linalg.ts";
+import { fitSurface } from "../src/fit/surface.ts";
+import { evaluateModel } from "../src/evaluate/evaluate.ts";
+import type { CleanPoints, DriftName, KernelName } from "../src/types.ts";
+
+function mulberry32(seed: number): () => number {
+  return () => {
+    seed = (seed + 0x6d2b79f5) >>> 0;
+    let t = seed;
+    t = Math.imul(t ^ (t >>> 15), t | 1);
+    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
+    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
+  };
+}
+
+export function makePoints(n: number, seed: number, f: (x: number, y: number) => number, x0 = 0, y0 = 0, size = 1): CleanPoints {
+  const r = mulberry32(seed);
+  const x = new Float64Array(n), y = new Float64Array(n), z = new Float64Array(n);
+  for (let i = 0; i < n; i++) {
+    x[i] = x0 + size * r();
+    y[i] = y0 + size * r();
+    z[i] = f(x[i], y[i]);
+  }
+  return { x, y, z, lines: Array.from({ length: n }, (_, i) => i + 2), skipped: [], merged: [], rowsRead: n };
+}
+
+/** Franke's test function (Franke 1982, Math. Comp.; formula as commonly reproduced, from memory). */
+export function franke(x: number, y: number): number {
+  return 0.75 * Math.exp(-((9 * x - 2) ** 2 + (9 * y - 2) ** 2) / 4) +
+    0.75 * Math.exp(-((9 * x + 1) ** 2) / 49 - (9 * y + 1) / 10) +
+    0.5 * Math.exp(-((9 * x - 7) ** 2 + (9 * y - 3) ** 2) / 4) -
+    0.2 * Math.exp(-((9 * x - 4) ** 2) - (9 * y - 7) ** 2);
+}
+
+describe("symmetric tridiagonal eigenvalues", () => {
+  it("match ml-matrix's EigenvalueDecomposition on a random symmetric matrix (reference library)", () => {
+    const r = mulberry32(7);
+    const n = 40;
+    const a = new Float64Array(n * n);
+    for (let i = 0; i < n; i++) for (let j = 0; j <= i; j++) a[i * n + j] = a[j * n + i] = r() - 0.5;
+    const ref = new EigenvalueDecomposition(new Matrix(Array.from({ length: n }, (_, i) => Array.from(a.subarray(i * n, i * n + n)))), {
+      assumeSymmetric: true,
+    }).realEigenvalues.slice().sort((p, q) => p - q);
+    const { d, e } = tridiagonalize(Float64Array.from(a), n);
+    const mine = tridiagonalEigenvalues(d, e);
+    for (let i = 0; i < n; i++) expect(Math.abs(mine[i] - ref[i])).toBeLessThan(1e-12);
+  });
+});
+
+describe("polynomial reproduction (RBF theory: the drift space is reproduced exactly; Fasshauer 2007, ch. 6)", () => {
+  const cases: [KernelName, DriftName, (x: number, y: number) => number][] = [
+    ["thin-plate", "linear", (x, y) => 3 + 2 * x - 5 * y],
+    ["thin-plate", "quadratic", (x, y) => 1 + x - y + 0.5 * x * x - 2 * x * y + 3 * y * y],
+    ["gaussian", "constant", () => 7.25],
+    ["multiquadric", "linear", (x, y) => -1 + 4 * x + y],
+    ["inverse-multiquadric", "quadratic", (x, y) => 2 - x * x + y * y],
+  ];
+  for (const [kernel, drift, f] of cases) {
+    it(`${kernel} with ${drift} drift reproduces a ${drift} polynomial, with GCV smoothing`, () => {
+      const pts = makePoints(60, 11, f);
+      const model = fitSurface(pts, { kernel, drift, shape: kernel === "thin-plate" ? "auto" : 2 });
+      const tx = [0.1, 0.5, 0.93, 0.37];
+      const ty = [0.2, 0.5, 0.11, 0.81];
+      const est = evaluateModel(model, tx, ty);
+      tx.forEach((x, i) => expect(Math.abs(est[i] - f(x, ty[i]))).toBeLessThan(1e-8));
+    });
+  }
+});
+
+describe("interpolation with λ = 0 (the surface passes through every data point)", () => {
+  for (const kernel of ["thin-plate", "gaussian", "multiquadric", "inverse-multiquadric"] as KernelName[]) {
+    it(kernel, () => {
+      const pts = makePoints(80, 3, franke);
+      const model = fitSurface(pts, { kernel, drift: "linear", smoothing: 0, shape: kernel === "thin-plate" ? "auto" : 3 });
+      expect(model.diagnostics.smoothingChoice).toBe("given");
+      const est = evaluateModel(model, pts.x, pts.y);
+      for (let i = 0; i < pts.x.length; i++) expect(Math.abs(est[i] - pts.z[i])).toBeLessThan(1e-8);
+      expect(model.diagnostics.edf).toBeCloseTo(80, 6);
+    });
+  }
+});
+
+describe("GCV and leave-one-out against brute force", () => {
+  // Thin-plate kernel written out here (Duchon 1977), independent of src/fit/kernels.ts.
+  const tps = (r2: number) => (r2 > 0 ? 0.5 * r2 * Math.log(r2) : 0);
+  const noisy = (x: number, y: number) => Math.sin(6 * x) * Math.cos(4 * y);
+
+  it("GCV score and edf equal N‖(I−A)y‖²/tr(I−A)² and tr(A) from the explicit influence matrix (Craven & Wahba 1979)", () => {
+    const n = 40;
+    const pts = makePoints(n, 5, noisy);
+    const r = mulberry32(9);
+    for (let i = 0; i < n; i++) pts.z[i] += 0.6 * (r() - 0.5);
+    const model = fitSurface(pts, { kernel: "thin-plate", drift: "linear" });
+    expect(model.diagnostics.edf).toBeLessThan(n - 5); // a real smoothing fit, not interpolation
+    // Build the bordered system in the model's scaled coordinates with ml-matrix and get A column by column.
+    const { cx, cy, s } = model.scaling;
+    const lam = model.internal.lambdaScaled;
+    const u = Array.from(pts.x, (v) => (v - cx) / s), v = Array.from(pts.y, (w) => (w - cy) / s);
+    const m = 3;
+    const M = Matrix.zeros(n + m, n + m);
+    for (let i = 0; i < n; i++) {
+      for (let j = 0; j < n; j++) M.set(i, j, tps((u[i] - u[j]) ** 2 + (v[i] - v[j]) ** 2) + (i === j ? lam : 0));
+      const p = [1, u[i], v[i]];
+      for (let k = 0; k < m; k++) {
+        M.set(i, n + k, p[k]);
+        M.set(n + k, i, p[k]);
+      }
+    }
+    const A = Matrix.zeros(n, n);
+    for (let j = 0; j < n; j++) {
+      const e = Matrix.zeros(n + m, 1);
+      e.set(j, 0, 1);
+      const sol = solve(M, e);
+      // fitted = y − λ w, so column j of A is e_j − λ w(e_j)
+      for (let i = 0; i < n; i++) A.set(i, j, (i === j ? 1 : 0) - lam * sol.get(i, 0));
+    }
+    let tr = 0;
+    for (let i = 0; i < n; i++) tr += A.get(i, i);
+    const y = Matrix.columnVector(Array.from(pts.z));
+    const res = y.clone().sub(A.mmul(y));
+    const gcv = (n * res.norm() ** 2) / (n - tr) ** 2;
+    expect(model.diagnostics.edf).toBeCloseTo(tr, 6);
+    expect(Math.abs(model.diagnostics.gcv - gcv) / gcv).toBeLessThan(1e-6);
+  });
+
+  it("leave-one-out residuals from one factorisation equal residuals from actually refitting without each point (Rippa 1999)", () => {
+    const n = 25;
+    const pts = makePoints(n, 8, noisy);
+    const lambda = 0.001;
+    const model = fitSurface(pts, { kernel: "gaussian", drift: "constant", shape: 2.5, smoothing: lambda });
+    for (const i of [0, 7, 24]) {
+      const keep = [...Array(n).keys()].filter((k) => k !== i);
+      const sub: CleanPoints = {
+        x: Float64Array.from(keep, (k) => pts.x[k]),
+        y: Float64Array.from(keep, (k) => pts.y[k]),
+        z: Float64Array.from(keep, (k) => pts.z[k]),
+        lines: keep.map((k) => k + 2),
+        skipped: [],
+        merged: [],
+        rowsRead: n - 1,
+      };
+      const m2 = fitSurface(sub, { kernel: "gaussian", drift: "constant", shape: 2.5, smoothing: lambda });
+      const pred = evaluateModel(m2, [pts.x[i]], [pts.y[i]])[0];
+      expect(model.loo[i]).toBeCloseTo(pts.z[i] - pred, 8);
+    }
+  });
+});
+
+describe("Franke's function (Franke 1982): the error falls as points are added", () => {
+  it("thin-plate with GCV on 50, 200 and 800 points", () => {
+    const errs: number[] = [];
+    for (const n of [50, 200, 800]) {
+      const model = fitSurface(makePoints(n, 100 + n, franke), { kernel: "thin-plate", drift: "linear" });
+      const g = 30;
+      const tx: number[] = [], ty: number[] = [];
+      for (let i = 0; i < g; i++) for (let j = 0; j < g; j++) {
+        tx.push(0.1 + (0.8 * i) / (g - 1));
+        ty.push(0.1 + (0.8 * j) / (g - 1));
+      }
+      const est = evaluateModel(model, tx, ty);
+      let ss = 0;
+      for (let k = 0; k < tx.length; k++) ss += (est[k] - franke(tx[k], ty[k])) ** 2;
+      errs.push(Math.sqrt(ss / tx.length));
+    }
+    // Each fourfold increase in points (halving the spacing h) should cut the error clearly;
+    // thin-plate splines converge like O(h) or better on smooth functions (Wendland 2005, ch. 11).
+    expect(errs[1]).toBeLessThan(errs[0] * 0.6);
+    expect(errs[2]).toBeLessThan(errs[1] * 0.6);
+    expect(errs[2]).toBeLessThan(2e-3);
+  });
+});
+
+describe("invariance (a fit must not depend on where the origin is)", () => {
+  it("translating coordinates by (5·10⁵, 6·10⁶) m changes no estimate by more than 1e-6 of the data range", () => {
+    const f = (x: number, y: number) => franke(x / 1000, y / 1000) * 10;
+    const a = makePoints(150, 21, f, 0, 0, 1000);
+    const b: CleanPoints = { ...a, x: a.x.map((v) => v + 5e5), y: a.y.map((v) => v + 6e6) };
+    for (const kernel of ["thin-plate", "gaussian"] as KernelName[]) {
+      const ma = fitSurface(a, { kernel, drift: "linear" });
+      const mb = fitSurface(b, { kernel, drift: "linear" });
+      const tx = [100, 500, 900], ty = [300, 500, 700];
+      const ea = evaluateModel(ma, tx, ty);
+      const eb = evaluateModel(mb, tx.map((v) => v + 5e5), ty.map((v) => v + 6e6));
+      for (let i = 0; i < 3; i++) expect(Math.abs(ea[i] - eb[i])).toBeLessThan(1e-6 * 10);
+    }
+  });
+  it("scaling the values by a constant scales the estimates by it", () => {
+    const a = makePoints(100, 4, franke);
+    const b: CleanPoints = { ...a, z: a.z.map((v) => v * 250) };
+    const ma = fitSurface(a, {}), mb = fitSurface(b, {});
+    const ea = evaluateModel(ma, [0.3, 0.6], [0.4, 0.7]), eb = evaluateModel(mb, [0.3, 0.6], [0.4, 0.7]);
+    for (let i = 0; i < 2; i++) expect(Math.abs(eb[i] - 250 * ea[i])).toBeLessThan(1e-9 * 250);
+  });
+});
+
+describe("degenerate data is refused with a clear message", () => {
+  it("thin-plate without linear drift", () => {
+    expect(() => fitSurface(makePoints(20, 1, franke), { kernel: "thin-plate", drift: "constant" })).toThrow(/needs at least linear drift/);
+  });
+  it("all points on one line with linear drift", () => {
+    const p = makePoints(20, 1, franke);
+    p.y = p.x.map((v) => 2 * v + 1);
+    expect(() => fitSurface(p, { kernel: "thin-plate", drift: "linear" })).toThrow(/do not support linear drift/);
+  });
+  it("too few points for the drift", () => {
+    expect(() => fitSurface(makePoints(5, 1, franke), { kernel: "gaussian", drift: "quadratic", shape: 1 })).toThrow(/too few/);
+  });
+});
