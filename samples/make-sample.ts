@@ -21,8 +21,8 @@ const gauss = () => Math.sqrt(-2 * Math.log(1 - rand())) * Math.cos(2 * Math.PI 
 const X0 = 512300, Y0 = 5402100;
 function ground(x: number, y: number): number {
   const u = (x - X0) / 400, v = (y - Y0) / 300;
-  return 84 + 6 * u + 4 * v + 2.5 * Math.exp(-((u - 0.7) ** 2 + (v - 0.35) ** 2) / 0.02) -
-    1.8 * Math.exp(-((u - 0.35 - 0.2 * v) ** 2) / 0.004) + 0.6 * Math.sin(3 * u) * Math.cos(2 * v);
+  return 84 + 6 * u + 4 * v + 2.5 * Math.exp(-((u - 0.7) ** 2 + (v - 0.35) ** 2) / 0.04) -
+    1.8 * Math.exp(-((u - 0.35 - 0.2 * v) ** 2) / 0.03) + 0.6 * Math.sin(3 * u) * Math.cos(2 * v);
 }
 
 const rows: string[] = [
@@ -32,11 +32,11 @@ const rows: string[] = [
 ];
 let id = 1000;
 const shot = (x: number, y: number, code: string, level?: string) => {
-  const z = level ?? (ground(x, y) + 0.015 * gauss()).toFixed(3);
+  const z = level ?? (ground(x, y) + 0.03 * gauss()).toFixed(3);
   rows.push(`${id++},${x.toFixed(3)},${y.toFixed(3)},${z},${code}`);
 };
 // Scattered shots over the lot.
-for (let i = 0; i < 220; i++) shot(X0 + 400 * rand(), Y0 + 300 * rand(), "NS");
+for (let i = 0; i < 420; i++) shot(X0 + 400 * rand(), Y0 + 300 * rand(), "NS");
 // A denser string along the proposed access road.
 for (let i = 0; i < 40; i++) shot(X0 + 20 + 9 * i + 2 * rand(), Y0 + 60 + 4 * i + 2 * rand(), "RD");
 // Field realities the tool must handle and report:

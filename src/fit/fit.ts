@@ -39,7 +39,7 @@ export interface Scaling {
   zs: number;
 }
 
-export function computeScaling(x: Float64Array, y: Float64Array, z: Float64Array): Scaling {
+export function computeScaling(x: Float64Array, y: Float64Array, z: Float64Array, centreValues = true): Scaling {
   const n = x.length;
   let xmin = Infinity, xmax = -Infinity, ymin = Infinity, ymax = -Infinity, zsum = 0;
   for (let i = 0; i < n; i++) {
@@ -53,7 +53,9 @@ export function computeScaling(x: Float64Array, y: Float64Array, z: Float64Array
   const cy = 0.5 * (ymin + ymax);
   // One scale for both axes keeps distances isotropic.
   const s = Math.max(0.5 * (xmax - xmin), 0.5 * (ymax - ymin)) || 1;
-  const zc = zsum / n;
+  // With no drift the surface must fall to 0 away from the data (f = Σ wᵢ φ), so values are
+  // only scaled, not centred; centring would act as a hidden constant drift.
+  const zc = centreValues ? zsum / n : 0;
   let ss = 0;
   for (let i = 0; i < n; i++) ss += (z[i] - zc) ** 2;
   const zs = Math.sqrt(ss / n) || 1;

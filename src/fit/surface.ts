@@ -72,7 +72,7 @@ export function fitSurface(points: CleanPoints, options: FitOptions = {}): Surfa
   const n = points.x.length;
   if (n < 3) throw new RbfieldError(`${n} usable points are too few to fit a surface: at least 3 are needed`, ExitCode.input);
 
-  const sc = computeScaling(points.x, points.y, points.z);
+  const sc = computeScaling(points.x, points.y, points.z, drift !== "none");
   const u = new Float64Array(n);
   const v = new Float64Array(n);
   const yv = new Float64Array(n);

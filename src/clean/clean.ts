@@ -1,0 +1,218 @@
+// Clean stage: drop rows without usable numbers and merge coincident points.
+import { ExitCode, inputError, RbfieldError } from "../errors.ts";
+import { parseNumber } from "../read/points.ts";
+import { formatNumber } from "../write/csv.ts";
+import type { CleanPoints, MergedGroup, PointTable, SkippedRow } from "../types.ts";
+
+export interface CleanOptions {
+  /** Points closer than this (map units) are coincident; default 0 = exactly equal coordinates. */
+  tolerance?: number;
+  /** Refuse when merged values differ by more than this, unless mergeConflicts; default 0. */
+  maxSpread?: number;
+  mergeConflicts?: boolean;
+}
+
+export function cleanPoints(table: PointTable, options: CleanOptions = {}): CleanPoints {
+  const tol = options.tolerance ?? 0;
+  const maxSpread = options.maxSpread ?? 0;
+  if (!(tol >= 0) || !Number.isFinite(tol)) {
+    throw new RbfieldError(`tolerance must be a finite number >= 0, got ${tol}`, ExitCode.usage);
+  }
+  if (!(maxSpread >= 0)) {
+    throw new RbfieldError(`maximum spread must be a number >= 0, got ${maxSpread}`, ExitCode.usage);
+  }
+  if (table.zColumn < 0) {
+    throw inputError("no value column was chosen; name it with --z", { file: table.file, line: 1 });
+  }
+
+  // 1. Parse numbers; rows that fail go to `skipped`.
+  const n = table.rows.length;
+  const px = new Float64Array(n);
+  const py = new Float64Array(n);
+  const pz = new Float64Array(n);
+  const pline: number[] = [];
+  const skipped: SkippedRow[] = [];
+  const cols = [table.xColumn, table.yColumn, table.zColumn];
+  const vals = [0, 0, 0];
+  let m = 0;
+  rows: for (let i = 0; i < n; i++) {
+    const row = table.rows[i];
+    for (let k = 0; k < 3; k++) {
+      const cell = row[cols[k]] ?? "";
+      const v = parseNumber(cell, table.decimalComma);
+      if (Number.isNaN(v)) {
+        skipped.push({ line: table.lines[i], reason: badCellReason(cell, table.columns[cols[k]], table.decimalComma) });
+        continue rows;
+      }
+      vals[k] = v;
+    }
+    px[m] = vals[0];
+    py[m] = vals[1];
+    pz[m] = vals[2];
+    pline.push(table.lines[i]);
+    m++;
+  }
+
+  // 2. Group coincident points; a group's first point decides membership.
+  // Hash table of groups keyed by exact coordinates (tol 0) or by cells of size tol.
+  const groupOf = new Int32Array(m);
+  const firstOf: number[] = [];
+  let multi = false;
+  let size = 16;
+  while (size < 2 * m) size *= 2;
+  const mask = size - 1;
+  const head = new Int32Array(size).fill(-1); // first group in each bucket
+  const next = new Int32Array(Math.max(m, 1)); // next group in the same bucket
+  const addGroup = (p: number, bucket: number) => {
+    const g = firstOf.length;
+    firstOf.push(p);
+    next[g] = head[bucket];
+    head[bucket] = g;
+    groupOf[p] = g;
+  };
+  if (tol === 0) {
+    for (let p = 0; p < m; p++) {
+      const b = hashPair(floatHash(px[p]), floatHash(py[p])) & mask;
+      let g = head[b];
+      while (g >= 0 && !(px[firstOf[g]] === px[p] && py[firstOf[g]] === py[p])) g = next[g];
+      if (g >= 0) {
+        groupOf[p] = g;
+        multi = true;
+      } else addGroup(p, b);
+    }
+  } else {
+    const tol2 = tol * tol;
+    for (let p = 0; p < m; p++) {
+      const cx = Math.floor(px[p] / tol);
+      const cy = Math.floor(py[p] / tol);
+      let found = -1;
+      for (let dx = -1; dx <= 1; dx++) {
+        for (let dy = -1; dy <= 1; dy++) {
+          // Hash collisions only add candidates; the distance test decides.
+          for (let g = head[hashPair(cx + dx, cy + dy) & mask]; g >= 0; g = next[g]) {
+            const q = firstOf[g];
+            const ex = px[p] - px[q];
+            const ey = py[p] - py[q];
+            if (ex * ex + ey * ey < tol2 && (found < 0 || g < found)) found = g;
+          }
+        }
+      }
+      if (found >= 0) {
+        groupOf[p] = found;
+        multi = true;
+      } else addGroup(p, hashPair(cx, cy) & mask);
+    }
+  }
+
+  // 3. One output point per group, in order of first occurrence.
+  const G = firstOf.length;
+  const x = new Float64Array(G);
+  const y = new Float64Array(G);
+  const z = new Float64Array(G);
+  const lines: number[] = new Array(G);
+  for (let g = 0; g < G; g++) {
+    const p = firstOf[g];
+    x[g] = px[p];
+    y[g] = py[p];
+    z[g] = pz[p];
+    lines[g] = pline[p];
+  }
+  const merged: MergedGroup[] = [];
+  if (multi) {
+    const count = new Int32Array(G);
+    const sx = new Float64Array(G);
+    const sy = new Float64Array(G);
+    const sz = new Float64Array(G);
+    const lo = new Float64Array(G).fill(Infinity);
+    const hi = new Float64Array(G).fill(-Infinity);
+    const members = new Map<number, number[]>();
+    for (let p = 0; p < m; p++) {
+      const g = groupOf[p];
+      count[g]++;
+      sx[g] += px[p];
+      sy[g] += py[p];
+      sz[g] += pz[p];
+      if (pz[p] < lo[g]) lo[g] = pz[p];
+      if (pz[p] > hi[g]) hi[g] = pz[p];
+      if (firstOf[g] !== p) {
+        const list = members.get(g);
+        if (list) list.push(pline[p]);
+        else members.set(g, [pline[firstOf[g]], pline[p]]);
+      }
+    }
+    for (let g = 0; g < G; g++) {
+      if (count[g] < 2) continue;
+      const spread = hi[g] - lo[g];
+      const groupLines = members.get(g)!;
+      if (spread > maxSpread && !options.mergeConflicts) {
+        const limit = maxSpread === 0 ? "" : ` (more than the allowed ${formatNumber(maxSpread, 6)})`;
+        throw inputError(
+          `coincident points on lines ${groupLines.join(", ")} have values that differ by ` +
+            `${formatNumber(spread, 6)}${limit}; correct or remove the wrong one, ` +
+            `or use --merge-conflicts to average them`,
+          { file: table.file, line: groupLines[0] },
+        );
+      }
+      x[g] = sx[g] / count[g];
+      y[g] = sy[g] / count[g];
+      z[g] = sz[g] / count[g];
+      merged.push({ x: x[g], y: y[g], lines: groupLines, spread, value: z[g] });
+    }
+  }
+  return { x, y, z, lines, skipped, merged, rowsRead: n };
+}
+
+const hashView = new Float64Array(1);
+const hashBits = new Uint32Array(hashView.buffer);
+
+/** 32-bit hash of a double's bits; -0 hashes as 0. */
+function floatHash(v: number): number {
+  hashView[0] = v + 0;
+  return Math.imul(hashBits[0], 0x9e3779b1) ^ hashBits[1];
+}
+
+/** 32-bit hash of two numbers (integers up to 2^53 stay distinct modulo 2^32). */
+function hashPair(a: number, b: number): number {
+  let h = Math.imul(a | 0, 0x85ebca6b) ^ Math.imul((a / 4294967296) | 0, 0xc2b2ae35);
+  h = Math.imul(h ^ (h >>> 16), 0x27d4eb2f) ^ Math.imul(b | 0, 0x165667b1) ^ ((b / 4294967296) | 0);
+  h = Math.imul(h ^ (h >>> 15), 0x2c1b3c6d);
+  return (h ^ (h >>> 13)) >>> 0;
+}
+
+function badCellReason(cell: string, column: string, decimalComma: boolean): string {
+  const t = cell.trim();
+  if (t === "") return `missing value in column '${column}'`;
+  const asNumber = Number(decimalComma ? t.replace(",", ".") : t);
+  if (/^[+-]?(nan|inf|infinity)$/i.test(t) || asNumber === Infinity || asNumber === -Infinity) {
+    return `value '${t}' in column '${column}' is not a finite number`;
+  }
+  const hint = decimalComma && t.includes(".") ? " (this file uses a decimal comma)" : "";
+  return `value '${t}' in column '${column}' is not a number${hint}`;
+}
+
+/** Short summary lines, e.g. "skipped 3 rows with missing or non-numeric values (lines 7, 12, 40)". */
+export function describeCleaning(points: CleanPoints, maxListed = 5): string[] {
+  const out: string[] = [];
+  const s = points.skipped.length;
+  if (s > 0) {
+    const lines = listLines(points.skipped.map((r) => r.line), maxListed);
+    out.push(`skipped ${s} ${s === 1 ? "row" : "rows"} with missing or non-numeric values (${lines})`);
+  }
+  const g = points.merged.length;
+  if (g > 0) {
+    let largest = 0;
+    for (const group of points.merged) largest = Math.max(largest, group.spread);
+    out.push(
+      `merged ${g} ${g === 1 ? "group" : "groups"} of coincident points (largest spread ${formatNumber(largest, 6)})`,
+    );
+  }
+  return out;
+}
+
+function listLines(lines: number[], maxListed: number): string {
+  const shown = lines.slice(0, Math.max(0, maxListed));
+  const rest = lines.length - shown.length;
+  const word = lines.length === 1 ? "line" : "lines";
+  if (shown.length === 0) return `${lines.length} ${word}`;
+  return `${word} ${shown.join(", ")}${rest > 0 ? ` and ${rest} more` : ""}`;
+}

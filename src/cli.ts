@@ -1,0 +1,335 @@
+// rbfield command-line tool: a thin layer over the library (src/mod.ts).
+// Usage: deno task rbfield <verb> [options]; every verb has --help.
+import { parseArgs } from "node:util";
+import { CAUTION } from "./caution.ts";
+import { ExitCode, RbfieldError } from "./errors.ts";
+import { gridModel, type GridOptions } from "./evaluate/grid.ts";
+import { KERNELS, DRIFTS } from "./fit/kernels.ts";
+import type { FitOptions } from "./fit/surface.ts";
+import {
+  contourGeoJson,
+  estimateTable,
+  fitPointsFile,
+  readGrid,
+  readMask,
+  readModel,
+  runJob,
+} from "./job.ts";
+import { modelToJson, type SurfaceModel } from "./model/model.ts";
+import { readPointTable } from "./read/points.ts";
+import type { DriftName, KernelName } from "./types.ts";
+import { checkWritableFolder, refuseInputAsOutput, writeFileAtomic } from "./write/atomic.ts";
+import { estimatesCsv } from "./write/csv.ts";
+import { encodeGeoTiff } from "./write/geotiff.ts";
+import { fmt, modelSummaryLines } from "./write/summary.ts";
+
+type Spec = Record<string, { type: "string" | "boolean" }>;
+
+const COMMON: Spec = { help: { type: "boolean" }, json: { type: "boolean" }, debug: { type: "boolean" }, quiet: { type: "boolean" } };
+const POINTS: Spec = {
+  x: { type: "string" },
+  y: { type: "string" },
+  z: { type: "string" },
+  crs: { type: "string" },
+  "max-spread": { type: "string" },
+  "merge-conflicts": { type: "boolean" },
+};
+const MODEL: Spec = {
+  kernel: { type: "string" },
+  shape: { type: "string" },
+  drift: { type: "string" },
+  smoothing: { type: "string" },
+};
+const GRID: Spec = { cell: { type: "string" }, extent: { type: "string" }, mask: { type: "string" }, force: { type: "boolean" } };
+const CONTOUR: Spec = { interval: { type: "string" }, base: { type: "string" }, bands: { type: "boolean" } };
+
+const POINTS_HELP = `  --x COL --y COL --z COL   columns to use (default: detected from header names such as
+                            x/easting/e, y/northing/n, z/elevation/level/value)
+  --crs EPSG:NNNN|local     coordinate reference system of the points (default: the file's own,
+                            else a local site grid with no EPSG code)
+  --max-spread DZ           refuse coincident points whose values differ by more than DZ
+  --merge-conflicts         merge such points anyway (mean value) and report them`;
+const MODEL_HELP = `  --kernel K                ${KERNELS.join("|")} (default thin-plate)
+  --shape auto|NUMBER       shape ε in 1/map units for gaussian and the multiquadrics (default auto:
+                            chosen by GCV)
+  --drift D                 ${DRIFTS.join("|")} (default linear; thin-plate needs linear or more)
+  --smoothing gcv|NUMBER    λ added to the kernel matrix diagonal (0 interpolates; default gcv)`;
+const GRID_HELP = `  --cell SIZE               cell size in map units (default: half the median point spacing,
+                            at least 200 cells along the longer side, rounded to 1, 2, 2.5 or 5·10ᵏ)
+  --extent XMIN,YMIN,XMAX,YMAX  outer edges of the grid (default: the data's bounding box)
+  --mask hull|none|FILE     hull: the data's convex hull (default); FILE: GeoJSON polygons to keep
+  --force                   allow grids above 100 million cells`;
+const COMMON_HELP = `  --json                    print a machine-readable JSON summary on stdout
+  --quiet                   no progress messages on stderr
+  --debug                   show a stack trace on internal errors
+  --help                    this help`;
+
+const HELP: Record<string, string> = {
+  main: `rbfield — surfaces from scattered survey points by radial-basis-function regression
+
+Usage: deno task rbfield <verb> [options]
+
+Verbs:
+  fit POINTS --out MODEL          fit a surface to points and save the model
+  grid MODEL --out FILE.tif       evaluate the surface on a georeferenced grid (GeoTIFF)
+  contour MODEL|FILE.tif --out FILE.geojson --interval DZ   contour lines or filled bands
+  predict MODEL LOCATIONS.csv --out FILE.csv                estimates at listed places
+  run POINTS --out DIR            the whole job: model, grid, contours, estimates, summary
+
+'deno task rbfield <verb> --help' shows each verb's options.
+Exit codes: 0 success, 1 internal error, 2 bad command line, 3 bad input data,
+4 file cannot be read or written, 5 the data cannot support the model asked for.
+
+${CAUTION}
+`,
+  fit: `Usage: deno task rbfield fit POINTS --out MODEL [options]
+
+Reads POINTS (CSV, TSV, semicolon or whitespace text with a header row, or GeoJSON points), fits
+an RBF surface with polynomial drift, chooses the smoothing by generalized cross-validation and
+writes the model file (JSON, format rbfield-model version 1).
+
+${POINTS_HELP}
+${MODEL_HELP}
+${COMMON_HELP}
+`,
+  grid: `Usage: deno task rbfield grid MODEL --out FILE.tif [options]
+
+Evaluates a saved model on a regular grid and writes a single-band Float32 GeoTIFF (cells are
+areas; nodata -9999 for masked cells; CRS keys from the model's EPSG code).
+
+${GRID_HELP}
+${COMMON_HELP}
+`,
+  contour: `Usage: deno task rbfield contour MODEL|FILE.tif --out FILE.geojson --interval DZ [options]
+
+Contour lines at BASE + k·DZ as GeoJSON MultiLineString features with a numeric "level"
+property; with --bands, filled polygons between consecutive levels with "lower" and "upper".
+Coordinates stay in the grid's CRS. From a MODEL, a grid is made first (grid options apply).
+
+  --interval DZ             contour interval (required)
+  --base Z0                 a level that is a contour (default 0)
+  --bands                   filled bands instead of lines
+${GRID_HELP}
+${COMMON_HELP}
+`,
+  predict: `Usage: deno task rbfield predict MODEL LOCATIONS.csv --out FILE.csv [options]
+
+Keeps every column of LOCATIONS and adds a column "estimate" (RFC 4180 CSV). Rows without
+usable coordinates get an empty estimate and are reported.
+
+  --x COL --y COL           coordinate columns (default: detected from the header)
+${COMMON_HELP}
+`,
+  run: `Usage: deno task rbfield run POINTS --out DIR [options]
+
+The whole job: fit, grid, contours and bands, estimates and a summary, written into DIR as
+model.rbfield.json, surface.tif, contours.geojson, bands.geojson, estimates.csv, residuals.csv
+and summary.txt.
+
+${POINTS_HELP}
+${MODEL_HELP}
+${GRID_HELP}
+  --interval DZ             contour interval (default: a round number giving about ten levels)
+  --base Z0                 a level that is a contour (default 0)
+  --locations FILE.csv      places to estimate at (default: the input points)
+${COMMON_HELP}
+`,
+};
+
+function usage(message: string): RbfieldError {
+  return new RbfieldError(message, ExitCode.usage);
+}
+
+function num(value: string | undefined, name: string): number | undefined {
+  if (value === undefined) return undefined;
+  const v = Number(value);
+  if (value.trim() === "" || !Number.isFinite(v)) throw usage(`--${name} must be a number, not "${value}"`);
+  return v;
+}
+
+function fitOptions(v: Record<string, unknown>): FitOptions {
+  const kernel = (v.kernel as string | undefined) ?? "thin-plate";
+  if (!KERNELS.includes(kernel as KernelName)) throw usage(`--kernel must be one of ${KERNELS.join(", ")}, not "${kernel}"`);
+  const drift = (v.drift as string | undefined) ?? "linear";
+  if (!DRIFTS.includes(drift as DriftName)) throw usage(`--drift must be one of ${DRIFTS.join(", ")}, not "${drift}"`);
+  const shapeText = (v.shape as string | undefined) ?? "auto";
+  const shape = shapeText === "auto" ? "auto" as const : num(shapeText, "shape")!;
+  if (shape !== "auto" && !(shape > 0)) throw usage(`--shape must be a positive number or auto, not "${shapeText}"`);
+  const smText = (v.smoothing as string | undefined) ?? "gcv";
+  const smoothing = smText === "gcv" ? "gcv" as const : num(smText, "smoothing")!;
+  if (smoothing !== "gcv" && !(smoothing >= 0)) throw usage(`--smoothing must be gcv or a number ≥ 0, not "${smText}"`);
+  return { kernel: kernel as KernelName, drift: drift as DriftName, shape, smoothing };
+}
+
+function gridOptions(v: Record<string, unknown>): Omit<GridOptions, "progress"> {
+  const opts: Omit<GridOptions, "progress"> = {};
+  opts.cell = num(v.cell as string | undefined, "cell");
+  if (opts.cell !== undefined && !(opts.cell > 0)) throw usage("--cell must be a positive number");
+  if (v.extent !== undefined) {
+    const parts = String(v.extent).split(",").map((s) => Number(s.trim()));
+    if (parts.length !== 4 || !parts.every(Number.isFinite)) throw usage(`--extent must be XMIN,YMIN,XMAX,YMAX, not "${v.extent}"`);
+    opts.extent = parts as [number, number, number, number];
+  }
+  const mask = (v.mask as string | undefined) ?? "hull";
+  opts.mask = mask === "hull" || mask === "none" ? mask : readMask(mask);
+  opts.force = Boolean(v.force);
+  return opts;
+}
+
+function pointsSource(file: string, v: Record<string, unknown>) {
+  return {
+    file,
+    x: v.x as string | undefined,
+    y: v.y as string | undefined,
+    z: v.z as string | undefined,
+    crs: v.crs as string | undefined,
+    maxSpread: num(v["max-spread"] as string | undefined, "max-spread"),
+    mergeConflicts: Boolean(v["merge-conflicts"]),
+  };
+}
+
+function modelJson(model: SurfaceModel): Record<string, unknown> {
+  const d = model.diagnostics;
+  return {
+    kernel: model.kernel,
+    shape: model.shape,
+    drift: model.drift,
+    lambda: model.lambda,
+    edf: d.edf,
+    gcv: d.gcv,
+    loocvRmse: d.loocvRmse,
+    rmse: d.rmse,
+    sigma: d.sigma,
+    condition: d.condition,
+    n: d.n,
+    smoothingChoice: d.smoothingChoice,
+    shapeChoice: d.shapeChoice,
+    crs: model.crs,
+    warnings: d.warnings,
+    caution: CAUTION,
+  };
+}
+
+interface Io {
+  out: (s: string) => void;
+  err: (s: string) => void;
+}
+
+/** Run the CLI with arguments; returns the exit code. */
+export async function main(args: string[], io: Io): Promise<number> {
+  const verb = args[0];
+  const debug = args.includes("--debug");
+  try {
+    if (verb === undefined || verb === "--help" || verb === "-h" || verb === "help") {
+      io.out(HELP.main);
+      return verb === undefined ? ExitCode.usage : 0;
+    }
+    if (!(verb in HELP) || verb === "main") throw usage(`unknown verb "${verb}"; verbs: fit, grid, contour, predict, run (see --help)`);
+    const specs: Record<string, Spec> = {
+      fit: { ...COMMON, ...POINTS, ...MODEL, out: { type: "string" } },
+      grid: { ...COMMON, ...GRID, out: { type: "string" } },
+      contour: { ...COMMON, ...GRID, ...CONTOUR, out: { type: "string" } },
+      predict: { ...COMMON, x: { type: "string" }, y: { type: "string" }, out: { type: "string" } },
+      run: { ...COMMON, ...POINTS, ...MODEL, ...GRID, ...CONTOUR, out: { type: "string" }, locations: { type: "string" } },
+    };
+    let parsed;
+    try {
+      parsed = parseArgs({ args: args.slice(1), options: specs[verb], allowPositionals: true, strict: true });
+    } catch (e) {
+      throw usage(`${verb}: ${(e as Error).message.split("\n")[0]} (see 'deno task rbfield ${verb} --help')`);
+    }
+    const v = parsed.values as Record<string, unknown>;
+    const pos = parsed.positionals;
+    if (v.help) {
+      io.out(HELP[verb]);
+      return 0;
+    }
+    const progress = v.quiet ? undefined : (m: string) => io.err(`rbfield: ${m}`);
+    const wantPositionals = verb === "predict" ? 2 : 1;
+    if (pos.length !== wantPositionals) {
+      throw usage(`${verb} takes ${wantPositionals === 2 ? "MODEL and LOCATIONS" : "one input file"}, got ${pos.length} (see 'deno task rbfield ${verb} --help')`);
+    }
+    const out = v.out as string | undefined;
+    if (!out) throw usage(`${verb} needs --out (see 'deno task rbfield ${verb} --help')`);
+    if (verb !== "run") {
+      refuseInputAsOutput(out, pos);
+      checkWritableFolder(out);
+    }
+
+    if (verb === "fit") {
+      const fit = fitOptions(v);
+      const r = await fitPointsFile(pointsSource(pos[0], v), { ...fit, progress });
+      writeFileAtomic(out, modelToJson(r.model));
+      if (v.json) io.out(JSON.stringify({ ...modelJson(r.model), model: out }, null, 2) + "\n");
+      else io.out([...r.notes, ...modelSummaryLines(r.model), `Model written to ${out}`, "", CAUTION, ""].join("\n"));
+      return 0;
+    }
+    if (verb === "grid") {
+      const model = readModel(pos[0]);
+      const grid = gridModel(model, { ...gridOptions(v), progress });
+      writeFileAtomic(out, encodeGeoTiff(grid));
+      const s = grid.spec;
+      const info = { cols: s.cols, rows: s.rows, cell: s.cell, extent: [s.xmin, s.ymin, s.xmax, s.ymax], crs: grid.crs, file: out };
+      if (v.json) io.out(JSON.stringify({ ...info, caution: CAUTION }, null, 2) + "\n");
+      else io.out(`Grid ${s.cols} × ${s.rows} cells of ${fmt(s.cell)} written to ${out} (extent ${s.xmin}, ${s.ymin} to ${s.xmax}, ${s.ymax}; CRS ${grid.crs.label})\n\n${CAUTION}\n`);
+      return 0;
+    }
+    if (verb === "contour") {
+      const interval = num(v.interval as string | undefined, "interval");
+      if (interval === undefined) throw usage("contour needs --interval DZ");
+      const input = pos[0];
+      const isTiff = /\.tiff?$/i.test(input);
+      const grid = isTiff ? await readGrid(input) : gridModel(readModel(input), { ...gridOptions(v), progress });
+      const r = contourGeoJson(grid, interval, num(v.base as string | undefined, "base") ?? 0, Boolean(v.bands));
+      writeFileAtomic(out, r.text);
+      if (v.json) io.out(JSON.stringify({ levels: r.levels, bands: Boolean(v.bands), file: out, caution: CAUTION }, null, 2) + "\n");
+      else io.out(`${v.bands ? "Bands" : "Contours"} at ${r.levels.length} levels (interval ${fmt(interval)}) written to ${out}\n\n${CAUTION}\n`);
+      return 0;
+    }
+    if (verb === "predict") {
+      const model = readModel(pos[0]);
+      const table = await readPointTable(pos[1], { x: v.x as string | undefined, y: v.y as string | undefined, needValue: false });
+      const est = estimateTable(model, table);
+      writeFileAtomic(out, estimatesCsv(table, [{ name: "estimate", values: est.estimates }]));
+      const unusable = est.unusable.length ? `; ${est.unusable.length} rows without usable coordinates (lines ${est.unusable.slice(0, 5).join(", ")})` : "";
+      if (v.json) io.out(JSON.stringify({ rows: table.rows.length, unusableLines: est.unusable, file: out, caution: CAUTION }, null, 2) + "\n");
+      else io.out(`Estimates for ${table.rows.length - est.unusable.length} locations written to ${out}${unusable}\n\n${CAUTION}\n`);
+      return 0;
+    }
+    // run
+    const r = await runJob({
+      ...pointsSource(pos[0], v),
+      outDir: out,
+      fit: fitOptions(v),
+      grid: gridOptions(v),
+      interval: num(v.interval as string | undefined, "interval"),
+      base: num(v.base as string | undefined, "base"),
+      locations: v.locations as string | undefined,
+      progress,
+    });
+    if (v.json) io.out(JSON.stringify({ ...modelJson(r.model), files: r.files }, null, 2) + "\n");
+    else io.out(r.summary);
+    return 0;
+  } catch (e) {
+    if (e instanceof RbfieldError) {
+      io.err(`rbfield: ${e.message.split("\n")[0]}`);
+      return e.exitCode;
+    }
+    io.err(`rbfield: internal error: ${(e as Error)?.message ?? String(e)}${debug ? "" : " (run with --debug for details)"}`);
+    if (debug) io.err(String((e as Error)?.stack ?? e));
+    return ExitCode.internal;
+  }
+}
+
+function writeAll(stream: { writeSync(p: Uint8Array): number }, text: string): void {
+  let bytes = new TextEncoder().encode(text);
+  while (bytes.length > 0) bytes = bytes.subarray(stream.writeSync(bytes));
+}
+
+if (import.meta.main) {
+  const code = await main(Deno.args, {
+    out: (s) => writeAll(Deno.stdout, s),
+    err: (s) => writeAll(Deno.stderr, s + "\n"),
+  });
+  Deno.exit(code);
+}

@@ -1,0 +1,47 @@
+// CSV writer for estimates at input points: the input columns as read, plus added number columns.
+// Output follows RFC 4180 (comma delimiter, CRLF record ends, quotes doubled inside quoted fields).
+import { ExitCode, RbfieldError } from "../errors.ts";
+import type { PointTable } from "../types.ts";
+
+/**
+ * Deterministic number text: up to `digits` significant digits (1..17), trailing zeros trimmed,
+ * plain decimal form for |v| in [1e-6, 1e21); NaN and ±Infinity give "".
+ */
+export function formatNumber(v: number, digits = 10): string {
+  if (!Number.isFinite(v)) return "";
+  const d = Math.min(17, Math.max(1, Math.round(digits)));
+  // toPrecision rounds once; String() then gives the shortest text for that rounded value.
+  return String(Number(v.toPrecision(d)));
+}
+
+/** Quote a field when it holds a comma, a quote, CR or LF (RFC 4180 §2.6, §2.7). */
+export function csvField(text: string): string {
+  return /[",\r\n]/.test(text) ? `"${text.replace(/"/g, '""')}"` : text;
+}
+
+/** One record per input row: original cells, then each added column formatted with formatNumber. */
+export function estimatesCsv(
+  table: PointTable,
+  added: { name: string; values: Float64Array | number[]; digits?: number }[],
+): string {
+  for (const col of added) {
+    if (col.values.length !== table.rows.length) {
+      throw new RbfieldError(
+        `column '${col.name}' has ${col.values.length} values for ${table.rows.length} rows`,
+        ExitCode.internal,
+      );
+    }
+  }
+  const width = table.columns.length;
+  const out: string[] = [];
+  const header = [...table.columns, ...added.map((c) => c.name)];
+  out.push(header.map(csvField).join(",") + "\r\n");
+  for (let i = 0; i < table.rows.length; i++) {
+    const row = table.rows[i];
+    const fields: string[] = [];
+    for (let j = 0; j < width; j++) fields.push(csvField(row[j] ?? ""));
+    for (const col of added) fields.push(csvField(formatNumber(col.values[i], col.digits ?? 10)));
+    out.push(fields.join(",") + "\r\n");
+  }
+  return out.join("");
+}

@@ -1,0 +1,99 @@
+// GeoTIFF output: one Float32 band, pixel-is-area, georeferenced by tie point and pixel scale
+// (OGC GeoTIFF 1.1). Masked cells (NaN) are written as the nodata value and tagged GDAL_NODATA.
+import { writeArrayBuffer } from "geotiff";
+import type { GeotiffWriterMetadata } from "geotiff";
+import { ExitCode, RbfieldError } from "../errors.ts";
+import type { GridValues } from "../types.ts";
+
+/** Nodata value written for masked cells unless another is asked for. */
+export const DEFAULT_NODATA = -9999;
+
+/** GeoTIFF key values (OGC GeoTIFF 1.1, Annex). */
+const MODEL_PROJECTED = 1;
+const MODEL_GEOGRAPHIC = 2;
+const RASTER_PIXEL_IS_AREA = 1;
+const USER_DEFINED = 32767;
+
+/** True for the EPSG codes rbfield writes as geographic 2-D CRSs. */
+export function isGeographicEpsg(epsg: number): boolean {
+  return epsg >= 4000 && epsg <= 4999;
+}
+
+/**
+ * Encodes a grid as an uncompressed, big-endian, single-band Float32 GeoTIFF.
+ * The bytes depend only on the grid and options (no timestamps).
+ */
+export function encodeGeoTiff(grid: GridValues, options: { nodata?: number } = {}): Uint8Array {
+  const { spec, values, crs } = grid;
+  const nodata = options.nodata ?? DEFAULT_NODATA;
+  if (!Number.isInteger(spec.cols) || !Number.isInteger(spec.rows) || spec.cols < 1 || spec.rows < 1) {
+    throw new RbfieldError(`cannot write a GeoTIFF of ${spec.cols} × ${spec.rows} cells`, ExitCode.internal);
+  }
+  if (values.length !== spec.cols * spec.rows) {
+    throw new RbfieldError(
+      `grid has ${values.length} values for ${spec.cols} × ${spec.rows} cells`,
+      ExitCode.internal,
+    );
+  }
+  if (!(spec.cell > 0) || !Number.isFinite(spec.xmin) || !Number.isFinite(spec.ymax)) {
+    throw new RbfieldError(`grid origin or cell size is not a finite positive number`, ExitCode.internal);
+  }
+  // The nodata value must survive the trip to Float32, or readers would not recognise it.
+  if (!Number.isNaN(nodata) && Math.fround(nodata) !== nodata) {
+    throw new RbfieldError(
+      `nodata value ${nodata} cannot be stored exactly as a 32-bit float; pick e.g. -9999`,
+      ExitCode.usage,
+    );
+  }
+
+  const n = values.length;
+  const data = new Float32Array(n);
+  const nodata32 = Math.fround(nodata);
+  for (let i = 0; i < n; i++) {
+    const v = values[i];
+    if (Number.isNaN(v)) {
+      data[i] = nodata32;
+    } else {
+      data[i] = v;
+      // A real value equal to nodata would read back as masked.
+      if (data[i] === nodata32) {
+        throw new RbfieldError(
+          `grid value ${v} equals the nodata value ${nodata} when stored as a 32-bit float; pick another nodata value`,
+          ExitCode.usage,
+        );
+      }
+    }
+  }
+
+  const metadata: GeotiffWriterMetadata = {
+    width: spec.cols,
+    height: spec.rows,
+    SampleFormat: [3], // IEEE float
+    BitsPerSample: [32],
+    ModelPixelScale: [spec.cell, spec.cell, 0],
+    ModelTiepoint: [0, 0, 0, spec.xmin, spec.ymax, 0],
+    GDAL_NODATA: Number.isNaN(nodata) ? "nan" : String(nodata),
+    GTRasterTypeGeoKey: RASTER_PIXEL_IS_AREA,
+  };
+  if (crs.epsg === undefined) {
+    // Local site grid: a user-defined projected CRS. Naming ProjectedCSTypeGeoKey also keeps
+    // geotiff.js from adding its default EPSG:4326 keys.
+    metadata.GTModelTypeGeoKey = MODEL_PROJECTED;
+    metadata.ProjectedCSTypeGeoKey = USER_DEFINED;
+    metadata.GTCitationGeoKey = asciiCitation(crs.label || "local site grid");
+  } else if (isGeographicEpsg(crs.epsg)) {
+    metadata.GTModelTypeGeoKey = MODEL_GEOGRAPHIC;
+    metadata.GeographicTypeGeoKey = crs.epsg;
+  } else {
+    metadata.GTModelTypeGeoKey = MODEL_PROJECTED;
+    metadata.ProjectedCSTypeGeoKey = crs.epsg;
+  }
+  // geotiff.js copies values one at a time (about 0.7 s per million cells).
+  return new Uint8Array(writeArrayBuffer(data, metadata));
+}
+
+/** Plain printable ASCII, short enough to fit the writer's fixed 1000-byte header. */
+function asciiCitation(text: string): string {
+  const ascii = text.replace(/[^\x20-\x7e]/g, "?");
+  return ascii.length > 200 ? ascii.slice(0, 200) : ascii;
+}

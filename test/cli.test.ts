@@ -1,0 +1,140 @@
+// End-to-end checks of the command-line tool on small files made here; outputs are read back with
+// independent tools where one exists (GDAL's gdalinfo, Debian package gdal-bin).
+import { describe, expect, it } from "vitest";
+import { execFileSync } from "node:child_process";
+import * as fs from "node:fs";
+import * as os from "node:os";
+import * as path from "node:path";
+import { main } from "../src/cli.ts";
+
+async function cli(args: string[]) {
+  let out = "", err = "";
+  const code = await main(args, { out: (s) => (out += s), err: (s) => (err += s + "\n") });
+  return { code, out, err };
+}
+
+function hasGdal(): boolean {
+  try {
+    execFileSync("gdalinfo", ["--version"]);
+    return true;
+  } catch {
+    return false;
+  }
+}
+
+const tmp = fs.mkdtempSync(path.join(os.tmpdir(), "rbfield-cli-"));
+// A plane z = 10 + 0.02 x − 0.01 y sampled on a jittered lattice (analytic surface).
+const rows = ["id,easting,northing,level"];
+let k = 0;
+for (let i = 0; i < 8; i++) for (let j = 0; j < 8; j++) {
+  const x = 1000 + 10 * i + ((i * 7 + j * 3) % 5) * 0.7, y = 2000 + 10 * j + ((i * 2 + j * 5) % 5) * 0.6;
+  rows.push(`${k++},${x},${y},${(10 + 0.02 * x - 0.01 * y).toFixed(6)}`);
+}
+const pointsFile = path.join(tmp, "plane.csv");
+fs.writeFileSync(pointsFile, rows.join("\n") + "\n");
+
+describe("rbfield CLI", () => {
+  it("fit --json prints the required keys and writes a model", async () => {
+    const model = path.join(tmp, "plane.model.json");
+    const r = await cli(["fit", pointsFile, "--out", model, "--crs", "EPSG:32632", "--json", "--quiet"]);
+    expect(r.code).toBe(0);
+    const j = JSON.parse(r.out);
+    for (const key of ["kernel", "shape", "drift", "lambda", "edf", "gcv", "loocvRmse", "n"]) expect(j).toHaveProperty(key);
+    expect(j.n).toBe(64);
+    expect(j.kernel).toBe("thin-plate");
+    // A plane lies in the linear drift space: leave-one-out errors vanish (RBF polynomial precision).
+    expect(j.loocvRmse).toBeLessThan(1e-8);
+    expect(fs.existsSync(model)).toBe(true);
+  });
+
+  it("grid writes a GeoTIFF that GDAL reads with the intended origin, cell, CRS and nodata", async () => {
+    const model = path.join(tmp, "plane.model.json");
+    const tif = path.join(tmp, "plane.tif");
+    const r = await cli(["grid", model, "--out", tif, "--cell", "2", "--extent", "1000,2000,1080,2080", "--quiet"]);
+    expect(r.code).toBe(0);
+    if (!hasGdal()) {
+      if (process.env.CI) throw new Error("gdalinfo is required in CI");
+      return;
+    }
+    const info = JSON.parse(execFileSync("gdalinfo", ["-json", "-stats", tif]).toString());
+    // Pixel-is-area geotransform: origin at the outer north-west corner (OGC GeoTIFF 1.1).
+    expect(info.geoTransform).toEqual([1000, 2, 0, 2080, 0, -2]);
+    expect(info.size).toEqual([40, 40]);
+    expect(JSON.stringify(info.coordinateSystem)).toContain('ID[\\"EPSG\\",32632]');
+    const band = info.bands[0];
+    expect(band.type).toBe("Float32");
+    expect(band.noDataValue).toBe(-9999);
+    // Hull mask: corners outside the jittered lattice are nodata, so valid cells are fewer than 1600.
+    expect(Number(band.metadata[""].STATISTICS_VALID_PERCENT)).toBeLessThan(100);
+    // Values of the plane at cell centres inside the data: within [min, max] of the plane over the extent.
+    expect(band.minimum).toBeGreaterThan(10 + 0.02 * 1000 - 0.01 * 2080 - 1e-3);
+    expect(band.maximum).toBeLessThan(10 + 0.02 * 1080 - 0.01 * 2000 + 1e-3);
+  });
+
+  it("predict keeps the input columns and adds an estimate equal to the plane (analytic)", async () => {
+    const model = path.join(tmp, "plane.model.json");
+    const locs = path.join(tmp, "locs.csv");
+    fs.writeFileSync(locs, 'name,x,y\n"A, north",1030.5,2040.25\nB,1051,2062\n');
+    const out = path.join(tmp, "est.csv");
+    const r = await cli(["predict", model, locs, "--out", out, "--quiet"]);
+    expect(r.code).toBe(0);
+    const lines = fs.readFileSync(out, "utf8").split("\r\n");
+    expect(lines[0]).toBe("name,x,y,estimate");
+    expect(lines[1].startsWith('"A, north",1030.5,2040.25,')).toBe(true);
+    const est = Number(lines[1].split(",").at(-1));
+    expect(Math.abs(est - (10 + 0.02 * 1030.5 - 0.01 * 2040.25))).toBeLessThan(1e-8);
+  });
+
+  it("contour writes LineStrings with a numeric level; bands have lower and upper", async () => {
+    const model = path.join(tmp, "plane.model.json");
+    const out = path.join(tmp, "c.geojson");
+    expect((await cli(["contour", model, "--out", out, "--interval", "0.2", "--quiet"])).code).toBe(0);
+    const fc = JSON.parse(fs.readFileSync(out, "utf8"));
+    expect(fc.type).toBe("FeatureCollection");
+    expect(fc.features.length).toBeGreaterThan(0);
+    for (const f of fc.features) {
+      expect(["LineString", "MultiLineString"]).toContain(f.geometry.type);
+      expect(typeof f.properties.level).toBe("number");
+    }
+    const bandsOut = path.join(tmp, "b.geojson");
+    expect((await cli(["contour", path.join(tmp, "plane.tif"), "--out", bandsOut, "--interval", "0.2", "--bands", "--quiet"])).code).toBe(0);
+    const bands = JSON.parse(fs.readFileSync(bandsOut, "utf8"));
+    for (const f of bands.features) {
+      expect(["Polygon", "MultiPolygon"]).toContain(f.geometry.type);
+      expect(f.properties.upper - f.properties.lower).toBeCloseTo(0.2, 9);
+    }
+  });
+
+  it("run writes every output and the summary carries the caution", async () => {
+    const dir = path.join(tmp, "job");
+    const r = await cli(["run", pointsFile, "--out", dir, "--quiet"]);
+    expect(r.code).toBe(0);
+    for (const f of ["model.rbfield.json", "surface.tif", "contours.geojson", "bands.geojson", "estimates.csv", "residuals.csv", "summary.txt"]) {
+      expect(fs.existsSync(path.join(dir, f))).toBe(true);
+    }
+    expect(r.out).toMatch(/does not replace a survey by a licensed surveyor/);
+    expect(fs.readFileSync(path.join(dir, "summary.txt"), "utf8")).toMatch(/CAUTION/);
+  });
+
+  it("errors are one line with a non-zero exit code and no output file", async () => {
+    const out = path.join(tmp, "never.json");
+    const bad = path.join(tmp, "bad.csv");
+    fs.writeFileSync(bad, "x,y,z\n1,2,3\n4,5,6,7\n");
+    const r = await cli(["fit", bad, "--out", out]);
+    expect(r.code).toBe(3);
+    expect(r.err.trim().split("\n")).toHaveLength(1);
+    expect(r.err).toMatch(/bad\.csv, line 3, column 7/);
+    expect(fs.existsSync(out)).toBe(false);
+    expect((await cli(["fit", pointsFile, "--out", pointsFile])).code).toBe(4);
+    expect((await cli(["fit", pointsFile, "--out", out, "--kernel", "spline"])).code).toBe(2);
+    expect((await cli(["frobnicate"])).code).toBe(2);
+  });
+
+  it("every verb has --help", async () => {
+    for (const verb of ["fit", "grid", "contour", "predict", "run"]) {
+      const r = await cli([verb, "--help"]);
+      expect(r.code).toBe(0);
+      expect(r.out).toMatch(new RegExp(`Usage: deno task rbfield ${verb}`));
+    }
+  });
+});
