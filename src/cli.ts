@@ -6,8 +6,10 @@ import { ExitCode, RbfieldError } from "./errors.ts";
 import { gridModel, type GridOptions } from "./evaluate/grid.ts";
 import { KERNELS, DRIFTS } from "./fit/kernels.ts";
 import type { FitOptions } from "./fit/surface.ts";
+import { gridStandardError } from "./evaluate/stderr.ts";
 import {
   contourGeoJson,
+  estimateColumns,
   estimateTable,
   fitPointsFile,
   readGrid,
@@ -33,14 +35,20 @@ const POINTS: Spec = {
   crs: { type: "string" },
   "max-spread": { type: "string" },
   "merge-conflicts": { type: "boolean" },
+  weight: { type: "string" },
 };
 const MODEL: Spec = {
   kernel: { type: "string" },
   shape: { type: "string" },
   drift: { type: "string" },
   smoothing: { type: "string" },
+  select: { type: "string" },
+  transform: { type: "string" },
+  anisotropy: { type: "string" },
+  "flag-threshold": { type: "string" },
 };
 const GRID: Spec = { cell: { type: "string" }, extent: { type: "string" }, mask: { type: "string" }, force: { type: "boolean" } };
+const STDERR: Spec = { stderr: { type: "string" } };
 const CONTOUR: Spec = { interval: { type: "string" }, base: { type: "string" }, bands: { type: "boolean" } };
 
 const POINTS_HELP = `  --x COL --y COL --z COL   columns to use (default: detected from header names such as
@@ -48,17 +56,28 @@ const POINTS_HELP = `  --x COL --y COL --z COL   columns to use (default: detect
   --crs EPSG:NNNN|local     coordinate reference system of the points (default: the file's own,
                             else a local site grid with no EPSG code)
   --max-spread DZ           refuse coincident points whose values differ by more than DZ
-  --merge-conflicts         merge such points anyway (mean value) and report them`;
-const MODEL_HELP = `  --kernel K                ${KERNELS.join("|")} (default thin-plate)
+  --merge-conflicts         merge such points anyway (mean value) and report them
+  --weight COL              observation weights (e.g. 1/variance from instrument precision)`;
+const MODEL_HELP = `  --kernel K                auto|${KERNELS.join("|")} (default thin-plate; auto ranks
+                            every kernel with the drifts it supports and keeps the best)
   --shape auto|NUMBER       shape ε in 1/map units for gaussian and the multiquadrics (default auto:
                             chosen by GCV)
-  --drift D                 ${DRIFTS.join("|")} (default linear; thin-plate needs linear or more)
-  --smoothing gcv|NUMBER    λ added to the kernel matrix diagonal (0 interpolates; default gcv)`;
+  --drift D                 auto|${DRIFTS.join("|")} (default linear, or auto with --kernel auto;
+                            thin-plate needs linear or more, multiquadric constant or more)
+  --smoothing gcv|NUMBER    λ added to the kernel matrix diagonal (0 interpolates; default gcv)
+  --select gcv|loocv        rank candidates by GCV score (default) or leave-one-out RMSE
+  --transform none|log      log: fit ln z for positive, skewed readings; estimates back-transformed
+                            with the lognormal bias correction exp(f + σ²/2)
+  --anisotropy AZ,RATIO     long axis at azimuth AZ degrees (clockwise from grid north), correlation
+                            RATIO ≥ 1 times longer along it than across
+  --flag-threshold Z        flag points whose standardised leave-one-out residual exceeds Z (default 3)`;
 const GRID_HELP = `  --cell SIZE               cell size in map units (default: half the median point spacing,
                             at least 200 cells along the longer side, rounded to 1, 2, 2.5 or 5·10ᵏ)
   --extent XMIN,YMIN,XMAX,YMAX  outer edges of the grid (default: the data's bounding box)
   --mask hull|none|FILE     hull: the data's convex hull (default); FILE: GeoJSON polygons to keep
   --force                   allow grids above 100 million cells`;
+const STDERR_HELP = `  --stderr FILE.tif         also write the standard error of the estimate as a second GeoTIFF
+                            (model-based, not a survey tolerance; see README)`;
 const COMMON_HELP = `  --json                    print a machine-readable JSON summary on stdout
   --quiet                   no progress messages on stderr
   --debug                   show a stack trace on internal errors
@@ -98,6 +117,7 @@ Evaluates a saved model on a regular grid and writes a single-band Float32 GeoTI
 areas; nodata -9999 for masked cells; CRS keys from the model's EPSG code).
 
 ${GRID_HELP}
+${STDERR_HELP}
 ${COMMON_HELP}
 `,
   contour: `Usage: deno task rbfield contour MODEL|FILE.tif --out FILE.geojson --interval DZ [options]
@@ -114,8 +134,9 @@ ${COMMON_HELP}
 `,
   predict: `Usage: deno task rbfield predict MODEL LOCATIONS.csv --out FILE.csv [options]
 
-Keeps every column of LOCATIONS and adds a column "estimate" (RFC 4180 CSV). Rows without
-usable coordinates get an empty estimate and are reported.
+Keeps every column of LOCATIONS and adds the columns "estimate" and "std_error" (the model-based
+standard error of the estimate; RFC 4180 CSV). Rows without usable coordinates get empty cells
+and are reported.
 
   --x COL --y COL           coordinate columns (default: detected from the header)
 ${COMMON_HELP}
@@ -123,8 +144,8 @@ ${COMMON_HELP}
   run: `Usage: deno task rbfield run POINTS --out DIR [options]
 
 The whole job: fit, grid, contours and bands, estimates and a summary, written into DIR as
-model.rbfield.json, surface.tif, contours.geojson, bands.geojson, estimates.csv, residuals.csv
-and summary.txt.
+model.rbfield.json, surface.tif, stderr.tif, contours.geojson, bands.geojson, estimates.csv,
+residuals.csv (leave-one-out residuals and blunder flags per point) and summary.txt.
 
 ${POINTS_HELP}
 ${MODEL_HELP}
@@ -149,16 +170,39 @@ function num(value: string | undefined, name: string): number | undefined {
 
 function fitOptions(v: Record<string, unknown>): FitOptions {
   const kernel = (v.kernel as string | undefined) ?? "thin-plate";
-  if (!KERNELS.includes(kernel as KernelName)) throw usage(`--kernel must be one of ${KERNELS.join(", ")}, not "${kernel}"`);
-  const drift = (v.drift as string | undefined) ?? "linear";
-  if (!DRIFTS.includes(drift as DriftName)) throw usage(`--drift must be one of ${DRIFTS.join(", ")}, not "${drift}"`);
+  if (kernel !== "auto" && !KERNELS.includes(kernel as KernelName)) throw usage(`--kernel must be auto or one of ${KERNELS.join(", ")}, not "${kernel}"`);
+  const drift = (v.drift as string | undefined) ?? (kernel === "auto" ? "auto" : "linear");
+  if (drift !== "auto" && !DRIFTS.includes(drift as DriftName)) throw usage(`--drift must be auto or one of ${DRIFTS.join(", ")}, not "${drift}"`);
   const shapeText = (v.shape as string | undefined) ?? "auto";
   const shape = shapeText === "auto" ? "auto" as const : num(shapeText, "shape")!;
   if (shape !== "auto" && !(shape > 0)) throw usage(`--shape must be a positive number or auto, not "${shapeText}"`);
   const smText = (v.smoothing as string | undefined) ?? "gcv";
   const smoothing = smText === "gcv" ? "gcv" as const : num(smText, "smoothing")!;
   if (smoothing !== "gcv" && !(smoothing >= 0)) throw usage(`--smoothing must be gcv or a number ≥ 0, not "${smText}"`);
-  return { kernel: kernel as KernelName, drift: drift as DriftName, shape, smoothing };
+  const select = (v.select as string | undefined) ?? "gcv";
+  if (select !== "gcv" && select !== "loocv") throw usage(`--select must be gcv or loocv, not "${select}"`);
+  const transform = (v.transform as string | undefined) ?? "none";
+  if (transform !== "none" && transform !== "log") throw usage(`--transform must be none or log, not "${transform}"`);
+  let anisotropy: FitOptions["anisotropy"];
+  if (v.anisotropy !== undefined) {
+    const parts = String(v.anisotropy).split(",").map((t) => Number(t.trim()));
+    if (parts.length !== 2 || !parts.every(Number.isFinite) || !(parts[1] >= 1)) {
+      throw usage(`--anisotropy must be AZIMUTH,RATIO with RATIO ≥ 1 (e.g. 45,3), not "${v.anisotropy}"`);
+    }
+    anisotropy = { azimuth: parts[0], ratio: parts[1] };
+  }
+  const flagThreshold = num(v["flag-threshold"] as string | undefined, "flag-threshold");
+  if (flagThreshold !== undefined && !(flagThreshold > 0)) throw usage("--flag-threshold must be a positive number");
+  return {
+    kernel: kernel as FitOptions["kernel"],
+    drift: drift as FitOptions["drift"],
+    shape,
+    smoothing,
+    select,
+    transform,
+    anisotropy,
+    flagThreshold,
+  };
 }
 
 function gridOptions(v: Record<string, unknown>): Omit<GridOptions, "progress"> {
@@ -185,6 +229,7 @@ function pointsSource(file: string, v: Record<string, unknown>) {
     crs: v.crs as string | undefined,
     maxSpread: num(v["max-spread"] as string | undefined, "max-spread"),
     mergeConflicts: Boolean(v["merge-conflicts"]),
+    weight: v.weight as string | undefined,
   };
 }
 
@@ -204,6 +249,10 @@ function modelJson(model: SurfaceModel): Record<string, unknown> {
     n: d.n,
     smoothingChoice: d.smoothingChoice,
     shapeChoice: d.shapeChoice,
+    transform: model.transform,
+    anisotropy: model.anisotropy,
+    selection: d.selection,
+    flaggedLines: d.flags.lines,
     crs: model.crs,
     warnings: d.warnings,
     caution: CAUTION,
@@ -227,7 +276,7 @@ export async function main(args: string[], io: Io): Promise<number> {
     if (!(verb in HELP) || verb === "main") throw usage(`unknown verb "${verb}"; verbs: fit, grid, contour, predict, run (see --help)`);
     const specs: Record<string, Spec> = {
       fit: { ...COMMON, ...POINTS, ...MODEL, out: { type: "string" } },
-      grid: { ...COMMON, ...GRID, out: { type: "string" } },
+      grid: { ...COMMON, ...GRID, ...STDERR, out: { type: "string" } },
       contour: { ...COMMON, ...GRID, ...CONTOUR, out: { type: "string" } },
       predict: { ...COMMON, x: { type: "string" }, y: { type: "string" }, out: { type: "string" } },
       run: { ...COMMON, ...POINTS, ...MODEL, ...GRID, ...CONTOUR, out: { type: "string" }, locations: { type: "string" } },
@@ -266,10 +315,17 @@ export async function main(args: string[], io: Io): Promise<number> {
     }
     if (verb === "grid") {
       const model = readModel(pos[0]);
+      const seOut = v.stderr as string | undefined;
+      if (seOut) {
+        refuseInputAsOutput(seOut, [...pos, out]);
+        checkWritableFolder(seOut);
+      }
       const grid = gridModel(model, { ...gridOptions(v), progress });
+      const se = seOut ? gridStandardError(model, grid, progress) : undefined;
       writeFileAtomic(out, encodeGeoTiff(grid));
+      if (seOut && se) writeFileAtomic(seOut, encodeGeoTiff(se.grid));
       const s = grid.spec;
-      const info = { cols: s.cols, rows: s.rows, cell: s.cell, extent: [s.xmin, s.ymin, s.xmax, s.ymax], crs: grid.crs, file: out };
+      const info = { cols: s.cols, rows: s.rows, cell: s.cell, extent: [s.xmin, s.ymin, s.xmax, s.ymax], crs: grid.crs, file: out, stderrFile: seOut ?? null, stderrStride: se?.stride ?? null };
       if (v.json) io.out(JSON.stringify({ ...info, caution: CAUTION }, null, 2) + "\n");
       else io.out(`Grid ${s.cols} × ${s.rows} cells of ${fmt(s.cell)} written to ${out} (extent ${s.xmin}, ${s.ymin} to ${s.xmax}, ${s.ymax}; CRS ${grid.crs.label})\n\n${CAUTION}\n`);
       return 0;
@@ -290,7 +346,7 @@ export async function main(args: string[], io: Io): Promise<number> {
       const model = readModel(pos[0]);
       const table = await readPointTable(pos[1], { x: v.x as string | undefined, y: v.y as string | undefined, needValue: false });
       const est = estimateTable(model, table);
-      writeFileAtomic(out, estimatesCsv(table, [{ name: "estimate", values: est.estimates }]));
+      writeFileAtomic(out, estimatesCsv(table, estimateColumns(est)));
       const unusable = est.unusable.length ? `; ${est.unusable.length} rows without usable coordinates (lines ${est.unusable.slice(0, 5).join(", ")})` : "";
       if (v.json) io.out(JSON.stringify({ rows: table.rows.length, unusableLines: est.unusable, file: out, caution: CAUTION }, null, 2) + "\n");
       else io.out(`Estimates for ${table.rows.length - est.unusable.length} locations written to ${out}${unusable}\n\n${CAUTION}\n`);

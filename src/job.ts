@@ -5,6 +5,7 @@ import * as path from "node:path";
 import { cleanPoints, describeCleaning } from "./clean/clean.ts";
 import { ExitCode, inputError, RbfieldError } from "./errors.ts";
 import { makeEvaluator } from "./evaluate/evaluate.ts";
+import { gridStandardError, makeErrorEstimator } from "./evaluate/stderr.ts";
 import { gridModel, type GridOptions, niceFloor, polygonsFromGeoJson, type PolygonRings } from "./evaluate/grid.ts";
 import { fitSurface, type FitOptions } from "./fit/surface.ts";
 import { modelFromJson, modelToJson, type SurfaceModel } from "./model/model.ts";
@@ -37,6 +38,8 @@ export interface PointsSource {
   /** Refuse coincident points whose values differ by more than this (default: no limit). */
   maxSpread?: number;
   mergeConflicts?: boolean;
+  /** Column of observation weights (e.g. 1/variance from instrument precision). */
+  weight?: string;
 }
 
 export interface LoadedPoints {
@@ -44,6 +47,36 @@ export interface LoadedPoints {
   points: CleanPoints;
   crs: Crs;
   notes: string[];
+  /** Observation weights per clean point (sum over merged points), when --weight was given. */
+  weights?: Float64Array;
+}
+
+/** Weights per clean point from a named column; merged points get the sum of their weights. */
+function readWeights(src: PointsSource, table: PointTable, points: CleanPoints): Float64Array {
+  const name = src.weight!;
+  const lower = name.toLowerCase();
+  const col = table.columns.findIndex((c) => c.toLowerCase() === lower);
+  if (col < 0) {
+    throw inputError(`no column named "${name}" for --weight; columns are ${table.columns.join(", ")}`, { file: src.file, line: 1 });
+  }
+  const byLine = new Map<number, number>();
+  table.rows.forEach((row, i) => {
+    const w = parseNumber(row[col] ?? "", table.decimalComma);
+    byLine.set(table.lines[i], w);
+  });
+  const groupOf = new Map<number, number[]>();
+  for (const g of points.merged) groupOf.set(g.lines[0], g.lines);
+  return Float64Array.from(points.lines, (line) => {
+    let total = 0;
+    for (const l of groupOf.get(line) ?? [line]) {
+      const w = byLine.get(l)!;
+      if (!(w > 0) || !Number.isFinite(w)) {
+        throw inputError(`weight "${table.rows[table.lines.indexOf(l)][col]}" in column "${name}" must be a positive number`, { file: src.file, line: l });
+      }
+      total += w;
+    }
+    return total;
+  });
 }
 
 /** Read and clean a points file. */
@@ -76,7 +109,9 @@ export async function loadPoints(src: PointsSource): Promise<LoadedPoints> {
     `Points: ${points.rowsRead} rows read, ${points.x.length} used`,
     ...describeCleaning(points),
   ];
-  return { table, points, crs, notes };
+  const weights = src.weight ? readWeights(src, table, points) : undefined;
+  if (weights) notes.push(`Weights: column ${printableText(src.weight!)} (normalised to mean 1; merged points add their weights)`);
+  return { table, points, crs, notes, weights };
 }
 
 /** Read, clean and fit. */
@@ -85,6 +120,7 @@ export async function fitPointsFile(src: PointsSource, fit: FitOptions = {}): Pr
   const t = loaded.table;
   const model = fitSurface(loaded.points, {
     ...fit,
+    weights: loaded.weights,
     crs: loaded.crs,
     source: { file: path.basename(src.file), x: t.columns[t.xColumn], y: t.columns[t.yColumn], z: t.columns[t.zColumn] },
   });
@@ -159,29 +195,54 @@ export async function readGrid(file: string): Promise<GridValues> {
   return await decodeGeoTiff(bytes, file);
 }
 
-/** Estimates at the rows of a locations table (rows without usable x, y get an empty estimate). */
-export function estimateTable(model: SurfaceModel, table: PointTable): { estimates: Float64Array; unusable: number[] } {
+/** Estimates (and standard errors) at the rows of a locations table; rows without usable x, y get empty cells. */
+export function estimateTable(
+  model: SurfaceModel,
+  table: PointTable,
+  withErrors = true,
+): { estimates: Float64Array; stdErrors: Float64Array | null; unusable: number[] } {
   const ev = makeEvaluator(model);
+  const se = withErrors ? makeErrorEstimator(model) : null;
   const est = new Float64Array(table.rows.length);
+  const err = se ? new Float64Array(table.rows.length) : null;
   const unusable: number[] = [];
   table.rows.forEach((row, i) => {
     const x = parseNumber(row[table.xColumn] ?? "", table.decimalComma);
     const y = parseNumber(row[table.yColumn] ?? "", table.decimalComma);
-    if (Number.isFinite(x) && Number.isFinite(y)) est[i] = ev.at(x, y);
-    else {
+    if (Number.isFinite(x) && Number.isFinite(y)) {
+      est[i] = ev.at(x, y);
+      if (err && se) err[i] = se.at(x, y);
+    } else {
       est[i] = NaN;
+      if (err) err[i] = NaN;
       unusable.push(table.lines[i]);
     }
   });
-  return { estimates: est, unusable };
+  return { estimates: est, stdErrors: err, unusable };
 }
 
-/** Per-point residual table (CSV text): input line, position, value, fitted value, leave-one-out residual. */
+/** The columns added to an estimates table. */
+export function estimateColumns(est: { estimates: Float64Array; stdErrors: Float64Array | null }) {
+  const cols = [{ name: "estimate", values: est.estimates }];
+  if (est.stdErrors) cols.push({ name: "std_error", values: est.stdErrors });
+  return cols;
+}
+
+/**
+ * Per-point residual table (CSV): input line, position, value, fitted value, residual, leave-one-out
+ * residual, its robust standardisation and the blunder flag. For log fits, residuals are in log units.
+ */
 export function residualsCsv(model: SurfaceModel): string {
-  const lines = ["line,x,y,value,fitted,residual,loo_residual"];
+  const log = model.transform === "log";
+  const lines = [`line,x,y,value,fitted${log ? "_log" : ""},residual${log ? "_log" : ""},loo_residual${log ? "_log" : ""},loo_standardised,flag`];
   const p = model.points;
+  const t = model.diagnostics.flags.threshold;
   for (let i = 0; i < p.x.length; i++) {
-    lines.push([p.line[i], p.x[i], p.y[i], p.z[i], fmt(model.fitted[i], 10), fmt(p.z[i] - model.fitted[i], 6), fmt(model.loo[i], 6)].join(","));
+    const v = log ? Math.log(p.z[i]) : p.z[i];
+    const zst = model.looStandardised[i];
+    lines.push(
+      [p.line[i], p.x[i], p.y[i], p.z[i], fmt(model.fitted[i], 10), fmt(v - model.fitted[i], 6), fmt(model.loo[i], 6), fmt(zst, 4), Math.abs(zst) > t ? "possible blunder" : ""].join(","),
+    );
   }
   return lines.join("\r\n") + "\r\n";
 }
@@ -210,6 +271,7 @@ export async function runJob(opts: RunOptions): Promise<RunResult> {
   const files = {
     model: path.join(out, "model.rbfield.json"),
     surface: path.join(out, "surface.tif"),
+    stderr: path.join(out, "stderr.tif"),
     contours: path.join(out, "contours.geojson"),
     bands: path.join(out, "bands.geojson"),
     estimates: path.join(out, "estimates.csv"),
@@ -231,6 +293,10 @@ export async function runJob(opts: RunOptions): Promise<RunResult> {
   const lines = contourGeoJson(grid, interval, opts.base ?? 0, false);
   const bands = contourGeoJson(grid, interval, opts.base ?? 0, true);
   const est = estimateTable(model, locTable);
+  opts.progress?.("standard errors");
+  const errors = gridStandardError(model, grid, opts.progress);
+  let seMax = 0;
+  for (const v of errors.grid.values) if (v > seMax) seMax = v;
 
   const s = grid.spec;
   let masked = 0;
@@ -240,6 +306,9 @@ export async function runJob(opts: RunOptions): Promise<RunResult> {
     modelSummaryLines(model),
     [
       `Grid: ${s.cols} × ${s.rows} cells of ${fmt(s.cell)} map units, extent ${s.xmin}, ${s.ymin} to ${s.xmax}, ${s.ymax} (outer cell edges); ${masked} cells masked`,
+      `Standard error of the surface: up to ${fmt(seMax)} inside the mask` +
+      (errors.stride > 1 ? ` (computed every ${errors.stride} cells and interpolated)` : "") +
+      "; a model-based figure, not a survey tolerance",
       `Contours: interval ${fmt(interval)}, ${lines.levels.length} levels; bands between them`,
       `Estimates: ${est.estimates.length - est.unusable.length} locations` +
       (est.unusable.length ? `; ${est.unusable.length} rows without usable coordinates (lines ${est.unusable.slice(0, 5).join(", ")})` : ""),
@@ -248,6 +317,7 @@ export async function runJob(opts: RunOptions): Promise<RunResult> {
       "Files:",
       `  model      ${files.model}`,
       `  grid       ${files.surface}`,
+      `  std error  ${files.stderr}`,
       `  contours   ${files.contours}`,
       `  bands      ${files.bands}`,
       `  estimates  ${files.estimates}`,
@@ -258,9 +328,10 @@ export async function runJob(opts: RunOptions): Promise<RunResult> {
   // Everything is computed; now write, each file atomically.
   writeFileAtomic(files.model, modelToJson(model));
   writeFileAtomic(files.surface, encodeGeoTiff(grid));
+  writeFileAtomic(files.stderr, encodeGeoTiff(errors.grid));
   writeFileAtomic(files.contours, lines.text);
   writeFileAtomic(files.bands, bands.text);
-  writeFileAtomic(files.estimates, estimatesCsv(locTable, [{ name: "estimate", values: est.estimates }]));
+  writeFileAtomic(files.estimates, estimatesCsv(locTable, estimateColumns(est)));
   writeFileAtomic(files.residuals, residualsCsv(model));
   writeFileAtomic(files.summary, summary);
   return { model, files, summary };

@@ -79,9 +79,11 @@ describe("rbfield CLI", () => {
     const r = await cli(["predict", model, locs, "--out", out, "--quiet"]);
     expect(r.code).toBe(0);
     const lines = fs.readFileSync(out, "utf8").split("\r\n");
-    expect(lines[0]).toBe("name,x,y,estimate");
+    expect(lines[0]).toBe("name,x,y,estimate,std_error");
     expect(lines[1].startsWith('"A, north",1030.5,2040.25,')).toBe(true);
-    const est = Number(lines[1].split(",").at(-1));
+    const est = Number(lines[1].split(",").at(-2));
+    // Exact data on a plane: no residual, so the model-based standard error is 0.
+    expect(Number(lines[1].split(",").at(-1))).toBeLessThan(1e-6);
     expect(Math.abs(est - (10 + 0.02 * 1030.5 - 0.01 * 2040.25))).toBeLessThan(1e-8);
   });
 

@@ -10,15 +10,48 @@ export interface Evaluator {
   many(x: ArrayLike<number>, y: ArrayLike<number>, out?: Float64Array): Float64Array;
 }
 
-export function makeEvaluator(model: SurfaceModel): Evaluator {
-  const { cx, cy, s, zc, zs } = model.scaling;
-  const n = model.points.x.length;
-  const cu = new Float64Array(n);
-  const cv = new Float64Array(n);
-  for (let i = 0; i < n; i++) {
-    cu[i] = (model.points.x[i] - cx) / s;
-    cv[i] = (model.points.y[i] - cy) / s;
+/** Map coordinates → scaled model coordinates (anisotropy, then centring and scaling). */
+export function coordinateMapper(model: SurfaceModel): (x: number, y: number, out: Float64Array) => void {
+  const { cx, cy, s } = model.scaling;
+  const an = model.anisotropy;
+  if (!an) {
+    return (x, y, out) => {
+      out[0] = (x - cx) / s;
+      out[1] = (y - cy) / s;
+    };
   }
+  const th = (an.azimuth * Math.PI) / 180;
+  const sn = Math.sin(th), cs = Math.cos(th);
+  return (x, y, out) => {
+    const dx = x - an.x0, dy = y - an.y0;
+    out[0] = (dx * sn + dy * cs - cx) / s;
+    out[1] = (an.ratio * (dx * cs - dy * sn) - cy) / s;
+  };
+}
+
+/** Scaled coordinates of the model's data points. */
+export function scaledCentres(model: SurfaceModel): { u: Float64Array; v: Float64Array } {
+  const n = model.points.x.length;
+  const u = new Float64Array(n), v = new Float64Array(n);
+  const map = coordinateMapper(model);
+  const uv = new Float64Array(2);
+  for (let i = 0; i < n; i++) {
+    map(model.points.x[i], model.points.y[i], uv);
+    u[i] = uv[0];
+    v[i] = uv[1];
+  }
+  return { u, v };
+}
+
+export function makeEvaluator(model: SurfaceModel): Evaluator {
+  const { zc, zs } = model.scaling;
+  const n = model.points.x.length;
+  const { u: cu, v: cv } = scaledCentres(model);
+  const map = coordinateMapper(model);
+  const uv = new Float64Array(2);
+  // Log transform: back-transform with the lognormal bias correction exp(f + σ²/2), σ² the
+  // residual variance in log units (common practice; e.g. Aitchison & Brown 1957).
+  const logBias = model.transform === "log" ? Math.exp(0.5 * model.diagnostics.sigma ** 2) : 1;
   const w = Float64Array.from(model.weights);
   const c = Float64Array.from(model.driftCoefficients);
   const m = c.length;
@@ -69,14 +102,15 @@ export function makeEvaluator(model: SurfaceModel): Evaluator {
       }
     }
   };
-  const at = (x: number, y: number): number => {
-    const u = (x - cx) / s;
-    const v = (y - cy) / s;
+  const raw = (x: number, y: number): number => {
+    map(x, y, uv);
+    const u = uv[0], v = uv[1];
     let f = radial(u, v);
     driftRow(u, v, m, row);
     for (let j = 0; j < m; j++) f += c[j] * row[j];
     return zc + zs * f;
   };
+  const at = model.transform === "log" ? (x: number, y: number) => Math.exp(raw(x, y)) * logBias : raw;
   return {
     at,
     many(x, y, out) {

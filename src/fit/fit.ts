@@ -81,7 +81,10 @@ export interface KernelFit {
   /** λ in scaled units (added to the diagonal of the scaled kernel matrix). */
   lambdaScaled: number;
   smoothingChoice: SmoothingChoice;
+  /** RBF weights w of the surface (scaled units). */
   weights: Float64Array;
+  /** Residuals y − f at the data (scaled value units). */
+  residual: Float64Array;
   driftCoefficients: Float64Array;
   /** GCV score, in squared value units. */
   gcv: number;
@@ -101,6 +104,9 @@ export interface KernelFit {
 export interface FitState {
   n: number; // N points
   m: number; // drift terms
+  r: Float64Array; // m×m upper-triangular factor of (weighted) P
+  sqrtW?: Float64Array;
+  wTilde: Float64Array; // weights of the transformed system
   qr: Reflector[];
   tri: { d: Float64Array; e: Float64Array; reflectors: Reflector[] };
   mu: Float64Array;
@@ -116,6 +122,11 @@ export interface CoreOptions {
   smoothing: "gcv" | number;
   /** Multiply scaled λ by this to report it in the user's units. */
   lambdaToUser: number;
+  /**
+   * √ωᵢ for weighted least squares Σ ωᵢ(yᵢ − fᵢ)² + λJ(f), ω normalised to mean 1. The system
+   * (K + λΩ⁻¹)w + Pc = y becomes (DKD + λI)w̃ + DPc = Dy with D = Ω^½, w = Dw̃ (Wahba 1990, §1.3).
+   */
+  sqrtWeights?: Float64Array;
 }
 
 /** Fit one kernel, shape and drift to scaled coordinates (u, v) and scaled values y. */
@@ -134,7 +145,8 @@ export function fitCore(u: Float64Array, v: Float64Array, y: Float64Array, zs: n
   const row = new Float64Array(Math.max(m, 1));
   for (let i = 0; i < n; i++) {
     driftRow(u[i], v[i], m, row);
-    for (let j = 0; j < m; j++) p[i * m + j] = row[j];
+    const di = opts.sqrtWeights ? opts.sqrtWeights[i] : 1;
+    for (let j = 0; j < m; j++) p[i * m + j] = row[j] * di;
   }
   const { reflectors: qr, r } = householderQR(p, n, m);
   let rmax = 0;
@@ -150,6 +162,8 @@ export function fitCore(u: Float64Array, v: Float64Array, y: Float64Array, zs: n
   }
   // Qᵀ K Q, then B = its trailing (n−m)×(n−m) block.
   const k = kernelMatrix(opts.kernel, opts.epsilonScaled, u, v);
+  const sw = opts.sqrtWeights;
+  if (sw) for (let i = 0; i < n; i++) for (let j = 0; j < n; j++) k[i * n + j] *= sw[i] * sw[j];
   for (const refl of qr) reflectSymmetric(k, n, refl);
   const nb = n - m;
   const b = new Float64Array(nb * nb);
@@ -158,6 +172,7 @@ export function fitCore(u: Float64Array, v: Float64Array, y: Float64Array, zs: n
   const top = new Float64Array(m * nb);
   for (let i = 0; i < m; i++) top.set(k.subarray(i * n + m, i * n + n), i * nb);
   const qty = Float64Array.from(y);
+  if (sw) for (let i = 0; i < n; i++) qty[i] *= sw[i];
   for (const refl of qr) applyReflector(refl, qty);
   const tri = tridiagonalize(b, nb);
   const mu = tridiagonalEigenvalues(tri.d, tri.e);
@@ -253,6 +268,14 @@ export function fitCore(u: Float64Array, v: Float64Array, y: Float64Array, zs: n
   const w = new Float64Array(n);
   w.set(ht, m);
   for (let j = qr.length - 1; j >= 0; j--) applyReflector(qr[j], w);
+  // w̃ → w = D w̃; residual y − f = λ D⁻¹ w̃ (scaled value units).
+  const wTilde = Float64Array.from(w);
+  const residual = new Float64Array(n);
+  for (let i = 0; i < n; i++) {
+    const di = sw ? sw[i] : 1;
+    w[i] = wTilde[i] * di;
+    residual[i] = (lambda * wTilde[i]) / di;
+  }
   // Drift: R c = (Qᵀ y)₁..ₘ − (QᵀKQ)₁..ₘ,ₘ.. · H t.
   const rhs = new Float64Array(m);
   for (let i = 0; i < m; i++) {
@@ -276,6 +299,7 @@ export function fitCore(u: Float64Array, v: Float64Array, y: Float64Array, zs: n
     lambdaScaled: lambda,
     smoothingChoice,
     weights: w,
+    residual,
     driftCoefficients: rhs,
     gcv: g.gcv * zs * zs,
     edf: g.edf,
@@ -283,7 +307,7 @@ export function fitCore(u: Float64Array, v: Float64Array, y: Float64Array, zs: n
     condition,
     curve,
     warnings,
-    state: { n, m, qr, tri, mu, h, y },
+    state: { n, m, r, sqrtW: sw, wTilde, qr, tri, mu, h, y },
   };
 }
 
@@ -342,12 +366,14 @@ export function influenceComplementDiagonal(state: FitState, zt: Float64Array, l
   return gii;
 }
 
-/** Leave-one-out residuals eᵢ = wᵢ / Gᵢᵢ (Rippa 1999), in value units. */
+/** Leave-one-out residuals eᵢ = wᵢ / Gᵢᵢ (Rippa 1999), in value units; G from the weighted system. */
 export function leaveOneOutResiduals(fit: KernelFit, zs: number, zt?: Float64Array): Float64Array {
   const basis = zt ?? rotatedBasis(fit.state);
   const gii = influenceComplementDiagonal(fit.state, basis, fit.lambdaScaled);
   const e = new Float64Array(gii.length);
-  for (let i = 0; i < e.length; i++) e[i] = (fit.weights[i] / gii[i]) * zs;
+  // eᵢ = (yᵢ − fᵢ)/(1 − Aᵢᵢ) = w̃ᵢ / (Dᵢ G̃ᵢᵢ) for the weighted system (D = I unweighted).
+  const sw = fit.state.sqrtW;
+  for (let i = 0; i < e.length; i++) e[i] = (fit.state.wTilde[i] / ((sw ? sw[i] : 1) * gii[i])) * zs;
   return e;
 }
 
@@ -368,3 +394,108 @@ export function driftProblem(kernel: KernelName, drift: DriftName): string | und
 }
 
 export { hasShape };
+
+/**
+ * Pieces of the inverse of the bordered system M̃ = [K̃ + λI, P̃; P̃ᵀ, 0] (K̃ = DKD, P̃ = DP):
+ * M̃⁻¹ = [G, W; Wᵀ, C] with G = Q₂(B+λI)⁻¹Q₂ᵀ, F = Q₁R⁻ᵀ, W = F − G(K̃+λI)F, C = −Fᵀ(K̃+λI)W.
+ * Then for s = [D k(x); p(x)], sᵀM̃⁻¹s = kᵀGk + 2kᵀWp + pᵀCp (block inverse of a saddle-point
+ * matrix; Benzi, Golub & Liesen 2005, §3). O(N³) once; O(N²) per point.
+ */
+export interface BorderedInverse {
+  n: number;
+  m: number;
+  g: Float64Array; // N×N
+  w: Float64Array; // N×m
+  c: Float64Array; // m×m
+}
+
+export function borderedInverse(fit: KernelFit, u: Float64Array, v: Float64Array): BorderedInverse {
+  const st = fit.state;
+  const { n, m, tri, qr, r } = st;
+  const nb = n - m;
+  const lambda = fit.lambdaScaled;
+  const zt = rotatedBasis(st);
+  // Y = (T+λI)⁻¹ Zᵀ column by column, then G = Z Y.
+  const yMat = new Float64Array(nb * n);
+  const col = new Float64Array(nb);
+  const sol = new Float64Array(nb);
+  for (let j = 0; j < n; j++) {
+    for (let k = 0; k < nb; k++) col[k] = zt[k * n + j];
+    solveTridiagonal(tri.d, tri.e, lambda, col, sol);
+    for (let k = 0; k < nb; k++) yMat[k * n + j] = sol[k];
+  }
+  const g = new Float64Array(n * n);
+  for (let k = 0; k < nb; k++) {
+    const zRow = k * n;
+    for (let i = 0; i < n; i++) {
+      const zki = zt[zRow + i];
+      if (zki === 0) continue;
+      const gRow = i * n;
+      for (let j = 0; j < n; j++) g[gRow + j] += zki * yMat[zRow + j];
+    }
+  }
+  // F = Q₁R⁻ᵀ: column j is Q [R⁻ᵀeⱼ; 0].
+  const f = new Float64Array(n * m);
+  const t = new Float64Array(n);
+  for (let j = 0; j < m; j++) {
+    t.fill(0);
+    // forward substitution with Rᵀ (lower triangular)
+    for (let i = 0; i < m; i++) {
+      let s = i === j ? 1 : 0;
+      for (let k = 0; k < i; k++) s -= r[k * m + i] * t[k];
+      t[i] = s / r[i * m + i];
+    }
+    for (let q = qr.length - 1; q >= 0; q--) applyReflector(qr[q], t);
+    for (let i = 0; i < n; i++) f[i * m + j] = t[i];
+  }
+  // KF = (K̃ + λI) F
+  const kt = kernelMatrix(fit.kernel, fit.epsilonScaled, u, v);
+  const sw = st.sqrtW;
+  const kf = new Float64Array(n * m);
+  for (let i = 0; i < n; i++) {
+    const di = sw ? sw[i] : 1;
+    for (let k = 0; k < n; k++) {
+      const a = kt[i * n + k] * di * (sw ? sw[k] : 1) + (i === k ? lambda : 0);
+      if (a === 0) continue;
+      for (let j = 0; j < m; j++) kf[i * m + j] += a * f[k * m + j];
+    }
+  }
+  // W = F − G·KF; C = −KFᵀ W
+  const w = Float64Array.from(f);
+  for (let i = 0; i < n; i++) {
+    for (let k = 0; k < n; k++) {
+      const gik = g[i * n + k];
+      if (gik === 0) continue;
+      for (let j = 0; j < m; j++) w[i * m + j] -= gik * kf[k * m + j];
+    }
+  }
+  const c = new Float64Array(m * m);
+  for (let a = 0; a < m; a++) {
+    for (let b = 0; b < m; b++) {
+      let s = 0;
+      for (let i = 0; i < n; i++) s += kf[i * m + a] * w[i * m + b];
+      c[a * m + b] = -s;
+    }
+  }
+  return { n, m, g, w, c };
+}
+
+/** sᵀM̃⁻¹s for s = [k̃; p]: kᵀGk + 2kᵀWp + pᵀCp. */
+export function borderedQuadratic(inv: BorderedInverse, k: Float64Array, p: Float64Array, gk?: Float64Array): number {
+  const { n, m, g, w, c } = inv;
+  let q = 0;
+  for (let i = 0; i < n; i++) {
+    let s = 0;
+    const row = i * n;
+    for (let j = 0; j < n; j++) s += g[row + j] * k[j];
+    if (gk) gk[i] = s;
+    q += k[i] * s;
+  }
+  for (let i = 0; i < n; i++) {
+    let s = 0;
+    for (let j = 0; j < m; j++) s += w[i * m + j] * p[j];
+    q += 2 * k[i] * s;
+  }
+  for (let a = 0; a < m; a++) for (let b = 0; b < m; b++) q += p[a] * c[a * m + b] * p[b];
+  return q;
+}

@@ -5,22 +5,47 @@ import Flatbush from "flatbush";
 import { ExitCode, RbfieldError } from "../errors.ts";
 import { MODEL_FORMAT, MODEL_VERSION, type SurfaceModel } from "../model/model.ts";
 import type { CleanPoints, Crs, DriftName, KernelName } from "../types.ts";
-import { computeScaling, driftProblem, fitCore, type KernelFit, leaveOneOutResiduals } from "./fit.ts";
-import { hasShape } from "./kernels.ts";
+import { computeScaling, driftProblem, fitCore, type KernelFit, leaveOneOutResiduals, type Scaling } from "./fit.ts";
+import { hasShape, KERNELS } from "./kernels.ts";
+
+export type KernelChoice = KernelName | "auto";
+export type DriftChoice = DriftName | "auto";
 
 export interface FitOptions {
-  /** Basis function; default thin-plate. */
-  kernel?: KernelName;
+  /** Basis function, or "auto" to rank every kernel; default thin-plate. */
+  kernel?: KernelChoice;
   /** Shape ε in 1/map units (φ(ε r)), or "auto" to choose it by GCV; default auto. */
   shape?: "auto" | number;
-  /** Polynomial drift; default linear. */
-  drift?: DriftName;
+  /** Polynomial drift, or "auto" (with kernel auto: the degrees each kernel supports); default linear. */
+  drift?: DriftChoice;
   /** λ in map-unit convention (added to the kernel matrix diagonal), or "gcv"; default gcv. */
   smoothing?: "gcv" | number;
+  /** How auto selection ranks candidates: GCV score (default) or leave-one-out RMSE. */
+  select?: "gcv" | "loocv";
+  /** Observation weights ωᵢ > 0 (e.g. 1/variance), one per point; normalised to mean 1. */
+  weights?: Float64Array;
+  /** Geometric anisotropy: azimuth of the long axis (degrees clockwise from grid north), ratio ≥ 1. */
+  anisotropy?: { azimuth: number; ratio: number };
+  /** "log" fits ln z (values must be positive) and back-transforms with a lognormal bias correction. */
+  transform?: "none" | "log";
+  /** Standardised leave-one-out residuals beyond this are flagged as possible blunders; default 3. */
+  flagThreshold?: number;
   crs?: Crs;
   source?: { file: string; x: string; y: string; z: string };
   /** Called with short progress messages during long work. */
   progress?: (message: string) => void;
+}
+
+/** One candidate model of an automatic selection, with its scores. */
+export interface CandidateScore {
+  kernel: KernelName;
+  drift: DriftName;
+  shape: number | null;
+  lambda: number;
+  edf: number;
+  gcv: number;
+  loocvRmse: number;
+  chosen: boolean;
 }
 
 /** Median distance from each point to its nearest neighbour (map units). */
@@ -61,62 +86,214 @@ export function convexHullRing(x: Float64Array, y: Float64Array): [number, numbe
   return [[xmin, ymin], [xmax, ymin], [xmax, ymax], [xmin, ymax], [xmin, ymin]];
 }
 
+/** Points above which the shape search runs on a subsample (then one full fit at that shape). */
+export const SHAPE_SUBSAMPLE = 600;
+/** Points above which automatic ranking runs on a subsample (then the winner is fitted on all). */
+export const RANK_SUBSAMPLE = 1000;
+
+/** A deterministic, spatially unbiased subsample (seeded shuffle; mulberry32 generator). */
+export function subsampleIndices(n: number, k: number, seed = 12345): Int32Array {
+  const idx = Int32Array.from({ length: n }, (_, i) => i);
+  let state = seed >>> 0;
+  const rand = () => {
+    state = (state + 0x6d2b79f5) >>> 0;
+    let t = state;
+    t = Math.imul(t ^ (t >>> 15), t | 1);
+    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
+    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
+  };
+  for (let i = 0; i < k; i++) {
+    const j = i + Math.floor(rand() * (n - i));
+    const t = idx[i];
+    idx[i] = idx[j];
+    idx[j] = t;
+  }
+  return idx.slice(0, k).sort();
+}
+
+/** Candidates of an automatic selection: each kernel with the drifts it supports (constant–quadratic). */
+export function candidateList(kernel: KernelChoice, drift: DriftChoice): { kernel: KernelName; drift: DriftName }[] {
+  const kernels = kernel === "auto" ? KERNELS : [kernel];
+  const out: { kernel: KernelName; drift: DriftName }[] = [];
+  for (const k of kernels) {
+    const drifts: DriftName[] = drift !== "auto" ? [drift] : k === "thin-plate" ? ["linear", "quadratic"] : ["constant", "linear"];
+    for (const d of drifts) if (!driftProblem(k, d)) out.push({ kernel: k, drift: d });
+  }
+  return out;
+}
+
+/** Data prepared for fitting: transformed values, scaled coordinates, weights. */
+interface Prepared {
+  n: number;
+  u: Float64Array;
+  v: Float64Array;
+  values: Float64Array; // z or ln z
+  sqrtW?: Float64Array;
+  spacingScaled: number;
+  s: number;
+  cx: number;
+  cy: number;
+  anisotropy: SurfaceModel["anisotropy"];
+}
+
+function subset(a: Float64Array, idx: Int32Array): Float64Array {
+  return Float64Array.from(idx, (i) => a[i]);
+}
+
 /** Fit the surface and build the model record. */
 export function fitSurface(points: CleanPoints, options: FitOptions = {}): SurfaceModel {
-  const kernel = options.kernel ?? "thin-plate";
-  const drift = options.drift ?? "linear";
+  const kernelOpt = options.kernel ?? "thin-plate";
+  const driftOpt = options.drift ?? (kernelOpt === "auto" ? "auto" : "linear");
   const smoothing = options.smoothing ?? "gcv";
   const shapeOpt = options.shape ?? "auto";
-  const problem = driftProblem(kernel, drift);
-  if (problem) throw new RbfieldError(problem, ExitCode.usage);
+  const select = options.select ?? "gcv";
+  const transform = options.transform ?? "none";
   const n = points.x.length;
   if (n < 3) throw new RbfieldError(`${n} usable points are too few to fit a surface: at least 3 are needed`, ExitCode.input);
+  if (kernelOpt !== "auto" && driftOpt !== "auto") {
+    const problem = driftProblem(kernelOpt, driftOpt);
+    if (problem) throw new RbfieldError(problem, ExitCode.usage);
+  }
+  if (shapeOpt !== "auto" && (!(shapeOpt > 0) || !Number.isFinite(shapeOpt))) {
+    throw new RbfieldError(`shape must be a positive number (1/map units) or auto, not ${shapeOpt}`, ExitCode.usage);
+  }
+  const candidates = candidateList(kernelOpt, driftOpt);
+  if (candidates.length === 0) throw new RbfieldError(`no kernel supports ${driftOpt} drift here`, ExitCode.usage);
 
-  const sc = computeScaling(points.x, points.y, points.z, drift !== "none");
-  const u = new Float64Array(n);
-  const v = new Float64Array(n);
-  const yv = new Float64Array(n);
+  // Values: z, or ln z for the log transform (all must be positive).
+  const values = Float64Array.from(points.z);
+  if (transform === "log") {
+    const bad: number[] = [];
+    for (let i = 0; i < n; i++) {
+      if (!(values[i] > 0)) bad.push(points.lines[i]);
+      else values[i] = Math.log(values[i]);
+    }
+    if (bad.length) {
+      throw new RbfieldError(
+        `--transform log needs positive values; ${bad.length} are zero or negative (lines ${bad.slice(0, 5).join(", ")}${bad.length > 5 ? ", …" : ""}); ` +
+          "correct them or fit without the log transform",
+        ExitCode.input,
+      );
+    }
+  }
+  // Coordinates: optional anisotropy, then centring and one isotropic scale.
+  let ax = points.x, ay = points.y;
+  let anisotropy: SurfaceModel["anisotropy"] = null;
+  if (options.anisotropy) {
+    const { azimuth, ratio } = options.anisotropy;
+    if (!Number.isFinite(azimuth) || !(ratio >= 1) || !Number.isFinite(ratio)) {
+      throw new RbfieldError(`anisotropy needs an azimuth in degrees and a ratio ≥ 1, not ${azimuth}, ${ratio}`, ExitCode.usage);
+    }
+    const sc0 = computeScaling(points.x, points.y, values);
+    const th = (azimuth * Math.PI) / 180, sn = Math.sin(th), cs = Math.cos(th);
+    ax = new Float64Array(n);
+    ay = new Float64Array(n);
+    for (let i = 0; i < n; i++) {
+      const dx = points.x[i] - sc0.cx, dy = points.y[i] - sc0.cy;
+      ax[i] = dx * sn + dy * cs;
+      ay[i] = ratio * (dx * cs - dy * sn);
+    }
+    anisotropy = { azimuth, ratio, x0: sc0.cx, y0: sc0.cy };
+  }
+  const geo = computeScaling(ax, ay, values);
+  const u = new Float64Array(n), v = new Float64Array(n);
   for (let i = 0; i < n; i++) {
-    u[i] = (points.x[i] - sc.cx) / sc.s;
-    v[i] = (points.y[i] - sc.cy) / sc.s;
-    yv[i] = (points.z[i] - sc.zc) / sc.zs;
+    u[i] = (ax[i] - geo.cx) / geo.s;
+    v[i] = (ay[i] - geo.cy) / geo.s;
+  }
+  let sqrtW: Float64Array | undefined;
+  if (options.weights) {
+    const w = options.weights;
+    if (w.length !== n || !w.every((x) => x > 0 && Number.isFinite(x))) {
+      throw new RbfieldError("weights must be positive finite numbers, one per point", ExitCode.input);
+    }
+    let mean = 0;
+    for (const x of w) mean += x / n;
+    sqrtW = Float64Array.from(w, (x) => Math.sqrt(x / mean));
   }
   const spacing = medianSpacing(points.x, points.y);
-  // λ in map units: the thin-plate kernel scales as s² (the r² log s part lies in the drift's
-  // null space), the shape kernels are unchanged when ε is scaled with the coordinates.
-  const lambdaToUser = kernel === "thin-plate" ? sc.s * sc.s : 1;
-  const smoothingScaled = smoothing === "gcv" ? "gcv" as const : smoothing / lambdaToUser;
+  const prep: Prepared = { n, u, v, values, sqrtW, spacingScaled: medianSpacing(u, v), s: geo.s, cx: geo.cx, cy: geo.cy, anisotropy };
 
-  const run = (epsilonScaled: number) =>
-    fitCore(u, v, yv, sc.zs, { kernel, drift, epsilonScaled, smoothing: smoothingScaled, lambdaToUser });
-
-  let fit: KernelFit;
-  let shapeChoice: "auto" | "given" | "none" = "none";
-  if (!hasShape(kernel)) {
-    fit = run(1);
-  } else if (shapeOpt === "auto") {
-    shapeChoice = "auto";
-    fit = chooseShape(run, spacing / sc.s, options.progress);
-  } else {
-    if (!(shapeOpt > 0) || !Number.isFinite(shapeOpt)) {
-      throw new RbfieldError(`shape must be a positive number (1/map units) or auto, not ${shapeOpt}`, ExitCode.usage);
+  // Automatic selection: rank every candidate (on a subsample when N is large), then fit the winner.
+  let ranking: CandidateScore[] | null = null;
+  let rankedOnSubsample = false;
+  let chosen = candidates[0];
+  let chosenShape: number | undefined;
+  if (candidates.length > 1) {
+    const idx = n > RANK_SUBSAMPLE ? subsampleIndices(n, RANK_SUBSAMPLE) : null;
+    rankedOnSubsample = idx !== null;
+    const rp: Prepared = idx
+      ? { ...prep, n: idx.length, u: subset(u, idx), v: subset(v, idx), values: subset(values, idx), sqrtW: prep.sqrtW && subset(prep.sqrtW, idx), spacingScaled: prep.spacingScaled * Math.sqrt(n / idx.length) }
+      : prep;
+    ranking = [];
+    for (const cand of candidates) {
+      options.progress?.(`trying ${cand.kernel} with ${cand.drift} drift`);
+      try {
+        const f = fitOne(rp, cand.kernel, cand.drift, shapeOpt, smoothing, options.progress);
+        const zs = f.zs;
+        const loo = leaveOneOutResiduals(f.fit, zs);
+        let ss = 0;
+        for (const e of loo) ss += e * e;
+        ranking.push({
+          kernel: cand.kernel,
+          drift: cand.drift,
+          shape: hasShape(cand.kernel) ? f.fit.epsilonScaled / prep.s : null,
+          lambda: f.fit.lambdaScaled * f.lambdaToUser,
+          edf: f.fit.edf,
+          gcv: f.fit.gcv,
+          loocvRmse: Math.sqrt(ss / loo.length),
+          chosen: false,
+        });
+      } catch (e) {
+        if (!(e instanceof RbfieldError)) throw e;
+      }
     }
-    shapeChoice = "given";
-    fit = run(shapeOpt * sc.s);
+    if (ranking.length === 0) throw new RbfieldError("no candidate model could be fitted to these points", ExitCode.numerical);
+    const key = (c: CandidateScore) => (select === "loocv" ? c.loocvRmse : c.gcv);
+    ranking.sort((a, b) => key(a) - key(b));
+    ranking[0].chosen = true;
+    chosen = { kernel: ranking[0].kernel, drift: ranking[0].drift };
+    if (ranking[0].shape !== null) chosenShape = ranking[0].shape;
   }
+
+  options.progress?.(`fitting ${chosen.kernel} with ${chosen.drift} drift to ${n} points`);
+  const shapeForFinal = shapeOpt !== "auto" ? shapeOpt : chosenShape ?? "auto";
+  const final = fitOne(prep, chosen.kernel, chosen.drift, shapeForFinal, smoothing, options.progress);
+  const fit = final.fit;
+  const sc = final.scaling;
+  const shapeChoice: "auto" | "given" | "none" = !hasShape(chosen.kernel) ? "none" : shapeOpt === "auto" ? "auto" : "given";
+  if (ranking && !rankedOnSubsample) {
+    // Keep the ranking's numbers identical to the final fit's for the chosen row.
+    ranking[0].lambda = fit.lambdaScaled * final.lambdaToUser;
+    ranking[0].gcv = fit.gcv;
+    ranking[0].edf = fit.edf;
+  }
+
   options.progress?.("computing leave-one-out residuals");
   const loo = leaveOneOutResiduals(fit, sc.zs);
   let looSs = 0;
   for (let i = 0; i < n; i++) looSs += loo[i] * loo[i];
   const fitted = new Float64Array(n);
-  let rss = 0;
+  let rss = 0, wrss = 0;
   for (let i = 0; i < n; i++) {
-    // y − f = λ w in scaled units
-    const resid = fit.lambdaScaled * fit.weights[i] * sc.zs;
-    fitted[i] = points.z[i] - resid;
+    const resid = fit.residual[i] * sc.zs;
+    fitted[i] = values[i] - resid;
     rss += resid * resid;
+    wrss += resid * resid * (sqrtW ? sqrtW[i] ** 2 : 1);
   }
   const dof = n - fit.edf;
+  // Blunder flags: leave-one-out residuals standardised by a robust scale, 1.4826·median|eᵢ|
+  // (the MAD estimate of σ for normal errors; Hampel 1974), so one large blunder does not hide itself.
+  const threshold = options.flagThreshold ?? 3;
+  const absLoo = Float64Array.from(loo, Math.abs).sort();
+  const robust = 1.4826 * absLoo[Math.floor(n / 2)] || Math.sqrt(looSs / n) || 1;
+  const looZ = Array.from(loo, (e) => e / robust);
+  const flagged: number[] = [];
+  looZ.forEach((z, i) => {
+    if (Math.abs(z) > threshold) flagged.push(i);
+  });
+  flagged.sort((a, b) => Math.abs(looZ[b]) - Math.abs(looZ[a]));
+
   const hull = convexHullRing(points.x, points.y);
   let xmin = Infinity, xmax = -Infinity, ymin = Infinity, ymax = -Infinity;
   for (let i = 0; i < n; i++) {
@@ -130,29 +307,40 @@ export function fitSurface(points: CleanPoints, options: FitOptions = {}): Surfa
   const model: SurfaceModel = {
     format: MODEL_FORMAT,
     version: MODEL_VERSION,
-    kernel,
-    shape: hasShape(kernel) ? fit.epsilonScaled / sc.s : null,
-    drift,
-    lambda: fit.lambdaScaled * lambdaToUser,
+    kernel: chosen.kernel,
+    shape: hasShape(chosen.kernel) ? fit.epsilonScaled / sc.s : null,
+    drift: chosen.drift,
+    lambda: fit.lambdaScaled * final.lambdaToUser,
     crs: options.crs ?? { label: "local site grid (no EPSG code)" },
     source: options.source ?? { file: "", x: "x", y: "y", z: "z" },
     scaling: sc,
+    anisotropy,
+    transform,
     internal: { epsilonScaled: fit.epsilonScaled, lambdaScaled: fit.lambdaScaled },
-    points: { x: Array.from(points.x), y: Array.from(points.y), z: Array.from(points.z), line: points.lines.slice() },
+    points: {
+      x: Array.from(points.x),
+      y: Array.from(points.y),
+      z: Array.from(points.z),
+      line: points.lines.slice(),
+      weight: sqrtW ? Array.from(sqrtW, (d) => d * d) : null,
+    },
     weights: Array.from(fit.weights),
     driftCoefficients: Array.from(fit.driftCoefficients),
     fitted: Array.from(fitted),
     loo: Array.from(loo),
+    looStandardised: looZ,
     diagnostics: {
       n,
       edf: fit.edf,
       gcv: fit.gcv,
       loocvRmse: Math.sqrt(looSs / n),
       rmse: Math.sqrt(rss / n),
-      sigma: dof > 1e-9 ? Math.sqrt(rss / dof) : 0,
+      sigma: dof > 1e-9 ? Math.sqrt(wrss / dof) : 0,
       condition: fit.condition,
       smoothingChoice: fit.smoothingChoice,
       shapeChoice,
+      selection: ranking ? { by: select, onSubsample: rankedOnSubsample ? RANK_SUBSAMPLE : null, ranking } : null,
+      flags: { threshold, robustScale: robust, lines: flagged.map((i) => points.lines[i]) },
       warnings,
       gcvCurve: fit.curve,
     },
@@ -161,6 +349,44 @@ export function fitSurface(points: CleanPoints, options: FitOptions = {}): Surfa
     spacing,
   };
   return model;
+}
+
+/** Fit one kernel and drift (choosing the shape when asked; on a subsample when N is large). */
+function fitOne(
+  prep: Prepared,
+  kernel: KernelName,
+  drift: DriftName,
+  shapeOpt: "auto" | number,
+  smoothing: "gcv" | number,
+  progress?: (m: string) => void,
+): { fit: KernelFit; scaling: Scaling; zs: number; lambdaToUser: number } {
+  const { n, u, v, values, sqrtW } = prep;
+  // Values are centred unless the drift is none (centring would act as a hidden constant drift).
+  let zc = 0;
+  if (drift !== "none") {
+    for (let i = 0; i < n; i++) zc += values[i] / n;
+  }
+  let ss = 0;
+  for (let i = 0; i < n; i++) ss += (values[i] - zc) ** 2;
+  const zs = Math.sqrt(ss / n) || 1;
+  const yv = Float64Array.from(values, (z) => (z - zc) / zs);
+  // λ in map units: the thin-plate kernel scales as s² (the r² log s part lies in the drift's
+  // null space); the shape kernels are unchanged when ε is scaled with the coordinates.
+  const lambdaToUser = kernel === "thin-plate" ? prep.s * prep.s : 1;
+  const smoothingScaled = smoothing === "gcv" ? "gcv" as const : smoothing / lambdaToUser;
+  const run = (epsilonScaled: number, uu: Float64Array = u, vv: Float64Array = v, yy: Float64Array = yv, ww: Float64Array | undefined = sqrtW) =>
+    fitCore(uu, vv, yy, zs, { kernel, drift, epsilonScaled, smoothing: smoothingScaled, lambdaToUser, sqrtWeights: ww });
+  let fit: KernelFit;
+  if (!hasShape(kernel)) fit = run(1);
+  else if (shapeOpt !== "auto") fit = run(shapeOpt * prep.s);
+  else if (n > SHAPE_SUBSAMPLE) {
+    const idx = subsampleIndices(n, SHAPE_SUBSAMPLE);
+    const su = subset(u, idx), sv = subset(v, idx), sy = subset(yv, idx), sw = sqrtW && subset(sqrtW, idx);
+    const best = chooseShape((e) => run(e, su, sv, sy, sw), prep.spacingScaled * Math.sqrt(n / SHAPE_SUBSAMPLE), progress);
+    fit = run(best.epsilonScaled);
+  } else fit = chooseShape((e) => run(e), prep.spacingScaled, progress);
+  const scaling: Scaling = { cx: prep.cx, cy: prep.cy, s: prep.s, zc, zs };
+  return { fit, scaling, zs, lambdaToUser };
 }
 
 /**

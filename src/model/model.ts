@@ -23,6 +23,14 @@ export interface ModelDiagnostics {
   condition: number;
   smoothingChoice: "gcv" | "given" | "given-raised";
   shapeChoice: "auto" | "given" | "none";
+  /** Automatic selection: how candidates were ranked, and the ranking (best first). */
+  selection: {
+    by: "gcv" | "loocv";
+    onSubsample: number | null;
+    ranking: { kernel: KernelName; drift: DriftName; shape: number | null; lambda: number; edf: number; gcv: number; loocvRmse: number; chosen: boolean }[];
+  } | null;
+  /** Possible blunders: input lines whose standardised leave-one-out residual exceeds the threshold. */
+  flags: { threshold: number; robustScale: number; lines: number[] };
   warnings: string[];
   /** GCV curve over λ. */
   gcvCurve: { lambda: number; gcv: number; edf: number }[];
@@ -40,16 +48,26 @@ export interface SurfaceModel {
   crs: Crs;
   source: { file: string; x: string; y: string; z: string };
   scaling: { cx: number; cy: number; s: number; zc: number; zs: number };
+  /**
+   * Optional anisotropy, applied before scaling: d = (x − x0, y − y0); along = d·(sin θ, cos θ),
+   * across = ratio·d·(cos θ, −sin θ), θ the azimuth of the long axis clockwise from grid north.
+   * Scaling then applies to (along, across).
+   */
+  anisotropy: { azimuth: number; ratio: number; x0: number; y0: number } | null;
+  /** Value transform: "log" fits ln z and back-transforms with exp(f + σ²/2). */
+  transform: "none" | "log";
   /** Shape in scaled units and λ in scaled units, as used by the evaluator. */
   internal: { epsilonScaled: number; lambdaScaled: number };
   /** Data after cleaning, in map units, with the input line of each point. */
-  points: { x: number[]; y: number[]; z: number[]; line: number[] };
+  points: { x: number[]; y: number[]; z: number[]; line: number[]; weight: number[] | null };
   /** RBF weights and drift coefficients in scaled units. */
   weights: number[];
   driftCoefficients: number[];
   /** Fitted value and leave-one-out residual z − f₍₋ᵢ₎(xᵢ) at every point, value units. */
   fitted: number[];
   loo: number[];
+  /** Leave-one-out residuals divided by the robust scale 1.4826·median|e|. */
+  looStandardised: number[];
   diagnostics: ModelDiagnostics;
   /** Data extent, convex hull (closed ring, counter-clockwise) and median nearest-neighbour spacing. */
   extent: { xmin: number; ymin: number; xmax: number; ymax: number };

@@ -32,7 +32,28 @@ export function modelSummaryLines(model: SurfaceModel): string[] {
   lines.push(
     `Input: ${printableText(src.file)} (x = ${printableText(src.x)}, y = ${printableText(src.y)}, value = ${printableText(src.z)}); CRS ${printableText(model.crs.label)}`,
   );
+  const sel = d.selection;
+  if (sel) {
+    lines.push(
+      `Selection: ${sel.ranking.length} candidate models ranked by ${sel.by === "gcv" ? "GCV score" : "leave-one-out RMSE"}` +
+        (sel.onSubsample ? ` on a ${sel.onSubsample}-point subsample` : "") + " (best first):",
+    );
+    lines.push("  kernel                drift      shape ε     λ           edf      GCV         LOO RMSE");
+    for (const c of sel.ranking) {
+      lines.push(
+        `${c.chosen ? "* " : "  "}${c.kernel.padEnd(22)}${c.drift.padEnd(11)}${(c.shape === null ? "—" : fmt(c.shape)).padEnd(12)}` +
+          `${fmt(c.lambda).padEnd(12)}${fmt(c.edf).padEnd(9)}${fmt(c.gcv).padEnd(12)}${fmt(c.loocvRmse)}`,
+      );
+    }
+  }
   lines.push(`Model: ${KERNEL_TEXT[model.kernel]}, ${model.drift} drift, ${d.n} points`);
+  if (model.transform === "log") {
+    lines.push("  values fitted as ln z; estimates back-transformed as exp(f + σ²/2) (lognormal bias correction); σ, GCV and residuals are in log units");
+  }
+  if (model.points.weight) lines.push("  weighted least squares with the given observation weights");
+  if (model.anisotropy) {
+    lines.push(`  anisotropy: long axis at azimuth ${fmt(model.anisotropy.azimuth)}°, ratio ${fmt(model.anisotropy.ratio)}`);
+  }
   const shape = model.shape === null ? "none (scale-free kernel)" : `ε = ${fmt(model.shape)} per map unit (${d.shapeChoice === "auto" ? "chosen by GCV" : "given"})`;
   lines.push(`  shape: ${shape}`);
   const how = d.smoothingChoice === "gcv" ? "chosen by GCV" : d.smoothingChoice === "given" ? "given" : "given, raised for stability";
@@ -46,6 +67,11 @@ export function modelSummaryLines(model: SurfaceModel): string[] {
         order.map((i) => `line ${model.points.line[i]}: ${model.loo[i] >= 0 ? "+" : ""}${fmt(model.loo[i], 3)}`).join("; "),
     );
   }
+  lines.push(
+    d.flags.lines.length
+      ? `  possible blunders (|standardised leave-one-out residual| > ${fmt(d.flags.threshold)}): lines ${d.flags.lines.slice(0, 10).join(", ")}${d.flags.lines.length > 10 ? ", …" : ""}`
+      : `  no point has a standardised leave-one-out residual beyond ${fmt(d.flags.threshold)}`,
+  );
   for (const w of d.warnings) lines.push(`WARNING: ${w}`);
   return lines;
 }

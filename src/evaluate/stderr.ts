@@ -1,0 +1,140 @@
+// Standard error of the surface estimate, from the same linear algebra as the fit.
+//
+// View the fit as kriging with a generalised covariance b·φ, unknown drift coefficients (flat prior)
+// and measurement noise of variance σ²/ωᵢ; the smoothing is then λ = σ²/b (Wahba 1978, 1990 §5;
+// Kimeldorf & Wahba 1970). The error variance of the estimate f̂(x) of the true surface is the
+// universal-kriging variance with the noise as a nugget:
+//     Var[f(x) − f̂(x)] = b · (φ(0) − sᵀ M⁻¹ s),  s = [k(x); p(x)],  M = [K + λΩ⁻¹, P; Pᵀ, 0]
+// (Cressie 1993, §3.4; Rasmussen & Williams 2006, eq. 2.42 with a vague prior on the drift;
+// for conditionally positive definite kernels this is the power function with the drift
+// constraints, Wendland 2005 ch. 11, Fasshauer 2007 ch. 14). σ² is estimated from the GCV fit as
+// RSS_ω/(N − edf) (Wahba 1990, ch. 4) and b = σ²/λ; for an interpolating fit (λ = 0) b is the
+// process-variance estimate ỹᵀw̃/(N − m) (common practice in kriging with a fitted sill).
+// Assumptions: the kernel describes the surface's spatial correlation, errors are independent with
+// the stated weights, and the model (kernel, shape, drift) is right. The figure is a model-based
+// error of the surface, not a survey tolerance; a new reading at x would scatter by a further σ.
+import { borderedInverse, borderedQuadratic, fitCore } from "../fit/fit.ts";
+import { driftRow, driftTerms, kernelOfSquared } from "../fit/kernels.ts";
+import type { SurfaceModel } from "../model/model.ts";
+import type { GridValues } from "../types.ts";
+import { coordinateMapper, makeEvaluator, scaledCentres } from "./evaluate.ts";
+
+export interface ErrorEstimator {
+  /** Standard error of the estimate at a map coordinate (value units; back-transformed for log fits). */
+  at(x: number, y: number): number;
+  /** The process scale b (scaled units), for reports. */
+  processScale: number;
+}
+
+export function makeErrorEstimator(model: SurfaceModel): ErrorEstimator {
+  const { zc, zs } = model.scaling;
+  const n = model.points.x.length;
+  const { u, v } = scaledCentres(model);
+  const values = Float64Array.from(model.points.z, (z) => (model.transform === "log" ? Math.log(z) : z));
+  const y = Float64Array.from(values, (z) => (z - zc) / zs);
+  const sqrtW = model.points.weight ? Float64Array.from(model.points.weight, Math.sqrt) : undefined;
+  const lambda = model.internal.lambdaScaled;
+  const fit = fitCore(u, v, y, zs, {
+    kernel: model.kernel,
+    drift: model.drift,
+    epsilonScaled: model.internal.epsilonScaled,
+    smoothing: lambda,
+    lambdaToUser: 1,
+    sqrtWeights: sqrtW,
+  });
+  const inv = borderedInverse(fit, u, v);
+  const m = driftTerms(model.drift);
+  let b: number;
+  if (lambda > 0) {
+    const sigma2 = model.diagnostics.sigma ** 2 / (zs * zs);
+    b = sigma2 / lambda;
+  } else {
+    let yw = 0;
+    for (let i = 0; i < n; i++) yw += y[i] * (sqrtW ? sqrtW[i] : 1) * fit.state.wTilde[i];
+    b = Math.max(yw, 0) / Math.max(n - m, 1);
+  }
+  const phi = kernelOfSquared(model.kernel, model.internal.epsilonScaled);
+  const phi0 = phi(0);
+  const map = coordinateMapper(model);
+  const uv = new Float64Array(2);
+  const k = new Float64Array(n);
+  const p = new Float64Array(Math.max(m, 1));
+  const sigmaLog = model.diagnostics.sigma;
+  const logEv = model.transform === "log" ? makeEvaluator({ ...model, transform: "none" }) : undefined;
+  const at = (x: number, yy: number): number => {
+    map(x, yy, uv);
+    for (let i = 0; i < n; i++) {
+      const du = uv[0] - u[i], dv = uv[1] - v[i];
+      k[i] = phi(du * du + dv * dv) * (sqrtW ? sqrtW[i] : 1);
+    }
+    driftRow(uv[0], uv[1], m, p);
+    const q = borderedQuadratic(inv, k, p);
+    const se = zs * Math.sqrt(Math.max(b * (phi0 - q), 0));
+    if (!logEv) return se;
+    // Lognormal: the estimate is exp(f̂ + σ²/2); its standard error ≈ estimate·√(exp(se²) − 1)
+    // for a log-scale error se (Aitchison & Brown 1957, moments of the lognormal).
+    return logEv.at(x, yy) * Math.exp(0.5 * sigmaLog * sigmaLog) * Math.sqrt(Math.expm1(se * se));
+  };
+  return { at, processScale: b };
+}
+
+
+/** Work (cells × N²) above which the error grid is computed on a coarser lattice and interpolated. */
+export const STDERR_FULL_WORK = 4e9;
+
+/**
+ * Standard-error grid on the same cells and mask as a surface grid. When cells·N² exceeds
+ * STDERR_FULL_WORK, errors are computed every `stride` cells in each direction and filled in
+ * bilinearly (the error surface is smooth away from data points; the stride is reported).
+ */
+export function gridStandardError(
+  model: SurfaceModel,
+  surface: GridValues,
+  progress?: (m: string) => void,
+): { grid: GridValues; stride: number } {
+  const est = makeErrorEstimator(model);
+  const { spec } = surface;
+  const n = model.points.x.length;
+  const cells = spec.cols * spec.rows;
+  const stride = Math.max(1, Math.ceil(Math.sqrt((cells * n * n) / STDERR_FULL_WORK)));
+  const values = new Float64Array(cells).fill(NaN);
+  const xc = (c: number) => spec.xmin + (c + 0.5) * spec.cell;
+  const yc = (r: number) => spec.ymax - (r + 0.5) * spec.cell;
+  if (stride === 1) {
+    let last = Date.now();
+    for (let r = 0; r < spec.rows; r++) {
+      for (let c = 0; c < spec.cols; c++) {
+        const k = r * spec.cols + c;
+        if (!Number.isNaN(surface.values[k])) values[k] = est.at(xc(c), yc(r));
+      }
+      if (progress && Date.now() - last > 1000) {
+        last = Date.now();
+        progress(`standard errors: row ${r + 1} of ${spec.rows}`);
+      }
+    }
+    return { grid: { spec, values, crs: surface.crs }, stride };
+  }
+  // Coarse lattice including the last row and column, then bilinear fill.
+  const cr = Array.from({ length: Math.ceil((spec.rows - 1) / stride) + 1 }, (_, i) => Math.min(i * stride, spec.rows - 1));
+  const cc = Array.from({ length: Math.ceil((spec.cols - 1) / stride) + 1 }, (_, i) => Math.min(i * stride, spec.cols - 1));
+  const coarse = new Float64Array(cr.length * cc.length);
+  for (let i = 0; i < cr.length; i++) {
+    for (let j = 0; j < cc.length; j++) coarse[i * cc.length + j] = est.at(xc(cc[j]), yc(cr[i]));
+    progress?.(`standard errors: coarse row ${i + 1} of ${cr.length}`);
+  }
+  for (let r = 0; r < spec.rows; r++) {
+    const i = Math.max(0, Math.min(Math.floor(r / stride), cr.length - 2));
+    const ti = cr.length > 1 ? (r - cr[i]) / (cr[i + 1] - cr[i]) : 0;
+    for (let c = 0; c < spec.cols; c++) {
+      const k = r * spec.cols + c;
+      if (Number.isNaN(surface.values[k])) continue;
+      const j = Math.max(0, Math.min(Math.floor(c / stride), cc.length - 2));
+      const tj = cc.length > 1 ? (c - cc[j]) / (cc[j + 1] - cc[j]) : 0;
+      const i1 = Math.min(i + 1, cr.length - 1), j1 = Math.min(j + 1, cc.length - 1);
+      const a = coarse[i * cc.length + j], b = coarse[i * cc.length + j1];
+      const d = coarse[i1 * cc.length + j], e = coarse[i1 * cc.length + j1];
+      values[k] = (1 - ti) * ((1 - tj) * a + tj * b) + ti * ((1 - tj) * d + tj * e);
+    }
+  }
+  return { grid: { spec, values, crs: surface.crs }, stride };
+}
