@@ -101,11 +101,19 @@ describe("GCV and leave-one-out against brute force", () => {
     expect(Math.abs(model.diagnostics.gcv - gcv) / gcv).toBeLessThan(1e-6);
   });
 
-  it("leave-one-out residuals from one factorisation equal residuals from actually refitting without each point (Rippa 1999)", () => {
+  const looCases: [KernelName, DriftName, boolean][] = [
+    ["gaussian", "constant", false],
+    ["thin-plate", "linear", false],
+    ["multiquadric", "quadratic", false],
+    ["thin-plate", "linear", true],
+  ];
+  for (const [kernel, drift, weighted] of looCases) it(`leave-one-out residuals from one factorisation equal residuals from actually refitting without each point (Rippa 1999): ${kernel}, ${drift}${weighted ? ", weighted" : ""}`, () => {
     const n = 25;
     const pts = makePoints(n, 8, noisy);
     const lambda = 0.001;
-    const model = fitSurface(pts, { kernel: "gaussian", drift: "constant", shape: 2.5, smoothing: lambda });
+    const weights = weighted ? Float64Array.from({ length: n }, (_, i) => 1 + (i % 3)) : undefined;
+    const opts = { kernel, drift, shape: 2.5, smoothing: lambda };
+    const model = fitSurface(pts, { ...opts, weights });
     for (const i of [0, 7, 24]) {
       const keep = [...Array(n).keys()].filter((k) => k !== i);
       const sub: CleanPoints = {
@@ -117,7 +125,16 @@ describe("GCV and leave-one-out against brute force", () => {
         merged: [],
         rowsRead: n - 1,
       };
-      const m2 = fitSurface(sub, { kernel: "gaussian", drift: "constant", shape: 2.5, smoothing: lambda });
+      // λ is in map units and the weights are normalised to mean 1 over the points used, so the
+      // refit without point i keeps the same absolute weights by rescaling λ accordingly.
+      let subLambda = lambda;
+      let subWeights: Float64Array | undefined;
+      if (weights) {
+        subWeights = Float64Array.from(keep, (k) => weights[k]);
+        const meanAll = weights.reduce((a, b) => a + b) / n, meanSub = subWeights.reduce((a, b) => a + b) / (n - 1);
+        subLambda = (lambda * meanAll) / meanSub;
+      }
+      const m2 = fitSurface(sub, { ...opts, smoothing: subLambda, weights: subWeights });
       const pred = evaluateModel(m2, [pts.x[i]], [pts.y[i]])[0];
       expect(model.loo[i]).toBeCloseTo(pts.z[i] - pred, 8);
     }

@@ -16,6 +16,7 @@ import type { DriftName, KernelName } from "../types.ts";
 import { driftRow, driftTerms, hasShape, kernelMatrix, minimumDrift } from "./kernels.ts";
 import {
   applyReflector,
+  cholesky,
   applyReflectors,
   applyReflectorsTransposed,
   householderQR,
@@ -112,6 +113,10 @@ export interface FitState {
   mu: Float64Array;
   h: Float64Array;
   y: Float64Array; // scaled values
+  u: Float64Array; // scaled coordinates (kept by reference to rebuild K when needed)
+  v: Float64Array;
+  kernel: KernelName;
+  epsilonScaled: number;
 }
 
 export interface CoreOptions {
@@ -307,7 +312,7 @@ export function fitCore(u: Float64Array, v: Float64Array, y: Float64Array, zs: n
     condition,
     curve,
     warnings,
-    state: { n, m, r, sqrtW: sw, wTilde, qr, tri, mu, h, y },
+    state: { n, m, r, sqrtW: sw, wTilde, qr, tri, mu, h, y, u, v, kernel: opts.kernel, epsilonScaled: opts.epsilonScaled },
   };
 }
 
@@ -367,14 +372,114 @@ export function influenceComplementDiagonal(state: FitState, zt: Float64Array, l
 }
 
 /** Leave-one-out residuals eᵢ = wᵢ / Gᵢᵢ (Rippa 1999), in value units; G from the weighted system. */
-export function leaveOneOutResiduals(fit: KernelFit, zs: number, zt?: Float64Array): Float64Array {
-  const basis = zt ?? rotatedBasis(fit.state);
-  const gii = influenceComplementDiagonal(fit.state, basis, fit.lambdaScaled);
+export function leaveOneOutResiduals(fit: KernelFit, zs: number): Float64Array {
+  const gii = influenceComplementDiagonalCholesky(fit.state, fit.lambdaScaled) ??
+    influenceComplementDiagonal(fit.state, rotatedBasis(fit.state), fit.lambdaScaled);
   const e = new Float64Array(gii.length);
   // eᵢ = (yᵢ − fᵢ)/(1 − Aᵢᵢ) = w̃ᵢ / (Dᵢ G̃ᵢᵢ) for the weighted system (D = I unweighted).
   const sw = fit.state.sqrtW;
   for (let i = 0; i < e.length; i++) e[i] = (fit.state.wTilde[i] / ((sw ? sw[i] : 1) * gii[i])) * zs;
   return e;
+}
+
+/**
+ * diag(G), G = Q₂(B+λI)⁻¹Q₂ᵀ, in about (2/3)n³ flops: Cholesky B + λI = LLᵀ, L⁻¹ explicitly, and the
+ * compact WY form Q = I − V S Vᵀ of the drift's m reflectors (Schreiber & Van Loan 1989), so that
+ * L⁻¹Q₂ᵀ = [0 | L⁻¹] − U Vᵀ with U = L⁻¹V₂Sᵀ (rank m). Then for column i (j = i − m):
+ *   Gᵢᵢ = ‖L⁻¹eⱼ‖² − 2 (L⁻ᵀU)ⱼ·vᵢ + vᵢᵀ(UᵀU)vᵢ   (the first two terms only when i ≥ m).
+ * Returns undefined when B + λI is not numerically positive definite (the caller falls back).
+ */
+export function influenceComplementDiagonalCholesky(state: FitState, lambda: number): Float64Array | undefined {
+  const { n, m, qr, u, v, kernel, epsilonScaled, sqrtW } = state;
+  const nb = n - m;
+  const k = kernelMatrix(kernel, epsilonScaled, u, v);
+  if (sqrtW) for (let i = 0; i < n; i++) for (let j = 0; j < n; j++) k[i * n + j] *= sqrtW[i] * sqrtW[j];
+  for (const refl of qr) reflectSymmetric(k, n, refl);
+  const l = new Float64Array(nb * nb);
+  for (let i = 0; i < nb; i++) l.set(k.subarray((m + i) * n + m, (m + i) * n + m + i + 1), i * nb);
+  for (let i = 0; i < nb; i++) l[i * nb + i] += lambda;
+  if (!cholesky(l, nb)) return undefined;
+  // X = L⁻¹, row by row: X[i,:] = (eᵢ − Σ_{k<i} L[i,k] X[k,:]) / L[i,i] (contiguous row updates).
+  const x = new Float64Array(nb * nb);
+  for (let i = 0; i < nb; i++) {
+    const ri = i * nb;
+    for (let kk = 0; kk < i; kk++) {
+      const lik = l[ri + kk];
+      if (lik === 0) continue;
+      const rk = kk * nb;
+      for (let j = 0; j <= kk; j++) x[ri + j] -= lik * x[rk + j];
+    }
+    x[ri + i] += 1;
+    const inv = 1 / l[ri + i];
+    for (let j = 0; j <= i; j++) x[ri + j] *= inv;
+  }
+  const colNorm = new Float64Array(nb);
+  for (let i = 0; i < nb; i++) {
+    const ri = i * nb;
+    for (let j = 0; j <= i; j++) colNorm[j] += x[ri + j] * x[ri + j];
+  }
+  // Compact WY: V (N×m, row-major), S (m×m upper): S_new = [[S, −β S Vᵀv], [0, β]].
+  const vm = new Float64Array(n * m);
+  const sm = new Float64Array(m * m);
+  qr.forEach((refl, j) => {
+    for (let i = 0; i < refl.v.length; i++) vm[(refl.start + i) * m + j] = refl.v[i];
+    const vtv = new Float64Array(j);
+    for (let a = 0; a < j; a++) {
+      let s = 0;
+      for (let i = 0; i < n; i++) s += vm[i * m + a] * vm[i * m + j];
+      vtv[a] = s;
+    }
+    for (let a = 0; a < j; a++) {
+      let s = 0;
+      for (let b = a; b < j; b++) s += sm[a * m + b] * vtv[b];
+      sm[a * m + j] = -refl.beta * s;
+    }
+    sm[j * m + j] = refl.beta;
+  });
+  // U = L⁻¹ (V₂ Sᵀ), nb×m.
+  const v2s = new Float64Array(nb * m);
+  for (let i = 0; i < nb; i++) {
+    for (let a = 0; a < m; a++) {
+      let s = 0;
+      for (let b = 0; b < m; b++) s += vm[(m + i) * m + b] * sm[a * m + b];
+      v2s[i * m + a] = s;
+    }
+  }
+  const um = new Float64Array(nb * m);
+  for (let i = 0; i < nb; i++) {
+    const ri = i * nb;
+    for (let kk = 0; kk <= i; kk++) {
+      const xik = x[ri + kk];
+      if (xik === 0) continue;
+      for (let a = 0; a < m; a++) um[i * m + a] += xik * v2s[kk * m + a];
+    }
+  }
+  // Z = L⁻ᵀ U = Xᵀ U, nb×m; UᵀU, m×m.
+  const zm = new Float64Array(nb * m);
+  for (let i = 0; i < nb; i++) {
+    const ri = i * nb;
+    for (let j = 0; j <= i; j++) {
+      const xij = x[ri + j];
+      if (xij === 0) continue;
+      for (let a = 0; a < m; a++) zm[j * m + a] += xij * um[i * m + a];
+    }
+  }
+  const utu = new Float64Array(m * m);
+  for (let i = 0; i < nb; i++) for (let a = 0; a < m; a++) for (let b = 0; b < m; b++) utu[a * m + b] += um[i * m + a] * um[i * m + b];
+  const gii = new Float64Array(n);
+  for (let i = 0; i < n; i++) {
+    let quad = 0;
+    for (let a = 0; a < m; a++) for (let b = 0; b < m; b++) quad += vm[i * m + a] * utu[a * m + b] * vm[i * m + b];
+    let val = quad;
+    if (i >= m) {
+      const j = i - m;
+      let cross = 0;
+      for (let a = 0; a < m; a++) cross += zm[j * m + a] * vm[i * m + a];
+      val += colNorm[j] - 2 * cross;
+    }
+    gii[i] = val;
+  }
+  return gii;
 }
 
 function fmtExp(v: number): string {
