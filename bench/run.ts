@@ -9,7 +9,7 @@ import * as fs from "node:fs";
 import * as os from "node:os";
 import * as path from "node:path";
 import { fitSurface } from "../src/fit/surface.ts";
-import { gridModel } from "../src/evaluate/grid.ts";
+import { gridModelParallel } from "../src/evaluate/parallel.ts";
 import type { CleanPoints } from "../src/types.ts";
 
 const N = Number(Deno.env.get("BENCH_N") ?? 2000);
@@ -48,15 +48,21 @@ function time<T>(f: () => T): [T, number] {
   return [r, (performance.now() - t0) / 1000];
 }
 
+async function timeAsync<T>(f: () => Promise<T>): Promise<[T, number]> {
+  const t0 = performance.now();
+  const r = await f();
+  return [r, (performance.now() - t0) / 1000];
+}
+
 console.log(`rbfield benchmark: ${N} noisy points, ${SIDE} × ${SIDE} grid, ${os.cpus().length} cores`);
 // 1. rbfield with full automatic selection.
 const [auto, tAutoFit] = time(() => fitSurface(pts, { kernel: "auto" }));
-const [gAuto, tAutoGrid] = time(() => gridModel(auto, { cell, extent, mask: "none" }));
+const [gAuto, tAutoGrid] = await timeAsync(() => gridModelParallel(auto, { cell, extent, mask: "none" }));
 console.log(`rbfield auto: chose ${auto.kernel}/${auto.drift}, fit+select ${tAutoFit.toFixed(2)} s, grid ${tAutoGrid.toFixed(2)} s`);
 // 2. rbfield with the fixed model scipy runs (smoothing: a round value near what GCV picks here).
 const smoothing = 1.0;
 const [fixed, tFixedFit] = time(() => fitSurface(pts, { kernel: "thin-plate", drift: "linear", smoothing }));
-const [gFixed, tFixedGrid] = time(() => gridModel(fixed, { cell, extent, mask: "none" }));
+const [gFixed, tFixedGrid] = await timeAsync(() => gridModelParallel(fixed, { cell, extent, mask: "none" }));
 console.log(`rbfield fixed thin-plate: fit ${tFixedFit.toFixed(2)} s (includes exact leave-one-out), grid ${tFixedGrid.toFixed(2)} s`);
 void gAuto;
 

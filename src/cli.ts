@@ -3,9 +3,10 @@
 import { parseArgs } from "node:util";
 import { CAUTION } from "./caution.ts";
 import { ExitCode, RbfieldError } from "./errors.ts";
-import { gridModel, type GridOptions } from "./evaluate/grid.ts";
+import type { GridOptions } from "./evaluate/grid.ts";
 import { KERNELS, DRIFTS } from "./fit/kernels.ts";
 import type { FitOptions } from "./fit/surface.ts";
+import { gridModelParallel } from "./evaluate/parallel.ts";
 import { gridStandardError } from "./evaluate/stderr.ts";
 import {
   contourGeoJson,
@@ -320,7 +321,7 @@ export async function main(args: string[], io: Io): Promise<number> {
         refuseInputAsOutput(seOut, [...pos, out]);
         checkWritableFolder(seOut);
       }
-      const grid = gridModel(model, { ...gridOptions(v), progress });
+      const grid = await gridModelParallel(model, { ...gridOptions(v), progress });
       const se = seOut ? gridStandardError(model, grid, progress) : undefined;
       writeFileAtomic(out, encodeGeoTiff(grid));
       if (seOut && se) writeFileAtomic(seOut, encodeGeoTiff(se.grid));
@@ -335,7 +336,7 @@ export async function main(args: string[], io: Io): Promise<number> {
       if (interval === undefined) throw usage("contour needs --interval DZ");
       const input = pos[0];
       const isTiff = /\.tiff?$/i.test(input);
-      const grid = isTiff ? await readGrid(input) : gridModel(readModel(input), { ...gridOptions(v), progress });
+      const grid = isTiff ? await readGrid(input) : await gridModelParallel(readModel(input), { ...gridOptions(v), progress });
       const r = contourGeoJson(grid, interval, num(v.base as string | undefined, "base") ?? 0, Boolean(v.bands));
       writeFileAtomic(out, r.text);
       if (v.json) io.out(JSON.stringify({ levels: r.levels, bands: Boolean(v.bands), file: out, caution: CAUTION }, null, 2) + "\n");

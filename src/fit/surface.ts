@@ -87,7 +87,7 @@ export function convexHullRing(x: Float64Array, y: Float64Array): [number, numbe
 }
 
 /** Points above which the shape search runs on a subsample (then one full fit at that shape). */
-export const SHAPE_SUBSAMPLE = 300;
+export const SHAPE_SUBSAMPLE = 500;
 /** Points above which automatic ranking runs on a subsample (then the winner is fitted on all). */
 export const RANK_SUBSAMPLE = 500;
 
@@ -116,7 +116,7 @@ export function candidateList(kernel: KernelChoice, drift: DriftChoice): { kerne
   const kernels = kernel === "auto" ? KERNELS : [kernel];
   const out: { kernel: KernelName; drift: DriftName }[] = [];
   for (const k of kernels) {
-    const drifts: DriftName[] = drift !== "auto" ? [drift] : k === "thin-plate" ? ["linear", "quadratic"] : ["constant", "linear"];
+    const drifts: DriftName[] = drift !== "auto" ? [drift] : k === "thin-plate" ? ["linear", "quadratic"] : ["linear", "constant"];
     for (const d of drifts) if (!driftProblem(k, d)) out.push({ kernel: k, drift: d });
   }
   return out;
@@ -226,10 +226,14 @@ export function fitSurface(points: CleanPoints, options: FitOptions = {}): Surfa
       ? { ...prep, n: idx.length, u: subset(u, idx), v: subset(v, idx), values: subset(values, idx), sqrtW: prep.sqrtW && subset(prep.sqrtW, idx), spacingScaled: prep.spacingScaled * Math.sqrt(n / idx.length) }
       : prep;
     ranking = [];
+    // The shape is searched once per kernel (with its first drift) and reused for its other drift:
+    // the GCV-best shape barely moves with the drift, and the search is most of the cost.
+    const shapeOf = new Map<KernelName, number>();
     for (const cand of candidates) {
       options.progress?.(`trying ${cand.kernel} with ${cand.drift} drift`);
       try {
-        const f = fitOne(rp, cand.kernel, cand.drift, shapeOpt, smoothing, options.progress);
+        const f = fitOne(rp, cand.kernel, cand.drift, shapeOf.get(cand.kernel) ?? shapeOpt, smoothing, options.progress);
+        if (hasShape(cand.kernel) && shapeOpt === "auto") shapeOf.set(cand.kernel, f.fit.epsilonScaled / prep.s);
         const zs = f.zs;
         const loo = leaveOneOutResiduals(f.fit, zs);
         let ss = 0;

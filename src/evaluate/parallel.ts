@@ -1,0 +1,48 @@
+// Parallel gridding: the rows of a grid are split into one block per core and evaluated in Web
+// Workers. Each cell is computed by the same code as gridModel, so results are identical.
+import type { SurfaceModel } from "../model/model.ts";
+import type { GridValues } from "../types.ts";
+import { gridLayout, gridModel, type GridOptions, polygonMask } from "./grid.ts";
+
+/** Cells × centres below which one thread is faster than starting workers. */
+const PARALLEL_WORK = 2e7;
+
+export async function gridModelParallel(model: SurfaceModel, options: GridOptions = {}, threads = navigator.hardwareConcurrency || 1): Promise<GridValues> {
+  const spec = gridLayout(model, options);
+  const work = spec.cols * spec.rows * model.points.x.length;
+  if (threads < 2 || work < PARALLEL_WORK || typeof Worker === "undefined") return gridModel(model, options);
+  const maskOpt = options.mask ?? "hull";
+  const mask = maskOpt === "none" ? null : polygonMask(spec, maskOpt === "hull" ? [[model.hull]] : maskOpt);
+  const values = new Float64Array(spec.cols * spec.rows);
+  const blocks = Math.min(threads, spec.rows);
+  const per = Math.ceil(spec.rows / blocks);
+  options.progress?.(`gridding ${spec.cols} × ${spec.rows} cells on ${blocks} threads`);
+  const jobs: Promise<void>[] = [];
+  for (let b = 0; b < blocks; b++) {
+    const rowStart = b * per, rowEnd = Math.min(spec.rows, rowStart + per);
+    if (rowStart >= rowEnd) continue;
+    jobs.push(
+      new Promise<void>((resolve, reject) => {
+        const worker = new Worker(new URL("./grid_worker.ts", import.meta.url).href, { type: "module" });
+        worker.onmessage = (e: MessageEvent<Float64Array>) => {
+          values.set(e.data, rowStart * spec.cols);
+          worker.terminate();
+          resolve();
+        };
+        worker.onerror = (e) => {
+          worker.terminate();
+          e.preventDefault();
+          reject(new Error(`grid worker failed: ${e.message}`));
+        };
+        worker.postMessage({ model, spec, rowStart, rowEnd, mask: mask ? mask.slice(rowStart * spec.cols, rowEnd * spec.cols) : null });
+      }),
+    );
+  }
+  try {
+    await Promise.all(jobs);
+  } catch {
+    // Workers unavailable in this host (e.g. restricted permissions): compute in this thread.
+    return gridModel(model, options);
+  }
+  return { spec, values, crs: model.crs };
+}
