@@ -11,20 +11,14 @@ import * as path from "node:path";
 import { fitSurface } from "../src/fit/surface.ts";
 import { gridModelParallel } from "../src/evaluate/parallel.ts";
 import type { CleanPoints } from "../src/types.ts";
+import { mulberry32 } from "../src/random.ts";
 
 const N = Number(Deno.env.get("BENCH_N") ?? 2000);
 const SIDE = 500;
 
 // Invented benchmark data: a smooth field on a 1 km square with Gaussian noise (seeded).
 function makeData(n: number): CleanPoints {
-  let s = 424242;
-  const u = () => {
-    s = (s + 0x6d2b79f5) >>> 0;
-    let t = s;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
+  const u = mulberry32(424242);
   const x = new Float64Array(n), y = new Float64Array(n), z = new Float64Array(n);
   for (let i = 0; i < n; i++) {
     x[i] = 1000 * u();

@@ -2,19 +2,10 @@
 // the crew and every reading are made up by this script (fixed seed) for the demo only.
 // Run: deno run --allow-write=samples samples/make-sample.ts
 import { writeFileSync } from "node:fs";
+import { gaussian, mulberry32 } from "../src/random.ts";
 
-// mulberry32: a small seeded generator so the files are the same on every run.
-function mulberry32(seed: number): () => number {
-  return () => {
-    seed = (seed + 0x6d2b79f5) >>> 0;
-    let t = seed;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
 const rand = mulberry32(20261201);
-const gauss = () => Math.sqrt(-2 * Math.log(1 - rand())) * Math.cos(2 * Math.PI * rand());
+const gauss = gaussian(rand);
 
 // Invented terrain on a 400 m × 300 m lot: a ridge rising to the north-east, a drainage swale
 // and a small knoll, levels in metres above an invented datum.

@@ -282,9 +282,19 @@ export async function main(args: string[], io: Io): Promise<number> {
       predict: { ...COMMON, x: { type: "string" }, y: { type: "string" }, out: { type: "string" } },
       run: { ...COMMON, ...POINTS, ...MODEL, ...GRID, ...CONTOUR, out: { type: "string" }, locations: { type: "string" } },
     };
+    // "--base -5": join a value option with a following negative number so it is not read as an option.
+    const rest: string[] = [];
+    const argv = args.slice(1);
+    for (let i = 0; i < argv.length; i++) {
+      const a = argv[i];
+      const name = a.startsWith("--") && !a.includes("=") ? a.slice(2) : undefined;
+      if (name && specs[verb][name]?.type === "string" && i + 1 < argv.length && /^-[\d.]/.test(argv[i + 1])) {
+        rest.push(`${a}=${argv[++i]}`);
+      } else rest.push(a);
+    }
     let parsed;
     try {
-      parsed = parseArgs({ args: args.slice(1), options: specs[verb], allowPositionals: true, strict: true });
+      parsed = parseArgs({ args: rest, options: specs[verb], allowPositionals: true, strict: true });
     } catch (e) {
       throw usage(`${verb}: ${(e as Error).message.split("\n")[0]} (see 'deno task rbfield ${verb} --help')`);
     }
@@ -301,8 +311,9 @@ export async function main(args: string[], io: Io): Promise<number> {
     }
     const out = v.out as string | undefined;
     if (!out) throw usage(`${verb} needs --out (see 'deno task rbfield ${verb} --help')`);
+    const maskFile = typeof v.mask === "string" && v.mask !== "hull" && v.mask !== "none" ? [v.mask] : [];
     if (verb !== "run") {
-      refuseInputAsOutput(out, pos);
+      refuseInputAsOutput(out, [...pos, ...maskFile]);
       checkWritableFolder(out);
     }
 
@@ -318,7 +329,7 @@ export async function main(args: string[], io: Io): Promise<number> {
       const model = readModel(pos[0]);
       const seOut = v.stderr as string | undefined;
       if (seOut) {
-        refuseInputAsOutput(seOut, [...pos, out]);
+        refuseInputAsOutput(seOut, [...pos, ...maskFile, out]);
         checkWritableFolder(seOut);
       }
       const grid = await gridModelParallel(model, { ...gridOptions(v), progress });
@@ -362,6 +373,7 @@ export async function main(args: string[], io: Io): Promise<number> {
       interval: num(v.interval as string | undefined, "interval"),
       base: num(v.base as string | undefined, "base"),
       locations: v.locations as string | undefined,
+      otherInputs: maskFile,
       progress,
     });
     if (v.json) io.out(JSON.stringify({ ...modelJson(r.model), files: r.files }, null, 2) + "\n");

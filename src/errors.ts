@@ -30,7 +30,9 @@ export class RbfieldError extends Error {
 
 /** "file.csv, line 12, column 3" — the form every input error uses. */
 export function formatPlace(place: SourcePlace): string {
-  let text = place.file;
+  // A file name with control characters must not break the one-line message or drive a terminal.
+  // deno-lint-ignore no-control-regex
+  let text = place.file.replace(/[\u0000-\u001f\u007f-\u009f\u202a-\u202e\u2066-\u2069]/g, "?");
   if (place.line !== undefined) text += `, line ${place.line}`;
   if (place.column !== undefined) text += `, column ${place.column}`;
   return text;

@@ -13,7 +13,7 @@ import { modelFromJson, modelToJson, type SurfaceModel } from "./model/model.ts"
 import { decodeGeoTiff } from "./read/geotiff.ts";
 import { parseNumber, readPointTable } from "./read/points.ts";
 import type { CleanPoints, Crs, GridValues, PointTable } from "./types.ts";
-import { checkWritableFolder, ensureFolder, refuseInputAsOutput, writeFileAtomic } from "./write/atomic.ts";
+import { checkWritableFolder, ensureFolder, refuseFolderAsOutput, refuseInputAsOutput, writeFilesAtomic } from "./write/atomic.ts";
 import { contourBands, contourLevels, contourLines } from "./write/contours.ts";
 import { estimatesCsv } from "./write/csv.ts";
 import { encodeGeoTiff } from "./write/geotiff.ts";
@@ -85,7 +85,7 @@ export async function loadPoints(src: PointsSource): Promise<LoadedPoints> {
   const table = await readPointTable(src.file, { x: src.x, y: src.y, z: src.z });
   // Merge first, then judge conflicts against the limit: given, or 5% of the value range (common practice
   // for "the same shot twice": small differences are instrument noise, large ones a blunder).
-  const points = cleanPoints(table, { mergeConflicts: true });
+  const points = cleanPoints(table, { mergeConflicts: true, minPoints: 3 });
   if (!src.mergeConflicts) {
     let lo = Infinity, hi = -Infinity;
     for (const v of points.z) {
@@ -119,12 +119,19 @@ export async function loadPoints(src: PointsSource): Promise<LoadedPoints> {
 export async function fitPointsFile(src: PointsSource, fit: FitOptions = {}): Promise<LoadedPoints & { model: SurfaceModel }> {
   const loaded = await loadPoints(src);
   const t = loaded.table;
-  const model = fitSurface(loaded.points, {
-    ...fit,
-    weights: loaded.weights,
-    crs: loaded.crs,
-    source: { file: path.basename(src.file), x: t.columns[t.xColumn], y: t.columns[t.yColumn], z: t.columns[t.zColumn] },
-  });
+  let model: SurfaceModel;
+  try {
+    model = fitSurface(loaded.points, {
+      ...fit,
+      weights: loaded.weights,
+      crs: loaded.crs,
+      source: { file: path.basename(src.file), x: t.columns[t.xColumn], y: t.columns[t.yColumn], z: t.columns[t.zColumn] },
+    });
+  } catch (e) {
+    // Fit-stage problems concern the points file: name it.
+    if (e instanceof RbfieldError && !e.place) throw new RbfieldError(e.message, e.exitCode, { file: src.file });
+    throw e;
+  }
   return { ...loaded, model };
 }
 
@@ -134,7 +141,7 @@ export function readModel(file: string): SurfaceModel {
   try {
     text = fs.readFileSync(file, "utf8");
   } catch {
-    throw new RbfieldError(`${file}: cannot read the model file (missing or not readable)`, ExitCode.io, { file });
+    throw new RbfieldError("cannot read the model file (missing or not readable); give the file written by 'rbfield fit'", ExitCode.io, { file });
   }
   return modelFromJson(text, file);
 }
@@ -145,13 +152,13 @@ export function readMask(file: string): PolygonRings[] {
   try {
     text = fs.readFileSync(file, "utf8");
   } catch {
-    throw new RbfieldError(`${file}: cannot read the mask file`, ExitCode.io, { file });
+    throw new RbfieldError("cannot read the mask file (missing or not readable)", ExitCode.io, { file });
   }
   let data: unknown;
   try {
     data = JSON.parse(text.replace(/^\uFEFF/, ""));
   } catch {
-    throw new RbfieldError(`${file}: the mask file is not valid GeoJSON`, ExitCode.input, { file });
+    throw new RbfieldError("the mask file is not valid GeoJSON; give Polygon or MultiPolygon features", ExitCode.input, { file });
   }
   return polygonsFromGeoJson(data, file);
 }
@@ -191,12 +198,15 @@ export async function readGrid(file: string): Promise<GridValues> {
   try {
     bytes = fs.readFileSync(file);
   } catch {
-    throw new RbfieldError(`${file}: cannot read the grid file`, ExitCode.io, { file });
+    throw new RbfieldError("cannot read the grid file (missing or not readable)", ExitCode.io, { file });
   }
   return await decodeGeoTiff(bytes, file);
 }
 
-/** Estimates (and standard errors) at the rows of a locations table; rows without usable x, y get empty cells. */
+/**
+ * Estimates (and standard errors) at the rows of a locations table. Rows without usable x, y (or
+ * so far away that the estimate is not a finite number) get empty cells and are listed in `unusable`.
+ */
 export function estimateTable(
   model: SurfaceModel,
   table: PointTable,
@@ -210,8 +220,9 @@ export function estimateTable(
   table.rows.forEach((row, i) => {
     const x = parseNumber(row[table.xColumn] ?? "", table.decimalComma);
     const y = parseNumber(row[table.yColumn] ?? "", table.decimalComma);
-    if (Number.isFinite(x) && Number.isFinite(y)) {
-      est[i] = ev.at(x, y);
+    const value = Number.isFinite(x) && Number.isFinite(y) ? ev.at(x, y) : NaN;
+    if (Number.isFinite(value)) {
+      est[i] = value;
       if (err && se) err[i] = se.at(x, y);
     } else {
       est[i] = NaN;
@@ -242,7 +253,17 @@ export function residualsCsv(model: SurfaceModel): string {
     const v = log ? Math.log(p.z[i]) : p.z[i];
     const zst = model.looStandardised[i];
     lines.push(
-      [p.line[i], p.x[i], p.y[i], p.z[i], fmt(model.fitted[i], 10), fmt(v - model.fitted[i], 6), fmt(model.loo[i], 6), fmt(zst, 4), Math.abs(zst) > t ? "possible blunder" : ""].join(","),
+      [
+        p.line[i],
+        p.x[i],
+        p.y[i],
+        p.z[i],
+        fmt(model.fitted[i], 10),
+        fmt(v - model.fitted[i], 6),
+        model.loo[i] === null ? "" : fmt(model.loo[i], 6),
+        model.loo[i] === null ? "" : fmt(zst, 4),
+        Math.abs(zst) > t ? "possible blunder" : "",
+      ].join(","),
     );
   }
   return lines.join("\r\n") + "\r\n";
@@ -257,6 +278,8 @@ export interface RunOptions extends PointsSource {
   base?: number;
   /** Locations to estimate at (CSV); default: the input points themselves. */
   locations?: string;
+  /** Other files read by this run (e.g. a mask), which no output may overwrite. */
+  otherInputs?: string[];
   progress?: (message: string) => void;
 }
 
@@ -279,9 +302,27 @@ export async function runJob(opts: RunOptions): Promise<RunResult> {
     residuals: path.join(out, "residuals.csv"),
     summary: path.join(out, "summary.txt"),
   };
-  const inputs = [opts.file, ...(opts.locations ? [opts.locations] : [])];
+  const inputs = [opts.file, ...(opts.locations ? [opts.locations] : []), ...(opts.otherInputs ?? [])];
+  const created = !fs.existsSync(out);
   ensureFolder(out);
-  for (const f of Object.values(files)) refuseInputAsOutput(f, inputs);
+  try {
+    return await runInto(opts, files, inputs);
+  } catch (e) {
+    // Leave no empty folder behind when this run made it.
+    if (created) {
+      try {
+        fs.rmdirSync(out);
+      } catch { /* not empty or already gone */ }
+    }
+    throw e;
+  }
+}
+
+async function runInto(opts: RunOptions, files: Record<string, string>, inputs: string[]): Promise<RunResult> {
+  for (const f of Object.values(files)) {
+    refuseInputAsOutput(f, inputs);
+    refuseFolderAsOutput(f);
+  }
   checkWritableFolder(files.model);
 
   opts.progress?.(`reading ${opts.file}`);
@@ -326,14 +367,16 @@ export async function runJob(opts: RunOptions): Promise<RunResult> {
       `  summary    ${files.summary}`,
     ],
   ]);
-  // Everything is computed; now write, each file atomically.
-  writeFileAtomic(files.model, modelToJson(model));
-  writeFileAtomic(files.surface, encodeGeoTiff(grid));
-  writeFileAtomic(files.stderr, encodeGeoTiff(errors.grid));
-  writeFileAtomic(files.contours, lines.text);
-  writeFileAtomic(files.bands, bands.text);
-  writeFileAtomic(files.estimates, estimatesCsv(locTable, estimateColumns(est)));
-  writeFileAtomic(files.residuals, residualsCsv(model));
-  writeFileAtomic(files.summary, summary);
+  // Everything is computed; write all files as one step (temporary files, then renames).
+  writeFilesAtomic([
+    [files.model, modelToJson(model)],
+    [files.surface, encodeGeoTiff(grid)],
+    [files.stderr, encodeGeoTiff(errors.grid)],
+    [files.contours, lines.text],
+    [files.bands, bands.text],
+    [files.estimates, estimatesCsv(locTable, estimateColumns(est))],
+    [files.residuals, residualsCsv(model)],
+    [files.summary, summary],
+  ]);
   return { model, files, summary };
 }

@@ -1,4 +1,5 @@
 import { describe, expect, it } from "vitest";
+import { errorOf } from "./helpers.ts";
 import { cleanPoints, describeCleaning } from "../src/clean/clean.ts";
 import { ExitCode, RbfieldError } from "../src/errors.ts";
 import type { CleanPoints, PointTable } from "../src/types.ts";
@@ -20,15 +21,6 @@ function table(rows: string[][], extra: Partial<PointTable> = {}): PointTable {
   };
 }
 
-function errorOf(fn: () => unknown): RbfieldError {
-  try {
-    fn();
-  } catch (e) {
-    if (e instanceof RbfieldError) return e;
-    throw e;
-  }
-  throw new Error("expected an RbfieldError");
-}
 
 describe("cleanPoints: unusable rows", () => {
   it("skips missing, non-numeric and non-finite cells with line numbers and column names", () => {

@@ -1,6 +1,6 @@
 // End-to-end checks of the command-line tool on small files made here; outputs are read back with
 // independent tools where one exists (GDAL's gdalinfo, Debian package gdal-bin).
-import { describe, expect, it } from "vitest";
+import { afterAll, describe, expect, it } from "vitest";
 import { execFileSync } from "node:child_process";
 import * as fs from "node:fs";
 import * as os from "node:os";
@@ -32,6 +32,8 @@ for (let i = 0; i < 8; i++) for (let j = 0; j < 8; j++) {
 }
 const pointsFile = path.join(tmp, "plane.csv");
 fs.writeFileSync(pointsFile, rows.join("\n") + "\n");
+
+afterAll(() => fs.rmSync(tmp, { recursive: true, force: true }));
 
 describe("rbfield CLI", () => {
   it("fit --json prints the required keys and writes a model", async () => {

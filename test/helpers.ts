@@ -1,15 +1,9 @@
 // Shared test data makers: seeded points and Franke's 1982 test function.
 import type { CleanPoints } from "../src/types.ts";
+import { mulberry32 } from "../src/random.ts";
+import { RbfieldError } from "../src/errors.ts";
 
-export function mulberry32(seed: number): () => number {
-  return () => {
-    seed = (seed + 0x6d2b79f5) >>> 0;
-    let t = seed;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
+export { mulberry32 };
 
 export function makePoints(n: number, seed: number, f: (x: number, y: number) => number, x0 = 0, y0 = 0, size = 1): CleanPoints {
   const r = mulberry32(seed);
@@ -30,3 +24,14 @@ export function franke(x: number, y: number): number {
     0.2 * Math.exp(-((9 * x - 4) ** 2) - (9 * y - 7) ** 2);
 }
 
+
+/** Run fn and return the RbfieldError it throws (fails the test if it throws nothing or another error). */
+export function errorOf(fn: () => unknown): RbfieldError {
+  try {
+    fn();
+  } catch (e) {
+    if (e instanceof RbfieldError) return e;
+    throw e;
+  }
+  throw new Error("expected an RbfieldError");
+}

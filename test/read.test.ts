@@ -1,19 +1,11 @@
 import { describe, expect, it } from "vitest";
+import { errorOf } from "./helpers.ts";
 import { fileURLToPath } from "node:url";
 import { ExitCode, RbfieldError } from "../src/errors.ts";
 import { parseNumber, parsePointTable, readPointTable } from "../src/read/points.ts";
 
 const fixture = (name: string) => fileURLToPath(new URL(`./fixtures/read/${name}`, import.meta.url));
 
-function errorOf(fn: () => unknown): RbfieldError {
-  try {
-    fn();
-  } catch (e) {
-    if (e instanceof RbfieldError) return e;
-    throw e;
-  }
-  throw new Error("expected an RbfieldError");
-}
 
 async function asyncErrorOf(fn: () => Promise<unknown>): Promise<RbfieldError> {
   try {

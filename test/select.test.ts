@@ -9,18 +9,9 @@ import { makeErrorEstimator } from "../src/evaluate/stderr.ts";
 import type { SurfaceModel } from "../src/model/model.ts";
 import type { CleanPoints } from "../src/types.ts";
 import { franke, makePoints } from "./helpers.ts";
+import { gaussian, mulberry32 } from "../src/random.ts";
 
-function gaussNoise(seed: number): () => number {
-  let s = seed >>> 0;
-  const u = () => {
-    s = (s + 0x6d2b79f5) >>> 0;
-    let t = s;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-  return () => Math.sqrt(-2 * Math.log(1 - u())) * Math.cos(2 * Math.PI * u());
-}
+const gaussNoise = (seed: number) => gaussian(mulberry32(seed));
 
 /**
  * Universal-kriging / GP variance with a vague prior on the drift (Rasmussen & Williams 2006,

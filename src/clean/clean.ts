@@ -1,8 +1,27 @@
 // Clean stage: drop rows without usable numbers and merge coincident points.
 import { ExitCode, inputError, RbfieldError } from "../errors.ts";
-import { parseNumber } from "../read/points.ts";
+import { messageText, parseNumber } from "../read/points.ts";
 import { formatNumber } from "../write/csv.ts";
 import type { CleanPoints, MergedGroup, PointTable, SkippedRow } from "../types.ts";
+
+/**
+ * Largest coordinate magnitude accepted, in map units. At 1e15 a double resolves only 0.125 units
+ * (IEEE 754 binary64 has 53 significant bits) and no survey coordinate system comes near it (the
+ * Earth's circumference is 4e7 m); such numbers are a wrong column or wrong units.
+ */
+export const MAX_COORDINATE = 1e15;
+/**
+ * Largest value magnitude accepted: grids are written as Float32 GeoTIFFs, whose largest finite
+ * number is about 3.4e38 (IEEE 754 binary32), and sums of squares of values must stay finite.
+ */
+export const MAX_VALUE = 1e38;
+/** The points must span at least this many map units (below it the units are surely wrong)... */
+export const MIN_SPAN = 1e-9;
+/**
+ * ...and at least this fraction of their largest coordinate magnitude: below it the positions,
+ * once centred, keep fewer than about four significant digits (2.2e-16 relative precision).
+ */
+export const MIN_RELATIVE_SPAN = 1e-12;
 
 export interface CleanOptions {
   /** Points closer than this (map units) are coincident; default 0 = exactly equal coordinates. */
@@ -10,6 +29,11 @@ export interface CleanOptions {
   /** Refuse when merged values differ by more than this, unless mergeConflicts; default 0. */
   maxSpread?: number;
   mergeConflicts?: boolean;
+  /**
+   * Refuse, naming the file and why rows were skipped or merged, when fewer points at distinct
+   * positions remain; default 0 (no check).
+   */
+  minPoints?: number;
 }
 
 export function cleanPoints(table: PointTable, options: CleanOptions = {}): CleanPoints {
@@ -42,6 +66,10 @@ export function cleanPoints(table: PointTable, options: CleanOptions = {}): Clea
       const v = parseNumber(cell, table.decimalComma);
       if (Number.isNaN(v)) {
         skipped.push({ line: table.lines[i], reason: badCellReason(cell, table.columns[cols[k]], table.decimalComma) });
+        continue rows;
+      }
+      if (Math.abs(v) > (k < 2 ? MAX_COORDINATE : MAX_VALUE)) {
+        skipped.push({ line: table.lines[i], reason: outOfRangeReason(cell, table.columns[cols[k]], k < 2) });
         continue rows;
       }
       vals[k] = v;
@@ -159,7 +187,61 @@ export function cleanPoints(table: PointTable, options: CleanOptions = {}): Clea
       merged.push({ x: x[g], y: y[g], lines: groupLines, spread, value: z[g] });
     }
   }
-  return { x, y, z, lines, skipped, merged, rowsRead: n };
+  const result = { x, y, z, lines, skipped, merged, rowsRead: n };
+  if (G < (options.minPoints ?? 0)) throw tooFewPoints(table, result, options.minPoints!);
+  checkSpan(table, result);
+  return result;
+}
+
+/** Refuse points whose positions differ by too little to compute with (see MIN_SPAN). */
+function checkSpan(table: PointTable, p: CleanPoints): void {
+  const n = p.x.length;
+  if (n < 2) return;
+  let xmin = Infinity, xmax = -Infinity, ymin = Infinity, ymax = -Infinity, big = 0;
+  for (let i = 0; i < n; i++) {
+    xmin = Math.min(xmin, p.x[i]);
+    xmax = Math.max(xmax, p.x[i]);
+    ymin = Math.min(ymin, p.y[i]);
+    ymax = Math.max(ymax, p.y[i]);
+    big = Math.max(big, Math.abs(p.x[i]), Math.abs(p.y[i]));
+  }
+  const span = Math.max(xmax - xmin, ymax - ymin);
+  if (span >= MIN_SPAN && span >= MIN_RELATIVE_SPAN * big) return;
+  throw inputError(
+    `the ${n} points span only ${shortNumber(span)} map units (coordinates up to ${shortNumber(big)}), ` +
+      "too little to compute a surface with; check the coordinate columns and give the coordinates in smaller units",
+    { file: table.file },
+  );
+}
+
+/** Short number text for messages: exponent form for very large or small magnitudes. */
+function shortNumber(v: number): string {
+  const a = Math.abs(v);
+  return a !== 0 && (a >= 1e6 || a < 1e-3) ? v.toExponential(2).replace(/\.?0+e/, "e").replace("e+", "e") : formatNumber(v, 6);
+}
+
+function tooFewPoints(table: PointTable, p: CleanPoints, minPoints: number): RbfieldError {
+  const n = p.x.length;
+  const rows = p.rowsRead;
+  let message: string;
+  if (n === 0) {
+    const names = [table.xColumn, table.yColumn, table.zColumn].map((j) => `'${messageText(table.columns[j] ?? "", 40)}'`);
+    message = rows === 0 ? "no data rows" : `no usable points: all ${rows} data ${rows === 1 ? "row was" : "rows were"} skipped`;
+    if (p.skipped.length > 0) message += ` (line ${p.skipped[0].line}: ${p.skipped[0].reason})`;
+    message += `; check that x, y and value are the columns ${names.join(", ")}` +
+      (table.columnChoice === "detected" ? " or name them with --x --y --z" : "");
+  } else {
+    message = `only ${n} usable ${n === 1 ? "point" : "points"} at distinct positions, and at least ${minPoints} are needed`;
+    const reasons: string[] = [];
+    if (p.skipped.length > 0) {
+      reasons.push(`${p.skipped.length} of ${rows} rows skipped (first: line ${p.skipped[0].line}: ${p.skipped[0].reason})`);
+    }
+    const mergedRows = p.merged.reduce((sum, g) => sum + g.lines.length - 1, 0);
+    if (mergedRows > 0) reasons.push(`${mergedRows} rows merged into coincident points (lines ${p.merged[0].lines.slice(0, 5).join(", ")})`);
+    if (reasons.length > 0) message += ` (${reasons.join("; ")})`;
+    message += "; add points at other positions or fix the skipped rows";
+  }
+  return inputError(message, { file: table.file });
 }
 
 const hashView = new Float64Array(1);
@@ -179,10 +261,22 @@ function hashPair(a: number, b: number): number {
   return (h ^ (h >>> 13)) >>> 0;
 }
 
-function badCellReason(cell: string, column: string, decimalComma: boolean): string {
+function outOfRangeReason(cell: string, column: string, coordinate: boolean): string {
+  const t = messageText(cell.trim(), 40);
+  const c = messageText(column, 40);
+  return coordinate
+    ? `coordinate ${t} in column '${c}' is beyond ±${MAX_COORDINATE.toExponential()} map units (check the column and the units)`
+    : `value ${t} in column '${c}' is beyond ±${MAX_VALUE.toExponential()}, more than a 32-bit float grid holds (rescale the values)`;
+}
+
+const OUT_OF_RANGE = / is beyond ±/;
+
+function badCellReason(rawCell: string, rawColumn: string, decimalComma: boolean): string {
+  const cell = messageText(rawCell, 40);
+  const column = messageText(rawColumn, 40);
   const t = cell.trim();
   if (t === "") return `missing value in column '${column}'`;
-  const asNumber = Number(decimalComma ? t.replace(",", ".") : t);
+  const asNumber = Number(decimalComma ? rawCell.trim().replace(",", ".") : rawCell.trim());
   if (/^[+-]?(nan|inf|infinity)$/i.test(t) || asNumber === Infinity || asNumber === -Infinity) {
     return `value '${t}' in column '${column}' is not a finite number`;
   }
@@ -196,7 +290,10 @@ export function describeCleaning(points: CleanPoints, maxListed = 5): string[] {
   const s = points.skipped.length;
   if (s > 0) {
     const lines = listLines(points.skipped.map((r) => r.line), maxListed);
-    out.push(`skipped ${s} ${s === 1 ? "row" : "rows"} with missing or non-numeric values (${lines})`);
+    const what = points.skipped.some((r) => OUT_OF_RANGE.test(r.reason))
+      ? "missing, non-numeric or out-of-range values"
+      : "missing or non-numeric values";
+    out.push(`skipped ${s} ${s === 1 ? "row" : "rows"} with ${what} (${lines})`);
   }
   const g = points.merged.length;
   if (g > 0) {

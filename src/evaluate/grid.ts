@@ -56,6 +56,9 @@ export function gridLayout(model: SurfaceModel, options: GridLayoutOptions = {})
     }
   } else {
     const e = model.extent;
+    if (![e?.xmin, e?.ymin, e?.xmax, e?.ymax].every((v) => typeof v === "number" && Number.isFinite(v))) {
+      throw new RbfieldError("the model's data extent is missing or not finite numbers; the model file is damaged: refit the points", ExitCode.input);
+    }
     xmin = Math.floor(e.xmin / cell) * cell;
     ymin = Math.floor(e.ymin / cell) * cell;
     xmax = Math.ceil(e.xmax / cell) * cell;
@@ -65,6 +68,13 @@ export function gridLayout(model: SurfaceModel, options: GridLayoutOptions = {})
   }
   const cols = Math.max(1, Math.ceil((xmax - xmin) / cell - 1e-9));
   const rows = Math.max(1, Math.ceil((ymax - ymin) / cell - 1e-9));
+  // A cell far smaller than the coordinates (e.g. 1e-320) makes the edges or the counts overflow.
+  if (![xmin, ymin, xmax, ymax, cols, rows].every(Number.isFinite) || cols * rows > Number.MAX_SAFE_INTEGER) {
+    throw new RbfieldError(
+      `a cell of ${cell} map units gives a grid too large to count over this extent; choose a larger --cell`,
+      ExitCode.usage,
+    );
+  }
   if (cols * rows > MAX_CELLS && !options.force) {
     throw new RbfieldError(
       `a ${cols} × ${rows} grid (${(cols * rows).toLocaleString("en")} cells) is larger than the ${MAX_CELLS.toLocaleString("en")}-cell limit; ` +
@@ -125,7 +135,14 @@ export function polygonsFromGeoJson(data: unknown, file: string): PolygonRings[]
   const ok = out.length > 0 && out.every((p) => Array.isArray(p) && p.every((ring) =>
     Array.isArray(ring) && ring.length >= 4 && ring.every((pt) => Array.isArray(pt) && Number.isFinite(pt[0]) && Number.isFinite(pt[1]))
   ));
-  if (!ok) throw new RbfieldError(`${file}: the mask file holds no valid Polygon or MultiPolygon`, ExitCode.input, { file });
+  if (!ok) {
+    throw new RbfieldError(
+      "the mask file holds no valid Polygon or MultiPolygon (RFC 7946 §3.1.6: closed rings of at least four [x, y] positions); " +
+        "give polygons in the points' coordinates, or use --mask hull or none",
+      ExitCode.input,
+      { file },
+    );
+  }
   return out;
 }
 
@@ -139,15 +156,42 @@ export interface GridOptions extends GridLayoutOptions {
 export function gridModel(model: SurfaceModel, options: GridOptions = {}): GridValues {
   const spec = gridLayout(model, options);
   const maskOpt = options.mask ?? "hull";
-  const mask = maskOpt === "none" ? undefined : polygonMask(spec, maskOpt === "hull" ? [[model.hull]] : maskOpt);
+  if (maskOpt === "hull" && !validRing(model.hull)) {
+    throw new RbfieldError("the model's hull is not a ring of [x, y] numbers; the model file is damaged: refit the points", ExitCode.input);
+  }
+  let values: Float64Array;
+  let mask: Uint8Array | undefined;
+  try {
+    values = new Float64Array(spec.cols * spec.rows);
+    mask = maskOpt === "none" ? undefined : polygonMask(spec, maskOpt === "hull" ? [[model.hull]] : maskOpt);
+  } catch (e) {
+    if (!(e instanceof RangeError)) throw e;
+    throw new RbfieldError(
+      `not enough memory for a ${spec.cols} × ${spec.rows} grid; choose a larger --cell or a smaller --extent`,
+      ExitCode.usage,
+    );
+  }
   const ev = makeEvaluator(model);
-  const values = new Float64Array(spec.cols * spec.rows);
   let lastReport = Date.now();
   for (let r = 0; r < spec.rows; r++) {
     const yc = spec.ymax - (r + 0.5) * spec.cell;
     for (let c = 0; c < spec.cols; c++) {
       const k = r * spec.cols + c;
-      values[k] = mask && !mask[k] ? NaN : ev.at(spec.xmin + (c + 0.5) * spec.cell, yc);
+      if (mask && !mask[k]) {
+        values[k] = NaN;
+        continue;
+      }
+      const x = spec.xmin + (c + 0.5) * spec.cell;
+      const v = ev.at(x, yc);
+      // NaN marks masked cells: a surface value that is not finite must not pass as one.
+      if (!Number.isFinite(v)) {
+        throw new RbfieldError(
+          `the surface is not a finite number (${v}) at ${x}, ${yc} (cell ${c + 1}, ${r + 1}); ` +
+            "the model file may be damaged or the fit unstable: refit the points, with more smoothing if this persists",
+          ExitCode.numerical,
+        );
+      }
+      values[k] = v;
     }
     if (options.progress && Date.now() - lastReport > 1000) {
       lastReport = Date.now();
@@ -155,4 +199,10 @@ export function gridModel(model: SurfaceModel, options: GridOptions = {}): GridV
     }
   }
   return { spec, values, crs: model.crs };
+}
+
+/** A closed ring: at least four [x, y] positions of finite numbers. */
+export function validRing(ring: unknown): boolean {
+  return Array.isArray(ring) && ring.length >= 4 &&
+    ring.every((p) => Array.isArray(p) && p.length >= 2 && Number.isFinite(p[0]) && Number.isFinite(p[1]));
 }

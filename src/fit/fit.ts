@@ -185,7 +185,17 @@ export function fitCore(u: Float64Array, v: Float64Array, y: Float64Array, zs: n
   applyReflectorsTransposed(tri.reflectors, h);
 
   const muMin = mu[0];
-  const muMax = Math.max(mu[nb - 1], 1e-300);
+  // A kernel that is flat at this shape (all values equal to working precision) leaves B ≈ 0.
+  let kmax = 0;
+  for (let i = 0; i < nb; i++) kmax = Math.max(kmax, Math.abs(tri.d[i]), Math.abs(tri.e[i]));
+  if (!(mu[nb - 1] > 1e-14 * Math.max(kmax, 1e-300)) || !(mu[nb - 1] > 0)) {
+    throw new RbfieldError(
+      `the ${opts.kernel} kernel is flat at this shape over these points (no variation left after the drift); ` +
+        "use a larger --shape, --shape auto, or another kernel",
+      ExitCode.numerical,
+    );
+  }
+  const muMax = mu[nb - 1];
   // Smallest λ that keeps (μmax+λ)/(μmin+λ) ≤ CONDITION_LIMIT.
   const floor = Math.max(0, (muMax - CONDITION_LIMIT * muMin) / (CONDITION_LIMIT - 1));
   const t = new Float64Array(nb);
@@ -378,7 +388,13 @@ export function leaveOneOutResiduals(fit: KernelFit, zs: number): Float64Array {
   const e = new Float64Array(gii.length);
   // eᵢ = (yᵢ − fᵢ)/(1 − Aᵢᵢ) = w̃ᵢ / (Dᵢ G̃ᵢᵢ) for the weighted system (D = I unweighted).
   const sw = fit.state.sqrtW;
-  for (let i = 0; i < e.length; i++) e[i] = (fit.state.wTilde[i] / ((sw ? sw[i] : 1) * gii[i])) * zs;
+  let gmax = 0;
+  for (const g of gii) gmax = Math.max(gmax, Math.abs(g));
+  for (let i = 0; i < e.length; i++) {
+    // Gᵢᵢ ≈ 0: without point i the others cannot carry the drift, so its leave-one-out
+    // residual is undefined (NaN; left out of the RMSE and reported).
+    e[i] = gii[i] > 1e-12 * gmax ? (fit.state.wTilde[i] / ((sw ? sw[i] : 1) * gii[i])) * zs : NaN;
+  }
   return e;
 }
 

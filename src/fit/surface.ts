@@ -7,6 +7,7 @@ import { MODEL_FORMAT, MODEL_VERSION, type SurfaceModel } from "../model/model.t
 import type { CleanPoints, Crs, DriftName, KernelName } from "../types.ts";
 import { computeScaling, driftProblem, fitCore, type KernelFit, leaveOneOutResiduals, type Scaling } from "./fit.ts";
 import { hasShape, KERNELS } from "./kernels.ts";
+import { mulberry32 } from "../random.ts";
 
 export type KernelChoice = KernelName | "auto";
 export type DriftChoice = DriftName | "auto";
@@ -94,14 +95,7 @@ export const RANK_SUBSAMPLE = 500;
 /** A deterministic, spatially unbiased subsample (seeded shuffle; mulberry32 generator). */
 export function subsampleIndices(n: number, k: number, seed = 12345): Int32Array {
   const idx = Int32Array.from({ length: n }, (_, i) => i);
-  let state = seed >>> 0;
-  const rand = () => {
-    state = (state + 0x6d2b79f5) >>> 0;
-    let t = state;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
+  const rand = mulberry32(seed);
   for (let i = 0; i < k; i++) {
     const j = i + Math.floor(rand() * (n - i));
     const t = idx[i];
@@ -236,8 +230,13 @@ export function fitSurface(points: CleanPoints, options: FitOptions = {}): Surfa
         if (hasShape(cand.kernel) && shapeOpt === "auto") shapeOf.set(cand.kernel, f.fit.epsilonScaled / prep.s);
         const zs = f.zs;
         const loo = leaveOneOutResiduals(f.fit, zs);
-        let ss = 0;
-        for (const e of loo) ss += e * e;
+        let ss = 0, cnt = 0;
+        for (const e of loo) {
+          if (Number.isNaN(e)) continue;
+          ss += e * e;
+          cnt++;
+        }
+        if (cnt === 0) continue; // no point can be left out: nothing to rank this candidate by
         ranking.push({
           kernel: cand.kernel,
           drift: cand.drift,
@@ -245,7 +244,7 @@ export function fitSurface(points: CleanPoints, options: FitOptions = {}): Surfa
           lambda: f.fit.lambdaScaled * f.lambdaToUser,
           edf: f.fit.edf,
           gcv: f.fit.gcv,
-          loocvRmse: Math.sqrt(ss / loo.length),
+          loocvRmse: cnt ? Math.sqrt(ss / cnt) : NaN,
           chosen: false,
         });
       } catch (e) {
@@ -275,8 +274,12 @@ export function fitSurface(points: CleanPoints, options: FitOptions = {}): Surfa
 
   options.progress?.("computing leave-one-out residuals");
   const loo = leaveOneOutResiduals(fit, sc.zs);
-  let looSs = 0;
-  for (let i = 0; i < n; i++) looSs += loo[i] * loo[i];
+  let looSs = 0, looN = 0;
+  for (let i = 0; i < n; i++) {
+    if (Number.isNaN(loo[i])) continue;
+    looSs += loo[i] * loo[i];
+    looN++;
+  }
   const fitted = new Float64Array(n);
   let rss = 0, wrss = 0;
   for (let i = 0; i < n; i++) {
@@ -289,9 +292,10 @@ export function fitSurface(points: CleanPoints, options: FitOptions = {}): Surfa
   // Blunder flags: leave-one-out residuals standardised by a robust scale, 1.4826·median|eᵢ|
   // (the MAD estimate of σ for normal errors; Hampel 1974), so one large blunder does not hide itself.
   const threshold = options.flagThreshold ?? 3;
-  const absLoo = Float64Array.from(loo, Math.abs).sort();
-  const robust = 1.4826 * absLoo[Math.floor(n / 2)] || Math.sqrt(looSs / n) || 1;
-  const looZ = Array.from(loo, (e) => e / robust);
+  const absLoo = Float64Array.from(loo.filter((e) => !Number.isNaN(e)), Math.abs).sort();
+  const looRmse = looN > 0 ? Math.sqrt(looSs / looN) : NaN;
+  const robust = (absLoo.length ? 1.4826 * absLoo[Math.floor(absLoo.length / 2)] : 0) || looRmse || 1;
+  const looZ = Array.from(loo, (e) => (Number.isNaN(e) ? 0 : e / robust));
   const flagged: number[] = [];
   looZ.forEach((z, i) => {
     if (Math.abs(z) > threshold) flagged.push(i);
@@ -307,6 +311,12 @@ export function fitSurface(points: CleanPoints, options: FitOptions = {}): Surfa
     ymax = Math.max(ymax, points.y[i]);
   }
   const warnings = [...fit.warnings];
+  if (looN < n) {
+    warnings.push(
+      `${n - looN} point${n - looN > 1 ? "s have" : " has"} no leave-one-out residual (without ${n - looN > 1 ? "each" : "it"} the other points cannot carry the ${chosen.drift} drift): ` +
+        `lines ${points.lines.filter((_, i) => Number.isNaN(loo[i])).slice(0, 5).join(", ")}`,
+    );
+  }
   if (fit.condition > 1e10) warnings.push(`the system is close to ill-conditioned (condition estimate ${fit.condition.toExponential(2)})`);
   const model: SurfaceModel = {
     format: MODEL_FORMAT,
@@ -331,13 +341,14 @@ export function fitSurface(points: CleanPoints, options: FitOptions = {}): Surfa
     weights: Array.from(fit.weights),
     driftCoefficients: Array.from(fit.driftCoefficients),
     fitted: Array.from(fitted),
-    loo: Array.from(loo),
+    // Undefined leave-one-out residuals are stored as null.
+    loo: Array.from(loo, (e) => (Number.isNaN(e) ? null : e)) as number[],
     looStandardised: looZ,
     diagnostics: {
       n,
       edf: fit.edf,
       gcv: fit.gcv,
-      loocvRmse: Math.sqrt(looSs / n),
+      loocvRmse: looN > 0 ? looRmse : 0,
       rmse: Math.sqrt(rss / n),
       sigma: dof > 1e-9 ? Math.sqrt(wrss / dof) : 0,
       condition: fit.condition,

@@ -86,19 +86,23 @@ export function modelFromJson(text: string, file: string): SurfaceModel {
   try {
     data = JSON.parse(text);
   } catch (e) {
-    const pos = /position (\d+)/.exec(String((e as Error).message));
-    if (pos) {
-      const offset = Number(pos[1]);
-      const before = text.slice(0, offset);
-      const line = before.split("\n").length;
-      const column = offset - before.lastIndexOf("\n");
-      throw inputError("not a valid rbfield model file (JSON syntax error; the file may be truncated)", { file, line, column });
+    const trimmed = text.replace(/^\uFEFF/, "").trimStart();
+    if (!trimmed.startsWith("{")) {
+      throw inputError("not an rbfield model file (not JSON); give the model file written by 'rbfield fit'", { file });
     }
-    throw inputError("not a valid rbfield model file (JSON syntax error; the file may be truncated)", { file });
+    const pos = /position (\d+)/.exec(String((e as Error).message));
+    const place = pos
+      ? (() => {
+        const offset = Number(pos[1]);
+        const before = text.slice(0, offset);
+        return { file, line: before.split("\n").length, column: offset - before.lastIndexOf("\n") };
+      })()
+      : { file };
+    throw inputError("not a valid rbfield model file (JSON syntax error; the file may be truncated): refit the points", place);
   }
   const m = data as Record<string, unknown>;
-  if (typeof m !== "object" || m === null || m.format !== MODEL_FORMAT) {
-    throw inputError(`not an rbfield model file (no "format": "${MODEL_FORMAT}")`, { file });
+  if (typeof m !== "object" || m === null || Array.isArray(m) || m.format !== MODEL_FORMAT) {
+    throw inputError(`not an rbfield model file (no "format": "${MODEL_FORMAT}"); give the model file written by 'rbfield fit'`, { file });
   }
   if (m.version !== MODEL_VERSION) {
     throw inputError(
@@ -106,31 +110,55 @@ export function modelFromJson(text: string, file: string): SurfaceModel {
       { file },
     );
   }
-  const bad = (what: string) => new RbfieldError(`${file}: model file is damaged: ${what}`, ExitCode.input, { file });
+  const bad = (what: string) => new RbfieldError(`the model file is damaged (${what}); refit the points`, ExitCode.input, { file });
+  const finite = (v: unknown): v is number => typeof v === "number" && Number.isFinite(v);
+  const finiteArray = (v: unknown, n?: number): v is number[] => Array.isArray(v) && (n === undefined || v.length === n) && v.every(finite);
   if (!KERNELS.includes(m.kernel as KernelName)) throw bad(`unknown kernel ${JSON.stringify(m.kernel)}`);
   if (!DRIFTS.includes(m.drift as DriftName)) throw bad(`unknown drift ${JSON.stringify(m.drift)}`);
-  const pts = m.points as SurfaceModel["points"];
-  const n = pts?.x?.length;
-  if (!Array.isArray(pts?.x) || !Array.isArray(pts?.y) || pts.y.length !== n || !(n > 0)) throw bad("points missing");
-  const w = m.weights as number[];
-  if (!Array.isArray(w) || w.length !== n) throw bad("weights do not match the points");
-  const c = m.driftCoefficients as number[];
-  if (!Array.isArray(c)) throw bad("drift coefficients missing");
-  const sc = m.scaling as SurfaceModel["scaling"];
-  const internal = m.internal as SurfaceModel["internal"];
-  const numbers = [
-    ...pts.x,
-    ...pts.y,
-    ...w,
-    ...c,
-    sc?.cx,
-    sc?.cy,
-    sc?.s,
-    sc?.zc,
-    sc?.zs,
-    internal?.epsilonScaled,
-  ];
-  if (!numbers.every((v) => typeof v === "number" && Number.isFinite(v))) throw bad("non-numeric or missing values");
-  if (!Array.isArray(m.hull) || !m.extent || typeof m.spacing !== "number") throw bad("extent or hull missing");
+  if (m.transform !== "none" && m.transform !== "log") throw bad(`unknown transform ${JSON.stringify(m.transform)}`);
+  const pts = m.points as SurfaceModel["points"] | undefined;
+  const n = Array.isArray(pts?.x) ? pts!.x.length : 0;
+  if (!pts || !(n > 0) || !finiteArray(pts.x, n) || !finiteArray(pts.y, n) || !finiteArray(pts.z, n)) throw bad("points missing or not numbers");
+  // The limits the cleaning stage applies to input (coordinates within ±1e15, values within Float32 range).
+  const within = (a: number[], limit: number) => a.every((x) => Math.abs(x) <= limit);
+  if (!within(pts.x, 1e15) || !within(pts.y, 1e15) || !within(pts.z, 3.4e38)) throw bad("point coordinates or values out of range");
+  if (pts.weight !== null && pts.weight !== undefined && !(finiteArray(pts.weight, n) && pts.weight.every((w) => w > 0))) {
+    throw bad("point weights are not positive numbers");
+  }
+  if (!Array.isArray(pts.line) || pts.line.length !== n) throw bad("point line numbers missing");
+  // Magnitudes a fit can produce; anything larger is damage, not data.
+  const sane = (v: unknown[]) => v.every((x) => finite(x) && Math.abs(x as number) < 1e200);
+  if (!finiteArray(m.weights, n) || !sane(m.weights as number[])) throw bad("weights do not match the points");
+  const terms = [0, 1, 3, 6][DRIFTS.indexOf(m.drift as DriftName)];
+  if (!finiteArray(m.driftCoefficients, terms) || !sane(m.driftCoefficients as number[])) throw bad("drift coefficients missing or not numbers");
+  const sc = m.scaling as SurfaceModel["scaling"] | undefined;
+  if (
+    !sc || ![sc.cx, sc.cy, sc.zc].every((v) => finite(v) && Math.abs(v) <= 1e38) || !(finite(sc.s) && sc.s > 1e-300 && sc.s <= 1e16) ||
+    !(finite(sc.zs) && sc.zs > 1e-300 && sc.zs <= 1e38)
+  ) {
+    throw bad("scaling missing, zero or not numbers");
+  }
+  const internal = m.internal as SurfaceModel["internal"] | undefined;
+  if (
+    !internal || !(finite(internal.epsilonScaled) && internal.epsilonScaled > 0 && internal.epsilonScaled < 1e100) ||
+    !(finite(internal.lambdaScaled) && internal.lambdaScaled >= 0 && internal.lambdaScaled < 1e200)
+  ) {
+    throw bad("shape or smoothing missing or not numbers");
+  }
+  const an = m.anisotropy as SurfaceModel["anisotropy"] | undefined;
+  if (an !== null && an !== undefined) {
+    if (typeof an !== "object" || ![an.azimuth, an.x0, an.y0].every((v) => finite(v) && Math.abs(v) <= 1e15) || !(finite(an.ratio) && an.ratio >= 1 && an.ratio <= 1e6)) {
+      throw bad("anisotropy not numbers");
+    }
+  }
+  const d = m.diagnostics as SurfaceModel["diagnostics"] | undefined;
+  if (!d || typeof d !== "object" || !finite(d.sigma) || d.sigma < 0 || (m.transform === "log" && d.sigma > 30)) throw bad("diagnostics missing");
+  const e = m.extent as SurfaceModel["extent"] | undefined;
+  if (!e || ![e.xmin, e.ymin, e.xmax, e.ymax].every((v) => finite(v) && Math.abs(v) <= 1e15)) throw bad("extent missing or not numbers");
+  const hull = m.hull;
+  if (!Array.isArray(hull) || hull.length < 4 || !hull.every((p) => Array.isArray(p) && finite(p[0]) && finite(p[1]))) throw bad("hull missing");
+  if (!(finite(m.spacing) && (m.spacing as number) >= 0)) throw bad("spacing missing");
+  const crs = m.crs as Crs | undefined;
+  if (!crs || typeof crs.label !== "string" || (crs.epsg !== undefined && !(Number.isInteger(crs.epsg) && crs.epsg > 0))) throw bad("CRS missing");
   return m as unknown as SurfaceModel;
 }

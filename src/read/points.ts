@@ -27,8 +27,24 @@ const ID_NAMES = new Set([
   "index", "idx", "name", "label", "station", "site", "code",
 ]);
 
-const PLAIN_NUMBER = /^[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?$/;
-const COMMA_NUMBER = /^[+-]?(?:\d+,?\d*|,\d+)(?:[eE][+-]?\d+)?$/;
+// Written so that no text can match in more than one way: "\d+\.?\d*" would let a long run of
+// digits split between the two \d parts, and a failing match would then take quadratic time.
+const PLAIN_NUMBER = /^[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?$/;
+const COMMA_NUMBER = /^[+-]?(?:\d+(?:,\d*)?|,\d+)(?:[eE][+-]?\d+)?$/;
+
+/** Longest piece of input text quoted in a message. */
+const QUOTE_LIMIT = 60;
+
+/**
+ * Input text made safe for a one-line message: control characters (terminal escapes, line breaks),
+ * Unicode line separators and bidirectional controls become "?", and long text is cut short.
+ */
+export function messageText(text: string, limit = QUOTE_LIMIT): string {
+  // deno-lint-ignore no-control-regex
+  const safe = text.replace(/[\u0000-\u001f\u007f-\u009f\u200e\u200f\u2028-\u202e\u2066-\u2069\ufeff]/g, "?");
+  const chars = Array.from(safe);
+  return chars.length > limit ? chars.slice(0, limit - 1).join("") + "…" : safe;
+}
 
 /**
  * Parse a plain finite decimal number; NaN for anything else ("", "NaN", "Infinity", "1e999",
@@ -57,6 +73,19 @@ export async function readPointTable(path: string, options?: ReadOptions): Promi
   if (bytes.length >= 2 && ((bytes[0] === 0xff && bytes[1] === 0xfe) || (bytes[0] === 0xfe && bytes[1] === 0xff))) {
     throw inputError("file is UTF-16 encoded; save it as UTF-8", { file: path, line: 1 });
   }
+  if (bytes.length >= 4 && bytes[0] === 0x50 && bytes[1] === 0x4b && bytes[2] === 3 && bytes[3] === 4) {
+    throw inputError("file is a ZIP archive (e.g. an Excel .xlsx workbook), not text; save the points as CSV", { file: path });
+  }
+  // Text files hold no NUL bytes; UTF-16 without a byte-order mark and binary files do.
+  const nul = bytes.subarray(0, 65536).indexOf(0);
+  if (nul >= 0) {
+    let line = 1;
+    for (let i = 0; i < nul; i++) if (bytes[i] === 0x0a) line++;
+    throw inputError(
+      "file holds NUL bytes, so it is not UTF-8 text (UTF-16, or a binary file such as a spreadsheet?); save the points as UTF-8 CSV",
+      { file: path, line },
+    );
+  }
   // TextDecoder drops a UTF-8 BOM; bad bytes become U+FFFD.
   return parsePointTable(new TextDecoder("utf-8").decode(bytes), path, options);
 }
@@ -76,12 +105,17 @@ export function parsePointTable(text: string, file: string, options: ReadOptions
   body = body.replace(/\r\n?/g, "\n");
   const lines = new LineIndex(body);
   const first = body.search(/\S/);
-  if (first < 0) throw inputError("file is empty", { file, line: 1 });
+  if (first < 0) {
+    throw inputError("file is empty; give a header row (e.g. x,y,z) and one row per point", { file, line: 1 });
+  }
   if (body[first] === "{") return parseGeoJson(body, file, lines, options);
 
   const headerLine = firstContentLine(lines);
   if (headerLine < 0) {
-    throw inputError("file is empty (only blank and comment lines)", { file, line: 1 });
+    throw inputError(
+      "file is empty (only blank and comment lines); give a header row (e.g. x,y,z) and one row per point",
+      { file, line: 1 },
+    );
   }
   const delimiter = detectDelimiter(lines.text(headerLine));
   const collected = new RowCollector(file, lines);
@@ -91,7 +125,10 @@ export function parsePointTable(text: string, file: string, options: ReadOptions
   const columns = collected.header;
   const rows = collected.rows;
   if (rows.length === 0) {
-    throw inputError("no data rows after the header", { file, line: collected.headerLine });
+    throw inputError("no data rows after the header; add one row per point below it", {
+      file,
+      line: collected.headerLine,
+    });
   }
   const decimalComma = delimiter === ";" && detectDecimalComma(rows);
   const choice = chooseColumns(columns, rows, options, {
@@ -313,7 +350,7 @@ function splitWhitespace(lines: LineIndex, out: RowCollector): void {
           value += text[j++];
         }
         if (!closed) {
-          throw inputError("quoted field has no closing quote on this line", {
+          throw inputError("quoted field has no closing quote on this line; close the quote or remove it", {
             file: out.file,
             line,
             column: i + 1,
@@ -351,7 +388,8 @@ function detectDecimalComma(rows: string[][]): boolean {
 
 /** Lower case, without units in brackets, spaces, underscores or hyphens. */
 function normalizeName(name: string): string {
-  return name.toLowerCase().replace(/[([{][^)\]}]*[)\]}]/g, "").replace(/[\s_-]+/g, "");
+  // The bracket body excludes opening brackets too, so a run of "(" cannot make the match quadratic.
+  return name.toLowerCase().replace(/[([{][^()[\]{}]*[)\]}]/g, "").replace(/[\s_-]+/g, "");
 }
 
 interface ChoiceContext {
@@ -374,13 +412,20 @@ function chooseColumns(
   options: ReadOptions,
   ctx: ChoiceContext,
 ): Choice {
-  const list = columns.map((c) => `'${c}'`).join(", ");
+  const shown = columns.slice(0, 20).map((c) => `'${messageText(c, 40)}'`);
+  if (columns.length > 20) shown.push(`and ${columns.length - 20} more`);
+  const list = shown.join(", ");
   const place = { file: ctx.file, line: ctx.headerLine };
   const named = (flag: "x" | "y" | "z"): number => {
     const want = options[flag]!.trim();
     let j = columns.findIndex((c) => c.toLowerCase() === want.toLowerCase());
     if (j < 0) j = columns.findIndex((c) => normalizeName(c) === normalizeName(want));
-    if (j < 0) throw inputError(`--${flag} column '${want}' not found; the columns are: ${list}`, place);
+    if (j < 0) {
+      throw inputError(
+        `--${flag} column '${messageText(want, 40)}' not found; the columns are: ${list} (names are matched ignoring case)`,
+        place,
+      );
+    }
     return j;
   };
   const byName = (names: string[], allowed: (j: number) => boolean): number => {
@@ -394,14 +439,14 @@ function chooseColumns(
   const xColumn = options.x !== undefined ? named("x") : byName(X_NAMES, () => true);
   const yColumn = options.y !== undefined ? named("y") : byName(Y_NAMES, (k) => k !== xColumn);
   if (xColumn < 0 || yColumn < 0) {
-    const missing = xColumn < 0 && yColumn < 0 ? "x and y columns" : xColumn < 0 ? "x column" : "y column";
+    const missing = xColumn < 0 && yColumn < 0 ? "are the x and y columns" : xColumn < 0 ? "is the x column" : "is the y column";
     throw inputError(
-      `cannot tell which is the ${missing} from the header (columns are: ${list}); name them with --x and --y`,
+      `cannot tell which ${missing} from the header (columns are: ${list}); name them with --x and --y`,
       place,
     );
   }
   if (xColumn === yColumn) {
-    throw inputError(`x and y are both column '${columns[xColumn]}'; name different columns with --x and --y`, place);
+    throw inputError(`x and y are both column '${messageText(columns[xColumn], 40)}'; name different columns with --x and --y`, place);
   }
 
   const needValue = options.needValue ?? true;
@@ -410,7 +455,7 @@ function chooseColumns(
   if (options.z !== undefined) {
     zColumn = named("z");
     if (!free(zColumn)) {
-      throw inputError(`--z column '${columns[zColumn]}' is also the x or y column`, place);
+      throw inputError(`--z column '${messageText(columns[zColumn], 40)}' is also the x or y column; name another column with --z`, place);
     }
   } else {
     const candidates = new Set(ctx.zCandidates);
@@ -454,7 +499,7 @@ function parseGeoJson(body: string, file: string, lines: LineIndex, options: Rea
     doc = JSON.parse(body);
   } catch (e) {
     const found = locateJsonError(body) ?? fromParseMessage(e, body.length);
-    throw inputError(`invalid JSON: ${found.message}`, {
+    throw inputError(`invalid JSON: ${messageText(found.message, 120)}; fix the JSON syntax (the file may be truncated)`, {
       file,
       line: lines.lineOf(found.offset),
       column: lines.columnOf(found.offset),
@@ -471,7 +516,12 @@ function parseGeoJson(body: string, file: string, lines: LineIndex, options: Rea
   if (!Array.isArray(features)) {
     throw inputError("GeoJSON FeatureCollection has no \"features\" array (RFC 7946 §3.3)", { file, line: keyLine });
   }
-  if (features.length === 0) throw inputError("GeoJSON FeatureCollection has no features", { file, line: keyLine });
+  if (features.length === 0) {
+    throw inputError("GeoJSON FeatureCollection has no features; add one Point feature per measured point", {
+      file,
+      line: keyLine,
+    });
+  }
   const lineOfFeature = (i: number) =>
     offsets.length === features.length ? lines.lineOf(offsets[i]) : keyLine;
 
@@ -483,19 +533,23 @@ function parseGeoJson(body: string, file: string, lines: LineIndex, options: Rea
     const f = features[i] as Record<string, unknown> | null;
     const place = { file, line: lineOfFeature(i) };
     if (f === null || typeof f !== "object" || f.type !== "Feature") {
-      throw inputError(`features[${i}] is not a GeoJSON Feature (RFC 7946 §3.2)`, place);
+      throw inputError(
+        `features[${i}] is not a GeoJSON Feature (RFC 7946 §3.2); each element must be {"type": "Feature", "geometry": …, "properties": …}`,
+        place,
+      );
     }
     const g = f.geometry as Record<string, unknown> | null;
     const gtype = g && typeof g === "object" ? String(g.type) : "null";
     if (gtype !== "Point") {
       throw inputError(
-        `features[${i}] has a ${gtype} geometry; only Point features are read (RFC 7946 §3.1.2)`,
+        `features[${i}] has a ${messageText(gtype, 40)} geometry; only Point features are read (RFC 7946 §3.1.2): ` +
+          "remove it or convert it to points",
         place,
       );
     }
     const coords = g!.coordinates;
     if (!Array.isArray(coords) || coords.length < 2) {
-      throw inputError(`features[${i}] Point needs at least two coordinates (RFC 7946 §3.1.2)`, place);
+      throw inputError(`features[${i}] Point needs at least two coordinates, [x, y] (RFC 7946 §3.1.2)`, place);
     }
     if (coords.length >= 3) hasZ = true;
     const props = f.properties;
@@ -613,7 +667,7 @@ function locateJsonError(s: string): { offset: number; message: string } | undef
   const fail = (message: string): never => {
     throw new Stop(Math.min(i, s.length), message);
   };
-  const what = () => (i >= s.length ? "unexpected end of file" : `unexpected '${s[i]}'`);
+  const what = () => (i >= s.length ? "unexpected end of file" : `unexpected '${messageText(s[i])}'`);
   const ws = () => {
     while (i < s.length && " \t\n\r".includes(s[i])) i++;
   };

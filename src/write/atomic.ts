@@ -18,14 +18,71 @@ function canonical(p: string): string {
   }
 }
 
-/** Refuse an output path that is one of the inputs (after resolving links). */
+/** Device and inode of an existing file (catches hard links), or undefined. */
+function identity(p: string): string | undefined {
+  try {
+    const st = fs.statSync(p);
+    // Some file systems report inode 0 for every file; only a real inode identifies one.
+    return st.ino ? `${st.dev}:${st.ino}` : undefined;
+  } catch {
+    return undefined;
+  }
+}
+
+/** Refuse an output path that is one of the inputs (after resolving links, including hard links). */
 export function refuseInputAsOutput(output: string, inputs: string[]): void {
   const out = canonical(output);
+  const outId = identity(output);
   for (const input of inputs) {
-    if (canonical(input) === out) {
-      throw new RbfieldError(`${output}: the output path is an input file; choose another output name`, ExitCode.io, { file: output });
+    if (canonical(input) === out || (outId !== undefined && identity(input) === outId)) {
+      throw new RbfieldError(
+        "the output path is also an input file; choose another output name",
+        ExitCode.io,
+        { file: output },
+      );
     }
   }
+}
+
+let counter = 0;
+
+/** A name for a new temporary file beside `target` that no other writer uses. */
+function temporaryName(dir: string, base: string): string {
+  counter = (counter + 1) % 1e9;
+  const random = Math.floor(Math.random() * 0x100000000).toString(16);
+  return path.join(dir, `.${base}.${process.pid}.${counter}.${random}.tmp`);
+}
+
+/**
+ * Create a new file (never opening an existing one, nor following a link planted at its name:
+ * O_EXCL, POSIX open(2)) and write data to it.
+ */
+function writeNewFile(file: string, data: string | Uint8Array, sync: boolean): void {
+  const fd = fs.openSync(file, "wx", 0o666);
+  try {
+    const bytes = typeof data === "string" ? new TextEncoder().encode(data) : data;
+    let done = 0;
+    while (done < bytes.length) done += fs.writeSync(fd, bytes, done, bytes.length - done);
+    // Data on disk before the rename makes it visible (common practice for atomic replacement).
+    if (sync) {
+      try {
+        fs.fsyncSync(fd);
+      } catch { /* not every file system supports fsync; the rename is still atomic */ }
+    }
+  } finally {
+    fs.closeSync(fd);
+  }
+}
+
+/** Short reason for a file-system error; `missing` says what ENOENT means where it happened. */
+function reason(e: unknown, missing = "the folder does not exist"): string {
+  const code = (e as { code?: string })?.code;
+  if (code === "EACCES" || code === "EPERM") return "permission denied";
+  if (code === "EROFS") return "the file system is read-only";
+  if (code === "ENOSPC") return "the disk is full";
+  if (code === "EISDIR") return "a folder has that name";
+  if (code === "ENOENT") return missing;
+  return (e as Error)?.message ?? String(e);
 }
 
 /** Check, before long work starts, that a file can be created in the output's folder. */
@@ -35,30 +92,48 @@ export function checkWritableFolder(output: string): void {
   try {
     st = fs.statSync(dir);
   } catch {
-    throw new RbfieldError(`${output}: the folder ${dir} does not exist; create it first`, ExitCode.io, { file: output });
+    throw new RbfieldError(`the folder ${dir} does not exist; create it first`, ExitCode.io, { file: output });
   }
-  if (!st.isDirectory()) throw new RbfieldError(`${output}: ${dir} is not a folder`, ExitCode.io, { file: output });
-  const probe = path.join(dir, `.rbfield-probe-${process.pid}-${Date.now()}`);
+  if (!st.isDirectory()) throw new RbfieldError(`${dir} is not a folder; choose another output path`, ExitCode.io, { file: output });
   try {
-    fs.writeFileSync(probe, "");
-    fs.unlinkSync(probe);
-  } catch {
-    throw new RbfieldError(`${output}: cannot write in the folder ${dir} (permission denied?)`, ExitCode.io, { file: output });
+    if (fs.statSync(output).isDirectory()) {
+      throw new RbfieldError("a folder has this name; choose a file name for the output", ExitCode.io, { file: output });
+    }
+  } catch (e) {
+    if (e instanceof RbfieldError) throw e;
+    // No such file yet: fine.
   }
+  const probe = temporaryName(dir, "rbfield-probe");
+  try {
+    writeNewFile(probe, "", false);
+  } catch (e) {
+    throw new RbfieldError(
+      `cannot write in the folder ${dir} (${reason(e, "files cannot be created there")}); choose another output folder or fix its permissions`,
+      ExitCode.io,
+      { file: output },
+    );
+  }
+  try {
+    fs.unlinkSync(probe);
+  } catch { /* leave it: harmless and hidden */ }
 }
 
-/** Write data to path atomically (temporary file in the same folder, then rename). */
+/** Write data to path atomically (new temporary file in the same folder, then rename). */
 export function writeFileAtomic(target: string, data: string | Uint8Array): void {
   const dir = path.dirname(path.resolve(target));
-  const tmp = path.join(dir, `.${path.basename(target)}.${process.pid}.tmp`);
+  const tmp = temporaryName(dir, path.basename(target));
   try {
-    fs.writeFileSync(tmp, data);
+    writeNewFile(tmp, data, true);
     fs.renameSync(tmp, target);
   } catch (e) {
     try {
       fs.unlinkSync(tmp);
     } catch { /* nothing to remove */ }
-    throw new RbfieldError(`${target}: cannot write the file (${(e as Error).message})`, ExitCode.io, { file: target });
+    throw new RbfieldError(
+      `cannot write the file (${reason(e)}); check the folder and free space, or choose another output path`,
+      ExitCode.io,
+      { file: target },
+    );
   }
 }
 
@@ -67,6 +142,55 @@ export function ensureFolder(dir: string): void {
   try {
     fs.mkdirSync(dir, { recursive: true });
   } catch (e) {
-    throw new RbfieldError(`${dir}: cannot create the output folder (${(e as Error).message})`, ExitCode.io, { file: dir });
+    const code = (e as { code?: string })?.code;
+    const why = code === "EEXIST" || code === "ENOTDIR" ? "a file has that name" : reason(e, "folders cannot be created there");
+    throw new RbfieldError(`cannot create the output folder (${why}); choose another --out`, ExitCode.io, { file: dir });
+  }
+  if (!fs.statSync(dir).isDirectory()) {
+    throw new RbfieldError("cannot create the output folder (a file has that name); choose another --out", ExitCode.io, { file: dir });
+  }
+}
+
+/**
+ * Write several files as one step: every file goes to a new temporary file first, and only when
+ * all are written are they renamed over their targets. A failure before the renames leaves every
+ * existing output untouched and removes the temporary files.
+ */
+export function writeFilesAtomic(files: [string, string | Uint8Array][]): void {
+  const done: [string, string][] = [];
+  try {
+    for (const [target, data] of files) {
+      const tmp = temporaryName(path.dirname(path.resolve(target)), path.basename(target));
+      writeNewFile(tmp, data, true);
+      done.push([tmp, target]);
+    }
+  } catch (e) {
+    for (const [tmp] of done) {
+      try {
+        fs.unlinkSync(tmp);
+      } catch { /* already gone */ }
+    }
+    const target = files[done.length]?.[0] ?? files[0][0];
+    throw new RbfieldError(`cannot write the file (${reason(e)}); check the folder and free space, or choose another output path`, ExitCode.io, {
+      file: target,
+    });
+  }
+  for (const [tmp, target] of done) {
+    try {
+      fs.renameSync(tmp, target);
+    } catch (e) {
+      throw new RbfieldError(`cannot replace the file (${reason(e)})`, ExitCode.io, { file: target });
+    }
+  }
+}
+
+/** Refuse, before any work, an output path that is a folder. */
+export function refuseFolderAsOutput(output: string): void {
+  try {
+    if (fs.statSync(output).isDirectory()) {
+      throw new RbfieldError("a folder has this name; choose a file name for the output", ExitCode.io, { file: output });
+    }
+  } catch (e) {
+    if (e instanceof RbfieldError) throw e;
   }
 }

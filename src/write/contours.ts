@@ -112,6 +112,9 @@ export function coordinateDecimals(cell: number): number {
 }
 
 function makeRounder(cell: number): (v: number) => number {
+  // Cells below 1e-9 would need more than 15 decimals (rounding would merge every point): keep
+  // such coordinates as computed.
+  if (!(6 - Math.floor(Math.log10(cell)) <= 15)) return (v) => v;
   const scale = 10 ** coordinateDecimals(cell);
   return (v) => {
     const s = v * scale;
@@ -126,6 +129,7 @@ function makeRounder(cell: number): (v: number) => number {
  * resolved by the mean of their four corners.
  */
 export function contourLines(grid: GridValues, levels: number[]): ContourLineCollection {
+  grid = finiteOnly(grid);
   const features: Feature<LineString | MultiLineString, { level: number }>[] = [];
   for (const level of levels) {
     if (!Number.isFinite(level)) continue;
@@ -256,7 +260,7 @@ function crossing(spec: GridSpec, v: Float64Array, edge: number, level: number):
  * region of the upper level is subtracted with turf's difference.
  */
 export function contourBands(grid: GridValues, levels: number[]): ContourBandCollection {
-  const { spec, values } = grid;
+  const { spec, values } = finiteOnly(grid);
   const sorted = [...new Set(levels.filter(Number.isFinite))].sort((a, b) => a - b);
   const features: Feature<Polygon | MultiPolygon, { lower: number; upper: number }>[] = [];
   if (sorted.length < 2 || spec.cols < 2 || spec.rows < 2) return { type: "FeatureCollection", features };
@@ -306,6 +310,12 @@ export function contourBands(grid: GridValues, levels: number[]): ContourBandCol
     features.push({ type: "Feature", geometry, properties: { lower, upper } });
   }
   return { type: "FeatureCollection", features };
+}
+
+/** The grid with ±Infinity cells treated as masked (NaN), so no coordinate can become NaN. */
+function finiteOnly(grid: GridValues): GridValues {
+  if (grid.values.every((v) => Number.isFinite(v) || Number.isNaN(v))) return grid;
+  return { ...grid, values: grid.values.map((v) => (Number.isFinite(v) ? v : NaN)) };
 }
 
 /**

@@ -13,6 +13,10 @@ const MODEL_PROJECTED = 1;
 const MODEL_GEOGRAPHIC = 2;
 const RASTER_PIXEL_IS_AREA = 1;
 const USER_DEFINED = 32767;
+/** Largest finite IEEE 754 binary32 number. */
+const FLOAT32_MAX = 3.4028234663852886e38;
+/** Classic TIFF addresses its bytes with 32-bit offsets (TIFF 6.0, §2); keep room for the header. */
+const MAX_TIFF_DATA_BYTES = 2 ** 32 - 2 ** 20;
 
 /** True for the EPSG codes rbfield writes as geographic 2-D CRSs. */
 export function isGeographicEpsg(epsg: number): boolean {
@@ -47,6 +51,13 @@ export function encodeGeoTiff(grid: GridValues, options: { nodata?: number } = {
   }
 
   const n = values.length;
+  if (n * 4 > MAX_TIFF_DATA_BYTES) {
+    throw new RbfieldError(
+      `a ${spec.cols} × ${spec.rows} Float32 grid needs ${Math.ceil((n * 4) / 2 ** 30)} GiB, more than a classic TIFF file can hold (4 GiB); ` +
+        "choose a larger --cell or a smaller --extent",
+      ExitCode.usage,
+    );
+  }
   const data = new Float32Array(n);
   const nodata32 = Math.fround(nodata);
   for (let i = 0; i < n; i++) {
@@ -54,6 +65,14 @@ export function encodeGeoTiff(grid: GridValues, options: { nodata?: number } = {
     if (Number.isNaN(v)) {
       data[i] = nodata32;
     } else {
+      // Float32 would turn these into ±Infinity (or keep them infinite): never write them.
+      if (!(Math.abs(v) <= FLOAT32_MAX)) {
+        throw new RbfieldError(
+          `the surface reaches ${v} at cell ${i % spec.cols + 1}, ${Math.floor(i / spec.cols) + 1} (column, row), ` +
+            "beyond what a Float32 GeoTIFF holds (±3.4e38); rescale the values (e.g. other units) or use more smoothing",
+          ExitCode.numerical,
+        );
+      }
       data[i] = v;
       // A real value equal to nodata would read back as masked.
       if (data[i] === nodata32) {

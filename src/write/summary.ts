@@ -6,7 +6,7 @@ import type { SurfaceModel } from "../model/model.ts";
 /** Replace control characters (terminal escapes, newlines) in text that came from an input. */
 export function printableText(s: string): string {
   // deno-lint-ignore no-control-regex
-  return s.replace(/[\u0000-\u001f\u007f-\u009f]/g, "?");
+  return s.replace(/[\u0000-\u001f\u007f-\u009f\u200e\u200f\u202a-\u202e\u2066-\u2069]/g, "?");
 }
 
 export function fmt(v: number, digits = 4): string {
@@ -60,7 +60,8 @@ export function modelSummaryLines(model: SurfaceModel): string[] {
   lines.push(`  smoothing λ = ${fmt(model.lambda)} (${how}); effective degrees of freedom ${fmt(d.edf)} of ${d.n}`);
   lines.push(`  GCV score ${fmt(d.gcv)}; leave-one-out RMSE ${fmt(d.loocvRmse)}; fit RMSE ${fmt(d.rmse)}; noise σ estimate ${fmt(d.sigma)}`);
   lines.push(`  condition estimate ${fmt(d.condition, 3)}`);
-  const order = model.loo.map((e, i) => i).sort((a, b) => Math.abs(model.loo[b]) - Math.abs(model.loo[a])).slice(0, 3);
+  const order = model.loo.map((_, i) => i).filter((i) => model.loo[i] !== null)
+    .sort((a, b) => Math.abs(model.loo[b]) - Math.abs(model.loo[a])).slice(0, 3);
   if (order.length > 0) {
     lines.push(
       "  largest leave-one-out residuals: " +
