@@ -87,6 +87,8 @@ export function convexHullRing(x: Float64Array, y: Float64Array): [number, numbe
   return [[xmin, ymin], [xmax, ymin], [xmax, ymax], [xmin, ymax], [xmin, ymin]];
 }
 
+/** Most points the global (dense) method accepts (measured: see DEVELOPERS.md, "Limits"). */
+export const MAX_GLOBAL_POINTS = 5000;
 /** Points above which the shape search runs on a subsample (then one full fit at that shape). */
 export const SHAPE_SUBSAMPLE = 500;
 /** Points above which automatic ranking runs on a subsample (then the winner is fitted on all). */
@@ -144,6 +146,13 @@ export function fitSurface(points: CleanPoints, options: FitOptions = {}): Surfa
   const transform = options.transform ?? "none";
   const n = points.x.length;
   if (n < 3) throw new RbfieldError(`${n} usable points are too few to fit a surface: at least 3 are needed`, ExitCode.input);
+  if (n > MAX_GLOBAL_POINTS) {
+    throw new RbfieldError(
+      `${n.toLocaleString("en")} points are more than the global method takes (${MAX_GLOBAL_POINTS.toLocaleString("en")}; its cost grows as N³ ` +
+        "and its memory as N²); thin the points first, for example by averaging them within cells of a few metres",
+      ExitCode.numerical,
+    );
+  }
   if (kernelOpt !== "auto" && driftOpt !== "auto") {
     const problem = driftProblem(kernelOpt, driftOpt);
     if (problem) throw new RbfieldError(problem, ExitCode.usage);
