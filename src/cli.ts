@@ -339,7 +339,13 @@ export async function main(args: string[], io: Io): Promise<number> {
       const s = grid.spec;
       const info = { cols: s.cols, rows: s.rows, cell: s.cell, extent: [s.xmin, s.ymin, s.xmax, s.ymax], crs: grid.crs, file: out, stderrFile: seOut ?? null, stderrStride: se?.stride ?? null };
       if (v.json) io.out(JSON.stringify({ ...info, caution: CAUTION }, null, 2) + "\n");
-      else io.out(`Grid ${s.cols} × ${s.rows} cells of ${fmt(s.cell)} written to ${out} (extent ${s.xmin}, ${s.ymin} to ${s.xmax}, ${s.ymax}; CRS ${grid.crs.label})\n\n${CAUTION}\n`);
+      else {
+        const seLine = seOut && se
+          ? `Standard error of the estimate written to ${seOut}${se.stride > 1 ? ` (computed every ${se.stride} cells and interpolated)` : ""}; ` +
+            "a model-based figure, not a survey tolerance\n"
+          : "";
+        io.out(`Grid ${s.cols} × ${s.rows} cells of ${fmt(s.cell)} written to ${out} (extent ${s.xmin}, ${s.ymin} to ${s.xmax}, ${s.ymax}; CRS ${grid.crs.label})\n${seLine}\n${CAUTION}\n`);
+      }
       return 0;
     }
     if (verb === "contour") {
@@ -351,7 +357,10 @@ export async function main(args: string[], io: Io): Promise<number> {
       const r = contourGeoJson(grid, interval, num(v.base as string | undefined, "base") ?? 0, Boolean(v.bands));
       writeFileAtomic(out, r.text);
       if (v.json) io.out(JSON.stringify({ levels: r.levels, bands: Boolean(v.bands), file: out, caution: CAUTION }, null, 2) + "\n");
-      else io.out(`${v.bands ? "Bands" : "Contours"} at ${r.levels.length} levels (interval ${fmt(interval)}) written to ${out}\n\n${CAUTION}\n`);
+      else {
+        const what = v.bands ? `${r.features} filled bands` : `contour lines at ${r.features} levels`;
+        io.out(`${what[0].toUpperCase()}${what.slice(1)} (interval ${fmt(interval)}) written to ${out}; coordinates in the grid's CRS (${grid.crs.label})\n\n${CAUTION}\n`);
+      }
       return 0;
     }
     if (verb === "predict") {
@@ -359,7 +368,8 @@ export async function main(args: string[], io: Io): Promise<number> {
       const table = await readPointTable(pos[1], { x: v.x as string | undefined, y: v.y as string | undefined, needValue: false });
       const est = estimateTable(model, table);
       writeFileAtomic(out, estimatesCsv(table, estimateColumns(est)));
-      const unusable = est.unusable.length ? `; ${est.unusable.length} rows without usable coordinates (lines ${est.unusable.slice(0, 5).join(", ")})` : "";
+      const nu = est.unusable.length;
+      const unusable = nu ? `; ${nu} ${nu === 1 ? "row" : "rows"} without usable coordinates left empty (line${nu === 1 ? "" : "s"} ${est.unusable.slice(0, 5).join(", ")}${nu > 5 ? ", …" : ""})` : "";
       if (v.json) io.out(JSON.stringify({ rows: table.rows.length, unusableLines: est.unusable, file: out, caution: CAUTION }, null, 2) + "\n");
       else io.out(`Estimates for ${table.rows.length - est.unusable.length} locations written to ${out}${unusable}\n\n${CAUTION}\n`);
       return 0;

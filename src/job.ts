@@ -175,7 +175,7 @@ export function defaultInterval(grid: GridValues): number {
 }
 
 /** Contour a grid into a GeoJSON text. */
-export function contourGeoJson(grid: GridValues, interval: number, base = 0, bands = false): { text: string; levels: number[] } {
+export function contourGeoJson(grid: GridValues, interval: number, base = 0, bands = false): { text: string; levels: number[]; features: number } {
   if (!(interval > 0) || !Number.isFinite(interval)) throw new RbfieldError(`--interval must be a positive number, not ${interval}`, ExitCode.usage);
   let lo = Infinity, hi = -Infinity;
   for (const v of grid.values) {
@@ -189,7 +189,7 @@ export function contourGeoJson(grid: GridValues, interval: number, base = 0, ban
   // RFC 7946 dropped the "crs" member and assumes WGS 84; rbfield keeps the points' CRS (see README),
   // so it names that CRS the way GDAL and most GIS still read it (the 2008 GeoJSON "crs" member).
   const out = grid.crs.epsg === undefined ? fc : { type: fc.type, crs: { type: "name", properties: { name: `urn:ogc:def:crs:EPSG::${grid.crs.epsg}` } }, features: fc.features };
-  return { text: JSON.stringify(out) + "\n", levels };
+  return { text: JSON.stringify(out) + "\n", levels, features: fc.features.length };
 }
 
 /** Read a GeoTIFF grid file. */
@@ -353,7 +353,9 @@ async function runInto(opts: RunOptions, files: Record<string, string>, inputs: 
       "; a model-based figure, not a survey tolerance",
       `Contours: interval ${fmt(interval)}, ${lines.levels.length} levels; bands between them`,
       `Estimates: ${est.estimates.length - est.unusable.length} locations` +
-      (est.unusable.length ? `; ${est.unusable.length} rows without usable coordinates (lines ${est.unusable.slice(0, 5).join(", ")})` : ""),
+      (est.unusable.length
+        ? `; ${est.unusable.length} ${est.unusable.length === 1 ? "row" : "rows"} without usable coordinates left empty (lines ${est.unusable.slice(0, 5).join(", ")})`
+        : ""),
     ],
     [
       "Files:",

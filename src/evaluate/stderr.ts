@@ -118,9 +118,13 @@ export function gridStandardError(
   const cr = Array.from({ length: Math.ceil((spec.rows - 1) / stride) + 1 }, (_, i) => Math.min(i * stride, spec.rows - 1));
   const cc = Array.from({ length: Math.ceil((spec.cols - 1) / stride) + 1 }, (_, i) => Math.min(i * stride, spec.cols - 1));
   const coarse = new Float64Array(cr.length * cc.length);
+  let lastCoarse = Date.now();
   for (let i = 0; i < cr.length; i++) {
     for (let j = 0; j < cc.length; j++) coarse[i * cc.length + j] = est.at(xc(cc[j]), yc(cr[i]));
-    progress?.(`standard errors: coarse row ${i + 1} of ${cr.length}`);
+    if (progress && Date.now() - lastCoarse > 1000) {
+      lastCoarse = Date.now();
+      progress(`standard errors: row ${i + 1} of ${cr.length} (every ${stride} cells)`);
+    }
   }
   for (let r = 0; r < spec.rows; r++) {
     const i = Math.max(0, Math.min(Math.floor(r / stride), cr.length - 2));
