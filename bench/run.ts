@@ -8,7 +8,7 @@ import { execFileSync } from "node:child_process";
 import * as fs from "node:fs";
 import * as os from "node:os";
 import * as path from "node:path";
-import { fitSurface } from "../src/fit/surface.ts";
+import { fitSurface, fitSurfaceParallel } from "../src/fit/surface.ts";
 import { gridModelParallel } from "../src/evaluate/parallel.ts";
 import type { CleanPoints } from "../src/types.ts";
 import { mulberry32 } from "../src/random.ts";
@@ -50,7 +50,7 @@ async function timeAsync<T>(f: () => Promise<T>): Promise<[T, number]> {
 
 console.log(`rbfield benchmark: ${N} noisy points, ${SIDE} × ${SIDE} grid, ${os.cpus().length} cores`);
 // 1. rbfield with full automatic selection.
-const [auto, tAutoFit] = time(() => fitSurface(pts, { kernel: "auto" }));
+const [auto, tAutoFit] = await timeAsync(() => fitSurfaceParallel(pts, { kernel: "auto" }));
 const [gAuto, tAutoGrid] = await timeAsync(() => gridModelParallel(auto, { cell, extent, mask: "none" }));
 console.log(`rbfield auto: chose ${auto.kernel}/${auto.drift}, fit+select ${tAutoFit.toFixed(2)} s, grid ${tAutoGrid.toFixed(2)} s`);
 // 2. rbfield with the fixed model scipy runs (smoothing: a round value near what GCV picks here).

@@ -59,11 +59,11 @@ const POINTS_HELP = `  --x COL --y COL --z COL   columns to use (default: detect
   --max-spread DZ           refuse coincident points whose values differ by more than DZ
   --merge-conflicts         merge such points anyway (mean value) and report them
   --weight COL              observation weights (e.g. 1/variance from instrument precision)`;
-const MODEL_HELP = `  --kernel K                auto|${KERNELS.join("|")} (default thin-plate; auto ranks
-                            every kernel with the drifts it supports and keeps the best)
+const MODEL_HELP = `  --kernel K                auto|${KERNELS.join("|")} (default auto: ranks every
+                            kernel with the drifts it supports and keeps the best)
   --shape auto|NUMBER       shape ε in 1/map units for gaussian and the multiquadrics (default auto:
                             chosen by GCV)
-  --drift D                 auto|${DRIFTS.join("|")} (default linear, or auto with --kernel auto;
+  --drift D                 auto|${DRIFTS.join("|")} (default auto with --kernel auto, else linear;
                             thin-plate needs linear or more, multiquadric constant or more)
   --smoothing gcv|NUMBER    λ added to the kernel matrix diagonal (0 interpolates; default gcv)
   --select gcv|loocv        rank candidates by GCV score (default) or leave-one-out RMSE
@@ -170,7 +170,7 @@ function num(value: string | undefined, name: string): number | undefined {
 }
 
 function fitOptions(v: Record<string, unknown>): FitOptions {
-  const kernel = (v.kernel as string | undefined) ?? "thin-plate";
+  const kernel = (v.kernel as string | undefined) ?? "auto";
   if (kernel !== "auto" && !KERNELS.includes(kernel as KernelName)) throw usage(`--kernel must be auto or one of ${KERNELS.join(", ")}, not "${kernel}"`);
   const drift = (v.drift as string | undefined) ?? (kernel === "auto" ? "auto" : "linear");
   if (drift !== "auto" && !DRIFTS.includes(drift as DriftName)) throw usage(`--drift must be auto or one of ${DRIFTS.join(", ")}, not "${drift}"`);

@@ -8,7 +8,7 @@ import { makeEvaluator } from "./evaluate/evaluate.ts";
 import { gridModelParallel } from "./evaluate/parallel.ts";
 import { gridStandardError, makeErrorEstimator } from "./evaluate/stderr.ts";
 import { type GridOptions, niceFloor, polygonsFromGeoJson, type PolygonRings } from "./evaluate/grid.ts";
-import { fitSurface, type FitOptions } from "./fit/surface.ts";
+import { type FitOptions, fitSurfaceParallel } from "./fit/surface.ts";
 import { modelFromJson, modelToJson, type SurfaceModel } from "./model/model.ts";
 import { decodeGeoTiff } from "./read/geotiff.ts";
 import { parseNumber, readPointTable } from "./read/points.ts";
@@ -121,7 +121,7 @@ export async function fitPointsFile(src: PointsSource, fit: FitOptions = {}): Pr
   const t = loaded.table;
   let model: SurfaceModel;
   try {
-    model = fitSurface(loaded.points, {
+    model = await fitSurfaceParallel(loaded.points, {
       ...fit,
       weights: loaded.weights,
       crs: loaded.crs,

@@ -9,12 +9,14 @@ export { decodeGeoTiff } from "./read/geotiff.ts";
 // clean
 export { cleanPoints, type CleanOptions, describeCleaning } from "./clean/clean.ts";
 // fit and select
-export { fitSurface, type FitOptions, medianSpacing } from "./fit/surface.ts";
+export { fitSurface, fitSurfaceParallel, type FitOptions, medianSpacing } from "./fit/surface.ts";
 export { DRIFTS, KERNELS, minimumDrift } from "./fit/kernels.ts";
 export { MODEL_FORMAT, MODEL_VERSION, modelFromJson, modelToJson, type SurfaceModel } from "./model/model.ts";
 // evaluate
 export { evaluateModel, makeEvaluator, type Evaluator } from "./evaluate/evaluate.ts";
 export { gridLayout, gridModel, type GridOptions, MAX_CELLS, polygonMask } from "./evaluate/grid.ts";
+export { gridModelParallel } from "./evaluate/parallel.ts";
+export { gridStandardError, makeErrorEstimator, type ErrorEstimator } from "./evaluate/stderr.ts";
 // write
 export { encodeGeoTiff } from "./write/geotiff.ts";
 export { contourBands, contourLevels, contourLines } from "./write/contours.ts";

@@ -303,7 +303,7 @@ const CASES: Case[] = [
   {
     name: "all points on one line with linear drift",
     fixture: "collinear.csv",
-    args: (p) => fitTo(p),
+    args: (p) => fitTo(p, "--drift", "linear"),
     code: 5,
     words: ["do not support linear drift", "--drift constant"],
   },
@@ -814,7 +814,7 @@ describe("the real command line (child process)", () => {
   it("exit 5 for collinear points with progress on: the error is the last line and no output folder holds files", () => {
     const dir = fs.mkdtempSync(path.join(tmpRoot, "proc-"));
     const out = path.join(dir, "job");
-    const r = deno(["run", path.join(FIXTURES, "collinear.csv"), "--out", out]);
+    const r = deno(["run", path.join(FIXTURES, "collinear.csv"), "--drift", "linear", "--out", out]);
     expect(r.status, r.stderr).toBe(5);
     const lines = r.stderr.trimEnd().split("\n");
     expect(lines.every((l) => l.startsWith("rbfield: ")), r.stderr).toBe(true);

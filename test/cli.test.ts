@@ -38,7 +38,7 @@ afterAll(() => fs.rmSync(tmp, { recursive: true, force: true }));
 describe("rbfield CLI", () => {
   it("fit --json prints the required keys and writes a model", async () => {
     const model = path.join(tmp, "plane.model.json");
-    const r = await cli(["fit", pointsFile, "--out", model, "--crs", "EPSG:32632", "--json", "--quiet"]);
+    const r = await cli(["fit", pointsFile, "--out", model, "--crs", "EPSG:32632", "--kernel", "thin-plate", "--json", "--quiet"]);
     expect(r.code).toBe(0);
     const j = JSON.parse(r.out);
     for (const key of ["kernel", "shape", "drift", "lambda", "edf", "gcv", "loocvRmse", "n"]) expect(j).toHaveProperty(key);

@@ -182,7 +182,9 @@ describe("invariance (a fit must not depend on where the origin is)", () => {
   it("scaling the values by a constant scales the estimates by it", () => {
     const a = makePoints(100, 4, franke);
     const b: CleanPoints = { ...a, z: a.z.map((v) => v * 250) };
+    // Default options (automatic selection): GCV scores scale by the same factor, so the same model wins.
     const ma = fitSurface(a, {}), mb = fitSurface(b, {});
+    expect(mb.kernel).toBe(ma.kernel);
     const ea = evaluateModel(ma, [0.3, 0.6], [0.4, 0.7]), eb = evaluateModel(mb, [0.3, 0.6], [0.4, 0.7]);
     for (let i = 0; i < 2; i++) expect(Math.abs(eb[i] - 250 * ea[i])).toBeLessThan(1e-9 * 250);
   });

@@ -3,7 +3,7 @@
 // algebra library), analytic facts, or equivalences stated beside the check.
 import { describe, expect, it } from "vitest";
 import { inverse, Matrix, solve } from "ml-matrix";
-import { fitSurface } from "../src/fit/surface.ts";
+import { fitSurface, fitSurfaceParallel } from "../src/fit/surface.ts";
 import { evaluateModel } from "../src/evaluate/evaluate.ts";
 import { makeErrorEstimator } from "../src/evaluate/stderr.ts";
 import type { SurfaceModel } from "../src/model/model.ts";
@@ -104,7 +104,15 @@ describe("automatic kernel selection (--kernel auto)", () => {
     expect(model.drift).toBe(sel.ranking[0].drift);
     expect(model.diagnostics.gcv).toBeCloseTo(sel.ranking[0].gcv, 12);
     // The winner's GCV is no worse than the thin-plate default fitted alone.
-    expect(model.diagnostics.gcv).toBeLessThanOrEqual(fitSurface(pts, {}).diagnostics.gcv + 1e-15);
+    expect(model.diagnostics.gcv).toBeLessThanOrEqual(fitSurface(pts, { kernel: "thin-plate" }).diagnostics.gcv + 1e-15);
+  });
+  it("ranking in worker threads gives exactly the same model as in one thread (determinism)", async () => {
+    const a = fitSurface(pts, { kernel: "auto" });
+    const messages: string[] = [];
+    const b = await fitSurfaceParallel(pts, { kernel: "auto", progress: (m) => messages.push(m) }, 2);
+    expect(messages.some((m) => m.includes("on 2 threads"))).toBe(true);
+    expect(messages.filter((m) => m.includes("unavailable"))).toEqual([]);
+    expect(JSON.stringify(b)).toBe(JSON.stringify(a));
   });
   it("--select loocv ranks by leave-one-out RMSE", () => {
     const model = fitSurface(pts, { kernel: "auto", select: "loocv" });
@@ -128,7 +136,7 @@ describe("log transform (--transform log)", () => {
     const g = gaussNoise(10);
     const pts = makePoints(80, 10, (x, y) => Math.exp(2 + x));
     for (let i = 0; i < pts.z.length; i++) pts.z[i] *= Math.exp(0.3 * g());
-    const model = fitSurface(pts, { transform: "log", smoothing: 1e6 }); // heavy smoothing: ln f ≈ the drift plane
+    const model = fitSurface(pts, { kernel: "thin-plate", transform: "log", smoothing: 1e6 }); // heavy smoothing: ln f ≈ the drift plane
     const sigma = model.diagnostics.sigma;
     const logModel = { ...model, transform: "none" as const };
     const e = evaluateModel(model, [0.5], [0.5])[0];
@@ -207,7 +215,7 @@ describe("blunder flags (robust standardised leave-one-out residuals)", () => {
     const pts = makePoints(150, 15, (x, y) => 2 * x + Math.sin(3 * y));
     for (let i = 0; i < 150; i++) pts.z[i] += 0.01 * g();
     pts.z[42] += 0.2;
-    const model = fitSurface(pts, {});
+    const model = fitSurface(pts, { kernel: "thin-plate" });
     expect(model.diagnostics.flags.lines[0]).toBe(pts.lines[42]);
     expect(model.points.x).toHaveLength(150);
     expect(Math.abs(model.looStandardised[42])).toBeGreaterThan(10);

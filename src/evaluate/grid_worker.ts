@@ -11,7 +11,11 @@ interface Job {
   mask: Uint8Array | null;
 }
 
-self.onmessage = (event: MessageEvent<Job>) => {
+/** The worker's side of postMessage (this module runs inside a Web Worker). */
+const port = globalThis as unknown as { postMessage(message: unknown, transfer?: Transferable[]): void };
+
+globalThis.addEventListener("message", (e: Event) => {
+  const event = e as MessageEvent<Job>;
   const { model, spec, rowStart, rowEnd, mask } = event.data;
   const ev = makeEvaluator(model);
   const values = new Float64Array((rowEnd - rowStart) * spec.cols);
@@ -22,5 +26,5 @@ self.onmessage = (event: MessageEvent<Job>) => {
       values[k] = mask && !mask[k] ? NaN : ev.at(spec.xmin + (c + 0.5) * spec.cell, yc);
     }
   }
-  (self as unknown as Worker).postMessage(values, [values.buffer]);
-};
+  port.postMessage(values, [values.buffer]);
+});

@@ -49,8 +49,9 @@ export async function gridModelParallel(model: SurfaceModel, options: GridOption
   }
   try {
     await Promise.all(jobs);
-  } catch {
+  } catch (e) {
     // Workers unavailable in this host (e.g. restricted permissions): compute in this thread.
+    options.progress?.(`worker threads unavailable (${(e as Error).message}); gridding in one thread`);
     return gridModel(model, options);
   }
   // NaN marks masked cells only: an unmasked value that is not finite is an error, as in gridModel.

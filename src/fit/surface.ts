@@ -13,7 +13,7 @@ export type KernelChoice = KernelName | "auto";
 export type DriftChoice = DriftName | "auto";
 
 export interface FitOptions {
-  /** Basis function, or "auto" to rank every kernel; default thin-plate. */
+  /** Basis function, or "auto" to rank every kernel (the default). */
   kernel?: KernelChoice;
   /** Shape ε in 1/map units (φ(ε r)), or "auto" to choose it by GCV; default auto. */
   shape?: "auto" | number;
@@ -119,7 +119,7 @@ export function candidateList(kernel: KernelChoice, drift: DriftChoice): { kerne
 }
 
 /** Data prepared for fitting: transformed values, scaled coordinates, weights. */
-interface Prepared {
+export interface Prepared {
   n: number;
   u: Float64Array;
   v: Float64Array;
@@ -136,9 +136,78 @@ function subset(a: Float64Array, idx: Int32Array): Float64Array {
   return Float64Array.from(idx, (i) => a[i]);
 }
 
+/** Everything settled before the candidates are ranked: options, prepared data, candidates. */
+interface FitPlan {
+  points: CleanPoints;
+  options: FitOptions;
+  prep: Prepared;
+  candidates: { kernel: KernelName; drift: DriftName }[];
+  /** Data the ranking runs on (a subsample above RANK_SUBSAMPLE points). */
+  rankData: Prepared;
+  rankedOnSubsample: boolean;
+  shapeOpt: "auto" | number;
+  smoothing: "gcv" | number;
+  select: "gcv" | "loocv";
+  transform: "none" | "log";
+  spacing: number;
+}
+
 /** Fit the surface and build the model record. */
 export function fitSurface(points: CleanPoints, options: FitOptions = {}): SurfaceModel {
-  const kernelOpt = options.kernel ?? "thin-plate";
+  const plan = planFit(points, options);
+  const ranking = plan.candidates.length > 1 ? rankAll(plan, (g) => rankGroup(plan.rankData, g, plan.shapeOpt, plan.smoothing, plan.options.progress)) : null;
+  return finishFit(plan, ranking);
+}
+
+/**
+ * The same fit with the candidates of an automatic selection ranked in worker threads (one kernel
+ * per task). Every candidate is computed by the same code as in fitSurface, so the result is identical.
+ */
+export async function fitSurfaceParallel(points: CleanPoints, options: FitOptions = {}, threads = navigator.hardwareConcurrency || 1): Promise<SurfaceModel> {
+  const plan = planFit(points, options);
+  if (plan.candidates.length <= 1 || threads < 2 || typeof Worker === "undefined") return finishFit(plan, plan.candidates.length > 1 ? rankAll(plan, (g) => rankGroup(plan.rankData, g, plan.shapeOpt, plan.smoothing, plan.options.progress)) : null);
+  const groups = kernelGroups(plan.candidates);
+  // Greedy split by cost (a shape search costs about three fixed-shape fits).
+  const cost = (g: KernelGroup) => (hasShape(g.kernel) && plan.shapeOpt === "auto" ? 3 : 1) + g.drifts.length - 1;
+  const order = groups.map((g, i) => i).sort((a, b) => cost(groups[b]) - cost(groups[a]) || a - b);
+  const bins: number[][] = Array.from({ length: Math.min(threads, groups.length) }, () => []);
+  const load = bins.map(() => 0);
+  for (const i of order) {
+    const k = load.indexOf(Math.min(...load));
+    bins[k].push(i);
+    load[k] += cost(groups[i]);
+  }
+  plan.options.progress?.(`ranking ${plan.candidates.length} candidate models on ${bins.length} threads`);
+  const results = new Map<number, CandidateScore[]>();
+  try {
+    await Promise.all(bins.map((bin) =>
+      new Promise<void>((resolve, reject) => {
+        const worker = new Worker(new URL("./rank_worker.ts", import.meta.url).href, { type: "module" });
+        worker.onmessage = (e: MessageEvent<{ rows?: CandidateScore[][]; error?: string }>) => {
+          worker.terminate();
+          if (e.data.error || !e.data.rows) return reject(new Error(e.data.error ?? "no result"));
+          bin.forEach((gi, j) => results.set(gi, e.data.rows![j]));
+          resolve();
+        };
+        worker.onerror = (e) => {
+          worker.terminate();
+          e.preventDefault();
+          reject(new Error(e.message));
+        };
+        worker.postMessage({ data: plan.rankData, groups: bin.map((i) => groups[i]), shapeOpt: plan.shapeOpt, smoothing: plan.smoothing });
+      })
+    ));
+  } catch (e) {
+    // Workers unavailable here: rank in this thread.
+    plan.options.progress?.(`worker threads unavailable (${(e as Error).message}); ranking in one thread`);
+    return finishFit(plan, rankAll(plan, (g) => rankGroup(plan.rankData, g, plan.shapeOpt, plan.smoothing, plan.options.progress)));
+  }
+  return finishFit(plan, rankAll(plan, (_g, i) => results.get(i)!));
+}
+
+/** Validate the options and prepare the data. */
+function planFit(points: CleanPoints, options: FitOptions): FitPlan {
+  const kernelOpt = options.kernel ?? "auto";
   const driftOpt = options.drift ?? (kernelOpt === "auto" ? "auto" : "linear");
   const smoothing = options.smoothing ?? "gcv";
   const shapeOpt = options.shape ?? "auto";
@@ -216,58 +285,98 @@ export function fitSurface(points: CleanPoints, options: FitOptions = {}): Surfa
   }
   const spacing = medianSpacing(points.x, points.y);
   const prep: Prepared = { n, u, v, values, sqrtW, spacingScaled: medianSpacing(u, v), s: geo.s, cx: geo.cx, cy: geo.cy, anisotropy };
-
-  // Automatic selection: rank every candidate (on a subsample when N is large), then fit the winner.
-  let ranking: CandidateScore[] | null = null;
-  let rankedOnSubsample = false;
-  let chosen = candidates[0];
-  let chosenShape: number | undefined;
-  if (candidates.length > 1) {
-    const idx = n > RANK_SUBSAMPLE ? subsampleIndices(n, RANK_SUBSAMPLE) : null;
-    rankedOnSubsample = idx !== null;
-    const rp: Prepared = idx
-      ? { ...prep, n: idx.length, u: subset(u, idx), v: subset(v, idx), values: subset(values, idx), sqrtW: prep.sqrtW && subset(prep.sqrtW, idx), spacingScaled: prep.spacingScaled * Math.sqrt(n / idx.length) }
-      : prep;
-    ranking = [];
-    // The shape is searched once per kernel (with its first drift) and reused for its other drift:
-    // the GCV-best shape barely moves with the drift, and the search is most of the cost.
-    const shapeOf = new Map<KernelName, number>();
-    for (const cand of candidates) {
-      options.progress?.(`trying ${cand.kernel} with ${cand.drift} drift`);
-      try {
-        const f = fitOne(rp, cand.kernel, cand.drift, shapeOf.get(cand.kernel) ?? shapeOpt, smoothing, options.progress);
-        if (hasShape(cand.kernel) && shapeOpt === "auto") shapeOf.set(cand.kernel, f.fit.epsilonScaled / prep.s);
-        const zs = f.zs;
-        const loo = leaveOneOutResiduals(f.fit, zs);
-        let ss = 0, cnt = 0;
-        for (const e of loo) {
-          if (Number.isNaN(e)) continue;
-          ss += e * e;
-          cnt++;
-        }
-        if (cnt === 0) continue; // no point can be left out: nothing to rank this candidate by
-        ranking.push({
-          kernel: cand.kernel,
-          drift: cand.drift,
-          shape: hasShape(cand.kernel) ? f.fit.epsilonScaled / prep.s : null,
-          lambda: f.fit.lambdaScaled * f.lambdaToUser,
-          edf: f.fit.edf,
-          gcv: f.fit.gcv,
-          loocvRmse: cnt ? Math.sqrt(ss / cnt) : NaN,
-          chosen: false,
-        });
-      } catch (e) {
-        if (!(e instanceof RbfieldError)) throw e;
-      }
+  const idx = candidates.length > 1 && n > RANK_SUBSAMPLE ? subsampleIndices(n, RANK_SUBSAMPLE) : null;
+  const rankData: Prepared = idx
+    ? {
+      ...prep,
+      n: idx.length,
+      u: subset(u, idx),
+      v: subset(v, idx),
+      values: subset(values, idx),
+      sqrtW: prep.sqrtW && subset(prep.sqrtW, idx),
+      spacingScaled: prep.spacingScaled * Math.sqrt(n / idx.length),
     }
-    if (ranking.length === 0) throw new RbfieldError("no candidate model could be fitted to these points", ExitCode.numerical);
-    const key = (c: CandidateScore) => (select === "loocv" ? c.loocvRmse : c.gcv);
-    ranking.sort((a, b) => key(a) - key(b));
-    ranking[0].chosen = true;
-    chosen = { kernel: ranking[0].kernel, drift: ranking[0].drift };
-    if (ranking[0].shape !== null) chosenShape = ranking[0].shape;
-  }
+    : prep;
+  return { points, options, prep, candidates, rankData, rankedOnSubsample: idx !== null, shapeOpt, smoothing, select, transform, spacing };
+}
 
+/** Candidates grouped by kernel, in candidate order (the shape search is shared within a group). */
+export interface KernelGroup {
+  kernel: KernelName;
+  drifts: DriftName[];
+}
+
+function kernelGroups(candidates: { kernel: KernelName; drift: DriftName }[]): KernelGroup[] {
+  const groups: KernelGroup[] = [];
+  for (const c of candidates) {
+    const g = groups.find((x) => x.kernel === c.kernel);
+    if (g) g.drifts.push(c.drift);
+    else groups.push({ kernel: c.kernel, drifts: [c.drift] });
+  }
+  return groups;
+}
+
+/** Rank all groups (scores from `score`), sorted by the selection criterion; best first, marked chosen. */
+function rankAll(plan: FitPlan, score: (g: KernelGroup, index: number) => CandidateScore[]): CandidateScore[] {
+  const ranking = kernelGroups(plan.candidates).flatMap((g, i) => score(g, i));
+  if (ranking.length === 0) {
+    // Every candidate failed: fitting the first one again gives its own, specific reason.
+    const first = plan.candidates[0];
+    fitOne(plan.rankData, first.kernel, first.drift, plan.shapeOpt, plan.smoothing);
+    throw new RbfieldError("no candidate model could be fitted to these points", ExitCode.numerical);
+  }
+  const key = (c: CandidateScore) => (plan.select === "loocv" ? c.loocvRmse : c.gcv);
+  ranking.sort((a, b) => key(a) - key(b));
+  ranking[0].chosen = true;
+  return ranking;
+}
+
+/**
+ * Score one kernel with each of its drifts: GCV, edf and exact leave-one-out RMSE. The shape is
+ * searched once (with the first drift) and reused for the others: the GCV-best shape barely moves
+ * with the drift, and the search is most of the cost. Candidates that cannot be fitted are left out.
+ */
+export function rankGroup(data: Prepared, group: KernelGroup, shapeOpt: "auto" | number, smoothing: "gcv" | number, progress?: (m: string) => void): CandidateScore[] {
+  const rows: CandidateScore[] = [];
+  let shape: "auto" | number = shapeOpt;
+  for (const drift of group.drifts) {
+    progress?.(`trying ${group.kernel} with ${drift} drift`);
+    try {
+      const f = fitOne(data, group.kernel, drift, shape, smoothing, progress);
+      if (hasShape(group.kernel) && shapeOpt === "auto") shape = f.fit.epsilonScaled / data.s;
+      const loo = leaveOneOutResiduals(f.fit, f.zs);
+      let ss = 0, cnt = 0;
+      for (const e of loo) {
+        if (Number.isNaN(e)) continue;
+        ss += e * e;
+        cnt++;
+      }
+      if (cnt === 0) continue; // no point can be left out: nothing to rank this candidate by
+      rows.push({
+        kernel: group.kernel,
+        drift,
+        shape: hasShape(group.kernel) ? f.fit.epsilonScaled / data.s : null,
+        lambda: f.fit.lambdaScaled * f.lambdaToUser,
+        edf: f.fit.edf,
+        gcv: f.fit.gcv,
+        loocvRmse: Math.sqrt(ss / cnt),
+        chosen: false,
+      });
+    } catch (e) {
+      if (!(e instanceof RbfieldError)) throw e;
+    }
+  }
+  return rows;
+}
+
+/** Fit the chosen candidate to all points and build the model record. */
+function finishFit(plan: FitPlan, ranking: CandidateScore[] | null): SurfaceModel {
+  const { points, options, prep, shapeOpt, smoothing, transform, spacing } = plan;
+  const { n, values, sqrtW, anisotropy } = prep;
+  const rankedOnSubsample = plan.rankedOnSubsample;
+  const select = plan.select;
+  const chosen = ranking ? { kernel: ranking[0].kernel, drift: ranking[0].drift } : plan.candidates[0];
+  const chosenShape = ranking && ranking[0].shape !== null ? ranking[0].shape : undefined;
   options.progress?.(`fitting ${chosen.kernel} with ${chosen.drift} drift to ${n} points`);
   const shapeForFinal = shapeOpt !== "auto" ? shapeOpt : chosenShape ?? "auto";
   const final = fitOne(prep, chosen.kernel, chosen.drift, shapeForFinal, smoothing, options.progress);
