@@ -134,6 +134,41 @@ describe("rbfield CLI", () => {
     expect((await cli(["frobnicate"])).code).toBe(2);
   });
 
+  it("model options reach the fit: --transform log, --weight, --anisotropy, --select, --flag-threshold", async () => {
+    // Concentrations exp(plane) are reproduced exactly in log space (analytic); weights and
+    // anisotropy are recorded in the model; the selection ranks by leave-one-out RMSE.
+    const conc = ["x,y,conc,w"];
+    for (let i = 0; i < 30; i++) {
+      const x = (i * 37) % 100, y = (i * 53) % 97;
+      conc.push(`${x},${y},${Math.exp(1 + 0.01 * x - 0.02 * y).toFixed(12)},${1 + (i % 3)}`);
+    }
+    const file = path.join(tmp, "conc.csv");
+    fs.writeFileSync(file, conc.join("\n") + "\n");
+    const out = path.join(tmp, "conc.json");
+    const r = await cli([
+      "fit", file, "--out", out, "--z", "conc", "--transform", "log", "--weight", "w", "--anisotropy", "30,2",
+      "--select", "loocv", "--flag-threshold", "4", "--json", "--quiet",
+    ]);
+    expect(r.code, r.err).toBe(0);
+    const j = JSON.parse(r.out);
+    expect(j.transform).toBe("log");
+    expect(j.anisotropy.azimuth).toBe(30);
+    expect(j.anisotropy.ratio).toBe(2);
+    expect(j.selection.by).toBe("loocv");
+    const model = JSON.parse(fs.readFileSync(out, "utf8"));
+    expect(model.points.weight).toHaveLength(30);
+    expect(model.diagnostics.flags.threshold).toBe(4);
+    const locs = path.join(tmp, "conc-locs.csv");
+    fs.writeFileSync(locs, "x,y\n50,40\n");
+    const est = path.join(tmp, "conc-est.csv");
+    expect((await cli(["predict", out, locs, "--out", est, "--quiet"])).code).toBe(0);
+    const value = Number(fs.readFileSync(est, "utf8").split("\r\n")[1].split(",")[2]);
+    expect(Math.abs(value - Math.exp(1 + 0.5 - 0.8)) / Math.exp(0.7)).toBeLessThan(1e-6);
+    const bad = await cli(["fit", file, "--out", out, "--anisotropy", "30", "--quiet"]);
+    expect(bad.code).toBe(2);
+    expect(bad.err).toContain("--anisotropy must be AZIMUTH,RATIO");
+  });
+
   it("every verb has --help", async () => {
     for (const verb of ["fit", "grid", "contour", "predict", "run"]) {
       const r = await cli([verb, "--help"]);
