@@ -6,6 +6,7 @@ import { describe, expect, it } from "vitest";
 import { EigenvalueDecomposition, Matrix, solve } from "ml-matrix";
 import { tridiagonalEigenvalues, tridiagonalize } from "../src/fit/linalg.ts";
 import { fitSurface } from "../src/fit/surface.ts";
+import { fitCore, influenceComplementDiagonal, influenceComplementDiagonalCholesky, rotatedBasis } from "../src/fit/fit.ts";
 import { evaluateModel } from "../src/evaluate/evaluate.ts";
 import type { CleanPoints, DriftName, KernelName } from "../src/types.ts";
 import { franke, makePoints, mulberry32 } from "./helpers.ts";
@@ -138,6 +139,19 @@ describe("GCV and leave-one-out against brute force", () => {
       const pred = evaluateModel(m2, [pts.x[i]], [pts.y[i]])[0];
       expect(model.loo[i]).toBeCloseTo(pts.z[i] - pred, 8);
     }
+  });
+});
+
+describe("the two routes to the leave-one-out diagonal agree", () => {
+  it("Cholesky + compact WY (used) and the rotated basis Z = Q₂H (the fallback) give the same Gᵢᵢ", () => {
+    // The Cholesky route is checked against actual refitting above; this pins the fallback to it.
+    const pts = makePoints(40, 21, (x, y) => Math.sin(5 * x) + y * y);
+    const { x, y, z } = pts;
+    const u = Float64Array.from(x, (v) => 2 * v - 1), v = Float64Array.from(y, (w) => 2 * w - 1);
+    const fit = fitCore(u, v, z, 1, { kernel: "thin-plate", drift: "quadratic", epsilonScaled: 1, smoothing: 1e-3, lambdaToUser: 1 });
+    const a = influenceComplementDiagonalCholesky(fit.state, fit.lambdaScaled)!;
+    const b = influenceComplementDiagonal(fit.state, rotatedBasis(fit.state), fit.lambdaScaled);
+    for (let i = 0; i < 40; i++) expect(Math.abs(a[i] - b[i])).toBeLessThan(1e-9 * Math.abs(b[i]) + 1e-12);
   });
 });
 

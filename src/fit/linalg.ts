@@ -272,25 +272,6 @@ export function cholesky(a: Float64Array, n: number): boolean {
   return true;
 }
 
-/** Solve L x = b in place (forward substitution) with L from cholesky(). */
-export function forwardSubstitute(l: Float64Array, n: number, b: Float64Array): void {
-  for (let i = 0; i < n; i++) {
-    const ri = i * n;
-    let s = b[i];
-    for (let k = 0; k < i; k++) s -= l[ri + k] * b[k];
-    b[i] = s / l[ri + i];
-  }
-}
-
-/** Solve Lᵀ x = b in place (back substitution) with L from cholesky(). */
-export function backSubstitute(l: Float64Array, n: number, b: Float64Array): void {
-  for (let i = n - 1; i >= 0; i--) {
-    let s = b[i];
-    for (let k = i + 1; k < n; k++) s -= l[k * n + i] * b[k];
-    b[i] = s / l[i * n + i];
-  }
-}
-
 /** Solve the upper-triangular system R x = b (m×m, row-major) in place. */
 export function solveUpper(r: Float64Array, m: number, b: Float64Array): void {
   for (let i = m - 1; i >= 0; i--) {

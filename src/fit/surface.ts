@@ -169,7 +169,7 @@ export async function fitSurfaceParallel(points: CleanPoints, options: FitOption
   const groups = kernelGroups(plan.candidates);
   // Greedy split by cost (a shape search costs about three fixed-shape fits).
   const cost = (g: KernelGroup) => (hasShape(g.kernel) && plan.shapeOpt === "auto" ? 3 : 1) + g.drifts.length - 1;
-  const order = groups.map((g, i) => i).sort((a, b) => cost(groups[b]) - cost(groups[a]) || a - b);
+  const order = groups.map((_g, i) => i).sort((a, b) => cost(groups[b]) - cost(groups[a]) || a - b);
   const bins: number[][] = Array.from({ length: Math.min(threads, groups.length) }, () => []);
   const load = bins.map(() => 0);
   for (const i of order) {
