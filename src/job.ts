@@ -36,7 +36,7 @@ export interface PointsSource {
   z?: string;
   /** "EPSG:NNNN" or "local"; default: the file's own CRS, else local. */
   crs?: string;
-  /** Refuse coincident points whose values differ by more than this (default: no limit). */
+  /** Refuse coincident points whose values differ by more than this (default: 5% of the value range). */
   maxSpread?: number;
   mergeConflicts?: boolean;
   /** Column of observation weights (e.g. 1/variance from instrument precision). */
@@ -58,7 +58,10 @@ function readWeights(src: PointsSource, table: PointTable, points: CleanPoints):
   const lower = name.toLowerCase();
   const col = table.columns.findIndex((c) => c.toLowerCase() === lower);
   if (col < 0) {
-    throw inputError(`no column named "${name}" for --weight; columns are ${table.columns.join(", ")}`, { file: src.file, line: 1 });
+    throw inputError(`no column named "${printableText(name)}" for --weight; columns are ${table.columns.map(printableText).join(", ")}`, {
+      file: src.file,
+      line: 1,
+    });
   }
   const byLine = new Map<number, number>();
   table.rows.forEach((row, i) => {
@@ -72,7 +75,11 @@ function readWeights(src: PointsSource, table: PointTable, points: CleanPoints):
     for (const l of groupOf.get(line) ?? [line]) {
       const w = byLine.get(l)!;
       if (!(w > 0) || !Number.isFinite(w)) {
-        throw inputError(`weight "${table.rows[table.lines.indexOf(l)][col]}" in column "${name}" must be a positive number`, { file: src.file, line: l });
+        const cell = printableText(String(table.rows[table.lines.indexOf(l)][col] ?? "")).slice(0, 40);
+        throw inputError(`weight "${cell}" in column "${printableText(name)}" must be a positive number; correct it or drop --weight`, {
+          file: src.file,
+          line: l,
+        });
       }
       total += w;
     }
