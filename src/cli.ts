@@ -146,7 +146,7 @@ ${COMMON_HELP}
 
 The whole job: fit, grid, contours and bands, estimates and a summary, written into DIR as
 model.rbfield.json, surface.tif, stderr.tif, contours.geojson, bands.geojson, estimates.csv,
-residuals.csv (leave-one-out residuals and blunder flags per point) and summary.txt.
+residuals.csv (leave-one-out residuals and blunder flags per point) and run-summary.txt.
 
 ${POINTS_HELP}
 ${MODEL_HELP}

@@ -307,7 +307,8 @@ export async function runJob(opts: RunOptions): Promise<RunResult> {
     bands: path.join(out, "bands.geojson"),
     estimates: path.join(out, "estimates.csv"),
     residuals: path.join(out, "residuals.csv"),
-    summary: path.join(out, "summary.txt"),
+    // Not "summary.txt": GDAL reads a file of that name beside a GeoTIFF as satellite (ALOS) metadata.
+    summary: path.join(out, "run-summary.txt"),
   };
   const inputs = [opts.file, ...(opts.locations ? [opts.locations] : []), ...(opts.otherInputs ?? [])];
   const created = !fs.existsSync(out);

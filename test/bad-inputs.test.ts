@@ -27,7 +27,7 @@ import type { GridValues } from "../src/types.ts";
 
 const FIXTURES = fileURLToPath(new URL("./fixtures/bad/", import.meta.url));
 const ROOT = fileURLToPath(new URL("../", import.meta.url));
-const RUN_OUTPUTS = ["model.rbfield.json", "surface.tif", "contours.geojson", "bands.geojson", "estimates.csv", "residuals.csv", "summary.txt"];
+const RUN_OUTPUTS = ["model.rbfield.json", "surface.tif", "contours.geojson", "bands.geojson", "estimates.csv", "residuals.csv", "run-summary.txt"];
 /** Stands for a model fitted (in beforeAll) from good-points.csv, copied into the case's folder. */
 const GOOD_MODEL = "good.rbfield.json";
 
@@ -833,10 +833,10 @@ describe("messy data that is handled, not refused", () => {
     // Gaussian with ε·h ≈ 0.01 and no smoothing: the kernel matrix is numerically singular.
     const r = await cli(["run", input, "--out", out, "--kernel", "gaussian", "--shape", "0.001", "--drift", "none", "--smoothing", "0", "--quiet"]);
     expect(r.code, r.err).toBe(0);
-    const summary = fs.readFileSync(path.join(out, "summary.txt"), "utf8");
+    const summary = fs.readFileSync(path.join(out, "run-summary.txt"), "utf8");
     expect(summary).toMatch(/smoothing was raised/);
     expect(summary).toMatch(/given, raised for stability/);
-    for (const name of ["summary.txt", "estimates.csv", "residuals.csv"]) {
+    for (const name of ["run-summary.txt", "estimates.csv", "residuals.csv"]) {
       expect(fs.readFileSync(path.join(out, name), "utf8"), name).not.toMatch(/NaN|Infinity/);
     }
     // JSON turns NaN and Infinity into null: the numbers DEVELOPERS.md lists must all be finite numbers.
@@ -857,7 +857,7 @@ describe("messy data that is handled, not refused", () => {
     const out = path.join(dir, "job");
     const r = await cli(["run", input, "--out", out, "--quiet"]);
     expect(r.code, r.err).toBe(0);
-    const summary = fs.readFileSync(path.join(out, "summary.txt"), "utf8");
+    const summary = fs.readFileSync(path.join(out, "run-summary.txt"), "utf8");
     expect(summary).toContain("skipped 2 rows with missing, non-numeric or out-of-range values (lines 18, 19)");
     const est = fs.readFileSync(path.join(out, "estimates.csv"), "utf8").trimEnd().split("\r\n");
     // The skipped rows keep their estimate column: the model is evaluated where the coordinates are usable.
@@ -900,7 +900,7 @@ describe("messy data that is handled, not refused", () => {
     const out = path.join(dir, "job");
     const r = await cli(["run", input, "--out", out, "--quiet"]);
     expect(r.code, r.err).toBe(0);
-    const summary = fs.readFileSync(path.join(out, "summary.txt"), "utf8");
+    const summary = fs.readFileSync(path.join(out, "run-summary.txt"), "utf8");
     expect(summary).toContain("?[31mlevel?[0m");
     for (const text of [summary, r.out]) expect(text).not.toContain("\u001b");
   });

@@ -113,11 +113,17 @@ describe("rbfield CLI", () => {
     const dir = path.join(tmp, "job");
     const r = await cli(["run", pointsFile, "--out", dir, "--quiet"]);
     expect(r.code).toBe(0);
-    for (const f of ["model.rbfield.json", "surface.tif", "contours.geojson", "bands.geojson", "estimates.csv", "residuals.csv", "summary.txt"]) {
+    for (const f of ["model.rbfield.json", "surface.tif", "contours.geojson", "bands.geojson", "estimates.csv", "residuals.csv", "run-summary.txt"]) {
       expect(fs.existsSync(path.join(dir, f))).toBe(true);
     }
     expect(r.out).toMatch(/does not replace a survey by a licensed surveyor/);
-    expect(fs.readFileSync(path.join(dir, "summary.txt"), "utf8")).toMatch(/CAUTION/);
+    if (hasGdal()) {
+      // GDAL takes a "summary.txt" beside a GeoTIFF for satellite (ALOS) metadata; the run folder must
+      // hold nothing GDAL mistakes for part of the grid (gdalinfo lists the files it reads).
+      const info = JSON.parse(execFileSync("gdalinfo", ["-json", path.join(dir, "surface.tif")]).toString());
+      expect(info.files).toEqual([path.join(dir, "surface.tif")]);
+    }
+    expect(fs.readFileSync(path.join(dir, "run-summary.txt"), "utf8")).toMatch(/CAUTION/);
   });
 
   it("errors are one line with a non-zero exit code and no output file", async () => {

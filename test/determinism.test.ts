@@ -48,11 +48,11 @@ describe("same input and options → byte-identical outputs", () => {
     expect(rb.code, rb.err).toBe(0);
 
     expect(files(a)).toEqual(files(b));
-    expect(files(a)).toEqual(expect.arrayContaining(["model.rbfield.json", "surface.tif", "contours.geojson", "bands.geojson", "estimates.csv", "residuals.csv", "summary.txt"]));
+    expect(files(a)).toEqual(expect.arrayContaining(["model.rbfield.json", "surface.tif", "contours.geojson", "bands.geojson", "estimates.csv", "residuals.csv", "run-summary.txt"]));
     for (const name of files(a)) {
       let fa = fs.readFileSync(path.join(a, name));
       let fb = fs.readFileSync(path.join(b, name));
-      if (name === "summary.txt") {
+      if (name === "run-summary.txt") {
         // The summary lists the output paths; with each folder written as "<out>" the texts are equal.
         fa = Buffer.from(fa.toString("utf8").replaceAll(a, "<out>"));
         fb = Buffer.from(fb.toString("utf8").replaceAll(b, "<out>"));
