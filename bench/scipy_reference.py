@@ -1,16 +1,20 @@
 # Reference timing for `deno task bench`: scipy.interpolate.RBFInterpolator (Debian python3-scipy)
-# with a FIXED kernel, drift and smoothing (no selection), fitted to the same points and evaluated on
-# the same 500 x 500 grid of cell centres. Prints one JSON line.
+# with a FIXED kernel, shape, drift degree and smoothing (no selection), fitted to the same points and
+# evaluated on the same 500 x 500 grid of cell centres. Prints one JSON line.
+# Arguments: points.csv cols rows xmin ymax cell smoothing [kernel epsilon degree]
 import json, sys, time
 import numpy as np
 from scipy import __version__ as scipy_version
 from scipy.interpolate import RBFInterpolator
 
 points_file, cols, rows, xmin, ymax, cell, smoothing = sys.argv[1], int(sys.argv[2]), int(sys.argv[3]), float(sys.argv[4]), float(sys.argv[5]), float(sys.argv[6]), float(sys.argv[7])
+kernel = sys.argv[8] if len(sys.argv) > 8 else "thin_plate_spline"
+epsilon = float(sys.argv[9]) if len(sys.argv) > 9 else 1.0
+degree = int(sys.argv[10]) if len(sys.argv) > 10 else 1
 data = np.loadtxt(points_file, delimiter=",", skiprows=1)
 xy, z = data[:, 0:2], data[:, 2]
 t0 = time.perf_counter()
-f = RBFInterpolator(xy, z, kernel="thin_plate_spline", degree=1, smoothing=smoothing)
+f = RBFInterpolator(xy, z, kernel=kernel, epsilon=epsilon, degree=degree, smoothing=smoothing)
 t1 = time.perf_counter()
 gx = xmin + (np.arange(cols) + 0.5) * cell
 gy = ymax - (np.arange(rows) + 0.5) * cell
