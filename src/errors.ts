@@ -29,10 +29,19 @@ export class RbfieldError extends Error {
 }
 
 /** "file.csv, line 12, column 3" — the form every input error uses. */
+/**
+ * Text from an input made safe for one line of terminal output or a report: control characters
+ * (terminal escapes, line breaks), Unicode line separators, bidirectional controls and byte-order
+ * marks become "?".
+ */
+export function printable(text: string): string {
+  // deno-lint-ignore no-control-regex
+  return text.replace(/[\u0000-\u001f\u007f-\u009f\u200e\u200f\u2028-\u202e\u2066-\u2069\ufeff]/g, "?");
+}
+
 export function formatPlace(place: SourcePlace): string {
   // A file name with control characters must not break the one-line message or drive a terminal.
-  // deno-lint-ignore no-control-regex
-  let text = place.file.replace(/[\u0000-\u001f\u007f-\u009f\u202a-\u202e\u2066-\u2069]/g, "?");
+  let text = printable(place.file);
   if (place.line !== undefined) text += `, line ${place.line}`;
   if (place.column !== undefined) text += `, column ${place.column}`;
   return text;

@@ -6,7 +6,7 @@ import { cleanPoints, describeCleaning } from "./clean/clean.ts";
 import { ExitCode, inputError, RbfieldError } from "./errors.ts";
 import { makeEvaluator } from "./evaluate/evaluate.ts";
 import { gridModelParallel } from "./evaluate/parallel.ts";
-import { gridStandardError, makeErrorEstimator } from "./evaluate/stderr.ts";
+import { type ErrorEstimator, gridStandardError, makeErrorEstimator } from "./evaluate/stderr.ts";
 import { type GridOptions, niceFloor, polygonsFromGeoJson, type PolygonRings } from "./evaluate/grid.ts";
 import { type FitOptions, fitSurfaceParallel } from "./fit/surface.ts";
 import { modelFromJson, modelToJson, type SurfaceModel } from "./model/model.ts";
@@ -94,11 +94,7 @@ export async function loadPoints(src: PointsSource): Promise<LoadedPoints> {
   // for "the same shot twice": small differences are instrument noise, large ones a blunder).
   const points = cleanPoints(table, { mergeConflicts: true, minPoints: 3 });
   if (!src.mergeConflicts) {
-    let lo = Infinity, hi = -Infinity;
-    for (const v of points.z) {
-      lo = Math.min(lo, v);
-      hi = Math.max(hi, v);
-    }
+    const { lo, hi } = valueRange(points.z);
     const limit = src.maxSpread ?? 0.05 * (hi - lo);
     const bad = points.merged.find((g) => g.spread > limit);
     if (bad) {
@@ -170,26 +166,28 @@ export function readMask(file: string): PolygonRings[] {
   return polygonsFromGeoJson(data, file);
 }
 
+/** Smallest and largest value, NaN (masked cells) left out; lo > hi when there is none. */
+export function valueRange(values: ArrayLike<number>): { lo: number; hi: number } {
+  let lo = Infinity, hi = -Infinity;
+  for (let i = 0; i < values.length; i++) {
+    const v = values[i];
+    if (Number.isNaN(v)) continue;
+    if (v < lo) lo = v;
+    if (v > hi) hi = v;
+  }
+  return { lo, hi };
+}
+
 /** A sensible contour interval: a nice number giving about ten levels over the range. */
 export function defaultInterval(grid: GridValues): number {
-  let lo = Infinity, hi = -Infinity;
-  for (const v of grid.values) {
-    if (Number.isNaN(v)) continue;
-    lo = Math.min(lo, v);
-    hi = Math.max(hi, v);
-  }
+  const { lo, hi } = valueRange(grid.values);
   return hi > lo ? niceFloor((hi - lo) / 10) : 1;
 }
 
 /** Contour a grid into a GeoJSON text. */
 export function contourGeoJson(grid: GridValues, interval: number, base = 0, bands = false): { text: string; levels: number[]; features: number } {
   if (!(interval > 0) || !Number.isFinite(interval)) throw new RbfieldError(`--interval must be a positive number, not ${interval}`, ExitCode.usage);
-  let lo = Infinity, hi = -Infinity;
-  for (const v of grid.values) {
-    if (Number.isNaN(v)) continue;
-    lo = Math.min(lo, v);
-    hi = Math.max(hi, v);
-  }
+  const { lo, hi } = valueRange(grid.values);
   if (!(hi >= lo)) throw new RbfieldError("the grid has no unmasked cells to contour", ExitCode.input);
   const levels = contourLevels(lo, hi, interval, base);
   const fc = bands ? contourBands(grid, contourLevels(lo - interval, hi + interval, interval, base)) : contourLines(grid, levels);
@@ -217,10 +215,9 @@ export async function readGrid(file: string): Promise<GridValues> {
 export function estimateTable(
   model: SurfaceModel,
   table: PointTable,
-  withErrors = true,
+  se: ErrorEstimator | null = makeErrorEstimator(model),
 ): { estimates: Float64Array; stdErrors: Float64Array | null; unusable: number[] } {
   const ev = makeEvaluator(model);
-  const se = withErrors ? makeErrorEstimator(model) : null;
   const est = new Float64Array(table.rows.length);
   const err = se ? new Float64Array(table.rows.length) : null;
   const unusable: number[] = [];
@@ -342,9 +339,11 @@ async function runInto(opts: RunOptions, files: Record<string, string>, inputs: 
   const interval = opts.interval ?? defaultInterval(grid);
   const lines = contourGeoJson(grid, interval, opts.base ?? 0, false);
   const bands = contourGeoJson(grid, interval, opts.base ?? 0, true);
-  const est = estimateTable(model, locTable);
   opts.progress?.("standard errors");
-  const errors = gridStandardError(model, grid, opts.progress);
+  // One error estimator (an O(N³) setup) serves the estimates table and the error grid.
+  const errorEstimator = makeErrorEstimator(model);
+  const est = estimateTable(model, locTable, errorEstimator);
+  const errors = gridStandardError(model, grid, opts.progress, errorEstimator);
   let seMax = 0;
   for (const v of errors.grid.values) if (v > seMax) seMax = v;
 

@@ -3,7 +3,7 @@
 import { ExitCode, RbfieldError } from "../errors.ts";
 import type { SurfaceModel } from "../model/model.ts";
 import type { GridSpec, GridValues } from "../types.ts";
-import { makeEvaluator } from "./evaluate.ts";
+import { type Evaluator, makeEvaluator } from "./evaluate.ts";
 
 /** Grids with more cells than this are refused unless forced (100 M cells ≈ 400 MB as Float32). */
 export const MAX_CELLS = 100_000_000;
@@ -152,18 +152,17 @@ export interface GridOptions extends GridLayoutOptions {
   progress?: (message: string) => void;
 }
 
-/** Evaluate the model on a grid; masked cells are NaN. */
-export function gridModel(model: SurfaceModel, options: GridOptions = {}): GridValues {
+/** Layout, mask and value array of a grid; checks the model's hull and the memory needed. */
+export function startGrid(model: SurfaceModel, options: GridOptions = {}): { spec: GridSpec; values: Float64Array; mask: Uint8Array | undefined } {
   const spec = gridLayout(model, options);
   const maskOpt = options.mask ?? "hull";
   if (maskOpt === "hull" && !validRing(model.hull)) {
     throw new RbfieldError("the model's hull is not a ring of [x, y] numbers; the model file is damaged: refit the points", ExitCode.input);
   }
-  let values: Float64Array;
-  let mask: Uint8Array | undefined;
   try {
-    values = new Float64Array(spec.cols * spec.rows);
-    mask = maskOpt === "none" ? undefined : polygonMask(spec, maskOpt === "hull" ? [[model.hull]] : maskOpt);
+    const values = new Float64Array(spec.cols * spec.rows);
+    const mask = maskOpt === "none" ? undefined : polygonMask(spec, maskOpt === "hull" ? [[model.hull]] : maskOpt);
+    return { spec, values, mask };
   } catch (e) {
     if (!(e instanceof RangeError)) throw e;
     throw new RbfieldError(
@@ -171,33 +170,59 @@ export function gridModel(model: SurfaceModel, options: GridOptions = {}): GridV
       ExitCode.usage,
     );
   }
-  const ev = makeEvaluator(model);
-  let lastReport = Date.now();
-  for (let r = 0; r < spec.rows; r++) {
+}
+
+/**
+ * Evaluate grid rows [rowStart, rowEnd) into `out` (row rowStart at out[0]); cells outside the mask
+ * (given for the same rows) are NaN. Shared by gridModel and the worker threads.
+ */
+export function evaluateRows(
+  ev: Evaluator,
+  spec: GridSpec,
+  rowStart: number,
+  rowEnd: number,
+  mask: Uint8Array | null | undefined,
+  out: Float64Array,
+  onRow?: (row: number) => void,
+): void {
+  for (let r = rowStart; r < rowEnd; r++) {
     const yc = spec.ymax - (r + 0.5) * spec.cell;
     for (let c = 0; c < spec.cols; c++) {
-      const k = r * spec.cols + c;
-      if (mask && !mask[k]) {
-        values[k] = NaN;
-        continue;
-      }
-      const x = spec.xmin + (c + 0.5) * spec.cell;
-      const v = ev.at(x, yc);
-      // NaN marks masked cells: a surface value that is not finite must not pass as one.
-      if (!Number.isFinite(v)) {
-        throw new RbfieldError(
-          `the surface is not a finite number (${v}) at ${x}, ${yc} (cell ${c + 1}, ${r + 1}); ` +
-            "the model file may be damaged or the fit unstable: refit the points, with more smoothing if this persists",
-          ExitCode.numerical,
-        );
-      }
-      values[k] = v;
+      const k = (r - rowStart) * spec.cols + c;
+      out[k] = mask && !mask[k] ? NaN : ev.at(spec.xmin + (c + 0.5) * spec.cell, yc);
     }
+    onRow?.(r);
+  }
+}
+
+/**
+ * NaN marks masked cells only: an unmasked value that is not finite (a damaged model or an unstable
+ * fit) is an error, reported at the first such cell in row order.
+ */
+export function checkFiniteCells(spec: GridSpec, values: Float64Array, mask: Uint8Array | null | undefined): void {
+  for (let k = 0; k < values.length; k++) {
+    if ((!mask || mask[k]) && !Number.isFinite(values[k])) {
+      const r = Math.floor(k / spec.cols), c = k % spec.cols;
+      throw new RbfieldError(
+        `the surface is not a finite number (${values[k]}) at ${spec.xmin + (c + 0.5) * spec.cell}, ${spec.ymax - (r + 0.5) * spec.cell} ` +
+          `(cell ${c + 1}, ${r + 1}); the model file may be damaged or the fit unstable: refit the points, with more smoothing if this persists`,
+        ExitCode.numerical,
+      );
+    }
+  }
+}
+
+/** Evaluate the model on a grid; masked cells are NaN. */
+export function gridModel(model: SurfaceModel, options: GridOptions = {}): GridValues {
+  const { spec, values, mask } = startGrid(model, options);
+  let lastReport = Date.now();
+  evaluateRows(makeEvaluator(model), spec, 0, spec.rows, mask, values, (r) => {
     if (options.progress && Date.now() - lastReport > 1000) {
       lastReport = Date.now();
       options.progress(`gridding: row ${r + 1} of ${spec.rows}`);
     }
-  }
+  });
+  checkFiniteCells(spec, values, mask);
   return { spec, values, crs: model.crs };
 }
 

@@ -91,8 +91,8 @@ export function gridStandardError(
   model: SurfaceModel,
   surface: GridValues,
   progress?: (m: string) => void,
+  est: ErrorEstimator = makeErrorEstimator(model),
 ): { grid: GridValues; stride: number } {
-  const est = makeErrorEstimator(model);
   const { spec } = surface;
   const n = model.points.x.length;
   const cells = spec.cols * spec.rows;

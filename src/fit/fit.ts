@@ -13,7 +13,8 @@
 // inverse of the bordered system (Rippa 1999 for λ = 0; the same identity eᵢ = rᵢ / (1 − Aᵢᵢ) for λ > 0).
 import { ExitCode, RbfieldError } from "../errors.ts";
 import type { DriftName, KernelName } from "../types.ts";
-import { driftRow, driftTerms, hasShape, kernelMatrix, minimumDrift } from "./kernels.ts";
+import { driftRow, driftTerms, hasShape, minimumDrift, weightedKernelMatrix } from "./kernels.ts";
+import { goldenSection } from "./minimise.ts";
 import {
   applyReflector,
   cholesky,
@@ -40,16 +41,23 @@ export interface Scaling {
   zs: number;
 }
 
-export function computeScaling(x: Float64Array, y: Float64Array, z: Float64Array, centreValues = true): Scaling {
-  const n = x.length;
-  let xmin = Infinity, xmax = -Infinity, ymin = Infinity, ymax = -Infinity, zsum = 0;
-  for (let i = 0; i < n; i++) {
+/** Bounding box of points. */
+export function boundingBox(x: ArrayLike<number>, y: ArrayLike<number>): { xmin: number; ymin: number; xmax: number; ymax: number } {
+  let xmin = Infinity, xmax = -Infinity, ymin = Infinity, ymax = -Infinity;
+  for (let i = 0; i < x.length; i++) {
     xmin = Math.min(xmin, x[i]);
     xmax = Math.max(xmax, x[i]);
     ymin = Math.min(ymin, y[i]);
     ymax = Math.max(ymax, y[i]);
-    zsum += z[i];
   }
+  return { xmin, ymin, xmax, ymax };
+}
+
+export function computeScaling(x: Float64Array, y: Float64Array, z: Float64Array, centreValues = true): Scaling {
+  const n = x.length;
+  const { xmin, ymin, xmax, ymax } = boundingBox(x, y);
+  let zsum = 0;
+  for (let i = 0; i < n; i++) zsum += z[i];
   const cx = 0.5 * (xmin + xmax);
   const cy = 0.5 * (ymin + ymax);
   // One scale for both axes keeps distances isotropic.
@@ -166,9 +174,8 @@ export function fitCore(u: Float64Array, v: Float64Array, y: Float64Array, zs: n
     }
   }
   // Qᵀ K Q, then B = its trailing (n−m)×(n−m) block.
-  const k = kernelMatrix(opts.kernel, opts.epsilonScaled, u, v);
   const sw = opts.sqrtWeights;
-  if (sw) for (let i = 0; i < n; i++) for (let j = 0; j < n; j++) k[i * n + j] *= sw[i] * sw[j];
+  const k = weightedKernelMatrix(opts.kernel, opts.epsilonScaled, u, v, sw);
   for (const refl of qr) reflectSymmetric(k, n, refl);
   const nb = n - m;
   const b = new Float64Array(nb * nb);
@@ -229,28 +236,12 @@ export function fitCore(u: Float64Array, v: Float64Array, y: Float64Array, zs: n
   if (opts.smoothing === "gcv") {
     // Golden-section refinement in log λ between the grid neighbours of the best grid point.
     const idx = grid.indexOf(best.lambda);
-    let a = Math.log(grid[Math.max(0, idx - 1)]);
-    let c = Math.log(grid[Math.min(steps - 1, idx + 1)]);
-    const phi = (Math.sqrt(5) - 1) / 2;
-    let x1 = c - phi * (c - a);
-    let x2 = a + phi * (c - a);
-    let f1 = gcvAt(Math.exp(x1)).gcv;
-    let f2 = gcvAt(Math.exp(x2)).gcv;
-    for (let it = 0; it < 40; it++) {
-      if (f1 < f2) {
-        c = x2;
-        x2 = x1;
-        f2 = f1;
-        x1 = c - phi * (c - a);
-        f1 = gcvAt(Math.exp(x1)).gcv;
-      } else {
-        a = x1;
-        x1 = x2;
-        f1 = f2;
-        x2 = a + phi * (c - a);
-        f2 = gcvAt(Math.exp(x2)).gcv;
-      }
-    }
+    const { a, c } = goldenSection(
+      (x) => gcvAt(Math.exp(x)).gcv,
+      Math.log(grid[Math.max(0, idx - 1)]),
+      Math.log(grid[Math.min(steps - 1, idx + 1)]),
+      40,
+    );
     const xm = Math.exp(0.5 * (a + c));
     lambda = gcvAt(xm).gcv <= best.gcv ? xm : best.lambda;
     smoothingChoice = "gcv";
@@ -408,8 +399,7 @@ export function leaveOneOutResiduals(fit: KernelFit, zs: number): Float64Array {
 export function influenceComplementDiagonalCholesky(state: FitState, lambda: number): Float64Array | undefined {
   const { n, m, qr, u, v, kernel, epsilonScaled, sqrtW } = state;
   const nb = n - m;
-  const k = kernelMatrix(kernel, epsilonScaled, u, v);
-  if (sqrtW) for (let i = 0; i < n; i++) for (let j = 0; j < n; j++) k[i * n + j] *= sqrtW[i] * sqrtW[j];
+  const k = weightedKernelMatrix(kernel, epsilonScaled, u, v, sqrtW);
   for (const refl of qr) reflectSymmetric(k, n, refl);
   const l = new Float64Array(nb * nb);
   for (let i = 0; i < nb; i++) l.set(k.subarray((m + i) * n + m, (m + i) * n + m + i + 1), i * nb);
@@ -570,13 +560,11 @@ export function borderedInverse(fit: KernelFit, u: Float64Array, v: Float64Array
     for (let i = 0; i < n; i++) f[i * m + j] = t[i];
   }
   // KF = (K̃ + λI) F
-  const kt = kernelMatrix(fit.kernel, fit.epsilonScaled, u, v);
-  const sw = st.sqrtW;
+  const kt = weightedKernelMatrix(fit.kernel, fit.epsilonScaled, u, v, st.sqrtW);
   const kf = new Float64Array(n * m);
   for (let i = 0; i < n; i++) {
-    const di = sw ? sw[i] : 1;
     for (let k = 0; k < n; k++) {
-      const a = kt[i * n + k] * di * (sw ? sw[k] : 1) + (i === k ? lambda : 0);
+      const a = kt[i * n + k] + (i === k ? lambda : 0);
       if (a === 0) continue;
       for (let j = 0; j < m; j++) kf[i * m + j] += a * f[k * m + j];
     }

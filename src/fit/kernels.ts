@@ -88,3 +88,16 @@ export function kernelMatrix(kernel: KernelName, epsilon: number, u: Float64Arra
   }
   return k;
 }
+
+/**
+ * Kernel matrix of the weighted system, K̃ = DKD with D = diag(√ωᵢ) (Wahba 1990, §1.3); plain K
+ * when there are no weights.
+ */
+export function weightedKernelMatrix(kernel: KernelName, epsilon: number, u: Float64Array, v: Float64Array, sqrtW?: Float64Array): Float64Array {
+  const k = kernelMatrix(kernel, epsilon, u, v);
+  if (sqrtW) {
+    const n = u.length;
+    for (let i = 0; i < n; i++) for (let j = 0; j < n; j++) k[i * n + j] *= sqrtW[i] * sqrtW[j];
+  }
+  return k;
+}

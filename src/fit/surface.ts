@@ -5,9 +5,10 @@ import Flatbush from "flatbush";
 import { ExitCode, RbfieldError } from "../errors.ts";
 import { MODEL_FORMAT, MODEL_VERSION, type SurfaceModel } from "../model/model.ts";
 import type { CleanPoints, Crs, DriftName, KernelName } from "../types.ts";
-import { computeScaling, driftProblem, fitCore, type KernelFit, leaveOneOutResiduals, type Scaling } from "./fit.ts";
+import { boundingBox, computeScaling, driftProblem, fitCore, type KernelFit, leaveOneOutResiduals, type Scaling } from "./fit.ts";
 import { hasShape, KERNELS } from "./kernels.ts";
 import { mulberry32 } from "../random.ts";
+import { goldenSection } from "./minimise.ts";
 
 export type KernelChoice = KernelName | "auto";
 export type DriftChoice = DriftName | "auto";
@@ -77,13 +78,7 @@ export function convexHullRing(x: Float64Array, y: Float64Array): [number, numbe
     for (let i = 0; i + 1 < ring.length; i++) area2 += ring[i][0] * ring[i + 1][1] - ring[i + 1][0] * ring[i][1];
     return area2 < 0 ? ring.slice().reverse() : ring;
   }
-  let xmin = Infinity, xmax = -Infinity, ymin = Infinity, ymax = -Infinity;
-  for (let i = 0; i < x.length; i++) {
-    xmin = Math.min(xmin, x[i]);
-    xmax = Math.max(xmax, x[i]);
-    ymin = Math.min(ymin, y[i]);
-    ymax = Math.max(ymax, y[i]);
-  }
+  const { xmin, ymin, xmax, ymax } = boundingBox(x, y);
   return [[xmin, ymin], [xmax, ymin], [xmax, ymax], [xmin, ymax], [xmin, ymin]];
 }
 
@@ -155,8 +150,7 @@ interface FitPlan {
 /** Fit the surface and build the model record. */
 export function fitSurface(points: CleanPoints, options: FitOptions = {}): SurfaceModel {
   const plan = planFit(points, options);
-  const ranking = plan.candidates.length > 1 ? rankAll(plan, (g) => rankGroup(plan.rankData, g, plan.shapeOpt, plan.smoothing, plan.options.progress)) : null;
-  return finishFit(plan, ranking);
+  return finishFit(plan, rankHere(plan));
 }
 
 /**
@@ -165,7 +159,7 @@ export function fitSurface(points: CleanPoints, options: FitOptions = {}): Surfa
  */
 export async function fitSurfaceParallel(points: CleanPoints, options: FitOptions = {}, threads = navigator.hardwareConcurrency || 1): Promise<SurfaceModel> {
   const plan = planFit(points, options);
-  if (plan.candidates.length <= 1 || threads < 2 || typeof Worker === "undefined") return finishFit(plan, plan.candidates.length > 1 ? rankAll(plan, (g) => rankGroup(plan.rankData, g, plan.shapeOpt, plan.smoothing, plan.options.progress)) : null);
+  if (plan.candidates.length <= 1 || threads < 2 || typeof Worker === "undefined") return finishFit(plan, rankHere(plan));
   const groups = kernelGroups(plan.candidates);
   // Greedy split by cost (a shape search costs about three fixed-shape fits).
   const cost = (g: KernelGroup) => (hasShape(g.kernel) && plan.shapeOpt === "auto" ? 3 : 1) + g.drifts.length - 1;
@@ -200,9 +194,15 @@ export async function fitSurfaceParallel(points: CleanPoints, options: FitOption
   } catch (e) {
     // Workers unavailable here: rank in this thread.
     plan.options.progress?.(`worker threads unavailable (${(e as Error).message}); ranking in one thread`);
-    return finishFit(plan, rankAll(plan, (g) => rankGroup(plan.rankData, g, plan.shapeOpt, plan.smoothing, plan.options.progress)));
+    return finishFit(plan, rankHere(plan));
   }
   return finishFit(plan, rankAll(plan, (_g, i) => results.get(i)!));
+}
+
+/** Rank the candidates in this thread (null when there is only one candidate). */
+function rankHere(plan: FitPlan): CandidateScore[] | null {
+  if (plan.candidates.length <= 1) return null;
+  return rankAll(plan, (g) => rankGroup(plan.rankData, g, plan.shapeOpt, plan.smoothing, plan.options.progress));
 }
 
 /** Validate the options and prepare the data. */
@@ -256,16 +256,18 @@ function planFit(points: CleanPoints, options: FitOptions): FitPlan {
     if (!Number.isFinite(azimuth) || !(ratio >= 1) || !Number.isFinite(ratio)) {
       throw new RbfieldError(`anisotropy needs an azimuth in degrees and a ratio ≥ 1, not ${azimuth}, ${ratio}`, ExitCode.usage);
     }
-    const sc0 = computeScaling(points.x, points.y, values);
+    // Rotate about the centre of the data's bounding box.
+    const bb = boundingBox(points.x, points.y);
+    const x0 = 0.5 * (bb.xmin + bb.xmax), y0 = 0.5 * (bb.ymin + bb.ymax);
     const th = (azimuth * Math.PI) / 180, sn = Math.sin(th), cs = Math.cos(th);
     ax = new Float64Array(n);
     ay = new Float64Array(n);
     for (let i = 0; i < n; i++) {
-      const dx = points.x[i] - sc0.cx, dy = points.y[i] - sc0.cy;
+      const dx = points.x[i] - x0, dy = points.y[i] - y0;
       ax[i] = dx * sn + dy * cs;
       ay[i] = ratio * (dx * cs - dy * sn);
     }
-    anisotropy = { azimuth, ratio, x0: sc0.cx, y0: sc0.cy };
+    anisotropy = { azimuth, ratio, x0, y0 };
   }
   const geo = computeScaling(ax, ay, values);
   const u = new Float64Array(n), v = new Float64Array(n);
@@ -421,13 +423,7 @@ function finishFit(plan: FitPlan, ranking: CandidateScore[] | null): SurfaceMode
   flagged.sort((a, b) => Math.abs(looZ[b]) - Math.abs(looZ[a]));
 
   const hull = convexHullRing(points.x, points.y);
-  let xmin = Infinity, xmax = -Infinity, ymin = Infinity, ymax = -Infinity;
-  for (let i = 0; i < n; i++) {
-    xmin = Math.min(xmin, points.x[i]);
-    xmax = Math.max(xmax, points.x[i]);
-    ymin = Math.min(ymin, points.y[i]);
-    ymax = Math.max(ymax, points.y[i]);
-  }
+  const extent = boundingBox(points.x, points.y);
   const warnings = [...fit.warnings];
   if (looN < n) {
     warnings.push(
@@ -477,7 +473,7 @@ function finishFit(plan: FitPlan, ranking: CandidateScore[] | null): SurfaceMode
       warnings,
       gcvCurve: fit.curve,
     },
-    extent: { xmin, ymin, xmax, ymax },
+    extent,
     hull,
     spacing,
   };
@@ -524,8 +520,8 @@ function fitOne(
 
 /**
  * Choose the shape ε by GCV: a 7-point log-spaced scan of ε·h from 0.02 to 3 (h the median
- * spacing), then six steps of golden-section refinement (about 9% in ε) between the best scan point's neighbours (common practice for
- * one-dimensional minimisation; Rippa 1999 uses the same idea with leave-one-out error).
+ * spacing), then six steps of golden-section refinement (about 9% in ε) between the best scan
+ * point's neighbours (Rippa 1999 uses the same idea with leave-one-out error).
  */
 function chooseShape(run: (eps: number) => KernelFit, spacingScaled: number, progress?: (m: string) => void): KernelFit {
   const h = spacingScaled > 0 ? spacingScaled : 0.1;
@@ -550,9 +546,6 @@ function chooseShape(run: (eps: number) => KernelFit, spacingScaled: number, pro
   }
   if (bestIdx < 0) throw new RbfieldError("no shape parameter gave a stable fit; try another kernel", ExitCode.numerical);
   let best = fits[bestIdx]!;
-  let a = logs[Math.max(0, bestIdx - 1)];
-  let c = logs[Math.min(scan - 1, bestIdx + 1)];
-  const phi = (Math.sqrt(5) - 1) / 2;
   const tryAt = (le: number) => {
     try {
       const f = run(Math.exp(le));
@@ -562,25 +555,6 @@ function chooseShape(run: (eps: number) => KernelFit, spacingScaled: number, pro
       return Infinity;
     }
   };
-  let x1 = c - phi * (c - a);
-  let x2 = a + phi * (c - a);
-  let f1 = tryAt(x1);
-  let f2 = tryAt(x2);
-  for (let it = 0; it < 6; it++) {
-    progress?.(`shape refinement ${it + 1}/6`);
-    if (f1 < f2) {
-      c = x2;
-      x2 = x1;
-      f2 = f1;
-      x1 = c - phi * (c - a);
-      f1 = tryAt(x1);
-    } else {
-      a = x1;
-      x1 = x2;
-      f1 = f2;
-      x2 = a + phi * (c - a);
-      f2 = tryAt(x2);
-    }
-  }
+  goldenSection(tryAt, logs[Math.max(0, bestIdx - 1)], logs[Math.min(scan - 1, bestIdx + 1)], 6, (it) => progress?.(`shape refinement ${it + 1}/6`));
   return best;
 }

@@ -1,7 +1,7 @@
 // The saved model: rbfield's own, versioned JSON format (documented in DEVELOPERS.md, "Model file").
 // It holds everything needed to evaluate the surface again without refitting.
 import { ExitCode, inputError, RbfieldError } from "../errors.ts";
-import { DRIFTS, KERNELS } from "../fit/kernels.ts";
+import { DRIFTS, driftTerms, KERNELS } from "../fit/kernels.ts";
 import type { Crs, DriftName, KernelName } from "../types.ts";
 
 export const MODEL_FORMAT = "rbfield-model";
@@ -129,7 +129,7 @@ export function modelFromJson(text: string, file: string): SurfaceModel {
   // Magnitudes a fit can produce; anything larger is damage, not data.
   const sane = (v: unknown[]) => v.every((x) => finite(x) && Math.abs(x as number) < 1e200);
   if (!finiteArray(m.weights, n) || !sane(m.weights as number[])) throw bad("weights do not match the points");
-  const terms = [0, 1, 3, 6][DRIFTS.indexOf(m.drift as DriftName)];
+  const terms = driftTerms(m.drift as DriftName);
   if (!finiteArray(m.driftCoefficients, terms) || !sane(m.driftCoefficients as number[])) throw bad("drift coefficients missing or not numbers");
   const sc = m.scaling as SurfaceModel["scaling"] | undefined;
   if (

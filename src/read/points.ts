@@ -2,7 +2,7 @@
 // Cells are kept as raw text; numbers are parsed later by the clean stage.
 import { readFile } from "node:fs/promises";
 import Papa from "papaparse";
-import { ExitCode, inputError, RbfieldError } from "../errors.ts";
+import { ExitCode, inputError, printable, RbfieldError } from "../errors.ts";
 import type { Crs, PointTable } from "../types.ts";
 
 export interface ReadOptions {
@@ -40,8 +40,7 @@ const QUOTE_LIMIT = 60;
  * Unicode line separators and bidirectional controls become "?", and long text is cut short.
  */
 export function messageText(text: string, limit = QUOTE_LIMIT): string {
-  // deno-lint-ignore no-control-regex
-  const safe = text.replace(/[\u0000-\u001f\u007f-\u009f\u200e\u200f\u2028-\u202e\u2066-\u2069\ufeff]/g, "?");
+  const safe = printable(text);
   const chars = Array.from(safe);
   return chars.length > limit ? chars.slice(0, limit - 1).join("") + "…" : safe;
 }

@@ -95,14 +95,7 @@ export function checkWritableFolder(output: string): void {
     throw new RbfieldError(`the folder ${dir} does not exist; create it first`, ExitCode.io, { file: output });
   }
   if (!st.isDirectory()) throw new RbfieldError(`${dir} is not a folder; choose another output path`, ExitCode.io, { file: output });
-  try {
-    if (fs.statSync(output).isDirectory()) {
-      throw new RbfieldError("a folder has this name; choose a file name for the output", ExitCode.io, { file: output });
-    }
-  } catch (e) {
-    if (e instanceof RbfieldError) throw e;
-    // No such file yet: fine.
-  }
+  refuseFolderAsOutput(output);
   const probe = temporaryName(dir, "rbfield-probe");
   try {
     writeNewFile(probe, "", false);
@@ -120,21 +113,7 @@ export function checkWritableFolder(output: string): void {
 
 /** Write data to path atomically (new temporary file in the same folder, then rename). */
 export function writeFileAtomic(target: string, data: string | Uint8Array): void {
-  const dir = path.dirname(path.resolve(target));
-  const tmp = temporaryName(dir, path.basename(target));
-  try {
-    writeNewFile(tmp, data, true);
-    fs.renameSync(tmp, target);
-  } catch (e) {
-    try {
-      fs.unlinkSync(tmp);
-    } catch { /* nothing to remove */ }
-    throw new RbfieldError(
-      `cannot write the file (${reason(e)}); check the folder and free space, or choose another output path`,
-      ExitCode.io,
-      { file: target },
-    );
-  }
+  writeFilesAtomic([[target, data]]);
 }
 
 /** Create a folder (and parents) for outputs. */
@@ -157,30 +136,30 @@ export function ensureFolder(dir: string): void {
  * existing output untouched and removes the temporary files.
  */
 export function writeFilesAtomic(files: [string, string | Uint8Array][]): void {
-  const done: [string, string][] = [];
+  const pending: [string, string][] = [];
+  let current = files[0][0];
   try {
     for (const [target, data] of files) {
+      current = target;
       const tmp = temporaryName(path.dirname(path.resolve(target)), path.basename(target));
+      pending.push([tmp, target]);
       writeNewFile(tmp, data, true);
-      done.push([tmp, target]);
+    }
+    while (pending.length > 0) {
+      const [tmp, target] = pending[0];
+      current = target;
+      fs.renameSync(tmp, target);
+      pending.shift();
     }
   } catch (e) {
-    for (const [tmp] of done) {
+    for (const [tmp] of pending) {
       try {
         fs.unlinkSync(tmp);
-      } catch { /* already gone */ }
+      } catch { /* never created, or already gone */ }
     }
-    const target = files[done.length]?.[0] ?? files[0][0];
     throw new RbfieldError(`cannot write the file (${reason(e)}); check the folder and free space, or choose another output path`, ExitCode.io, {
-      file: target,
+      file: current,
     });
-  }
-  for (const [tmp, target] of done) {
-    try {
-      fs.renameSync(tmp, target);
-    } catch (e) {
-      throw new RbfieldError(`cannot replace the file (${reason(e)})`, ExitCode.io, { file: target });
-    }
   }
 }
 

@@ -1,13 +1,11 @@
 // Plain-text summary of a fit, for the CLI and the run folder. Strings from input files (column
 // names, file names) are passed through printableText so control characters cannot reach a terminal.
 import { CAUTION } from "../caution.ts";
+import { printable } from "../errors.ts";
 import type { SurfaceModel } from "../model/model.ts";
 
 /** Replace control characters (terminal escapes, newlines) in text that came from an input. */
-export function printableText(s: string): string {
-  // deno-lint-ignore no-control-regex
-  return s.replace(/[\u0000-\u001f\u007f-\u009f\u200e\u200f\u202a-\u202e\u2066-\u2069]/g, "?");
-}
+export const printableText = printable;
 
 export function fmt(v: number, digits = 4): string {
   if (!Number.isFinite(v)) return String(v);
