@@ -11,6 +11,7 @@ import { gridStandardError } from "./evaluate/stderr.ts";
 import {
   contourGeoJson,
   estimateColumns,
+  estimateSummaryLines,
   estimateTable,
   fitPointsFile,
   readGrid,
@@ -46,7 +47,8 @@ const MODEL: Spec = {
   select: { type: "string" },
   transform: { type: "string" },
   anisotropy: { type: "string" },
-  "flag-threshold": { type: "string" },
+  "flag-level": { type: "string" },
+  robust: { type: "boolean" },
 };
 const GRID: Spec = { cell: { type: "string" }, extent: { type: "string" }, mask: { type: "string" }, force: { type: "boolean" } };
 const STDERR: Spec = { stderr: { type: "string" } };
@@ -66,12 +68,16 @@ const MODEL_HELP = `  --kernel K                auto|${KERNELS.join("|")} (defau
   --drift D                 auto|${DRIFTS.join("|")} (default auto with --kernel auto, else linear;
                             thin-plate needs linear or more, multiquadric constant or more)
   --smoothing gcv|NUMBER    λ added to the kernel matrix diagonal (0 interpolates; default gcv)
-  --select gcv|loocv        rank candidates by GCV score (default) or leave-one-out RMSE
+  --select one-se|loocv|gcv how --kernel auto chooses: one-se (default) the simplest candidate whose
+                            leave-one-out error is within one standard error of the best; loocv the
+                            smallest leave-one-out RMSE; gcv the smallest GCV score
   --transform none|log      log: fit ln z for positive, skewed readings; estimates back-transformed
                             with the lognormal bias correction exp(f + σ²/2)
   --anisotropy AZ,RATIO     long axis at azimuth AZ degrees (clockwise from grid north), correlation
                             RATIO ≥ 1 times longer along it than across
-  --flag-threshold Z        flag points whose standardised leave-one-out residual exceeds Z (default 3)`;
+  --flag-level ALPHA        false-alarm rate of the blunder test for the whole survey (default 0.05;
+                            Pope's tau test on studentised leave-one-out residuals, iterated)
+  --robust                  refit with blunders down-weighted (Tukey's biweight, iterated; λ by GCV)`;
 const GRID_HELP = `  --cell SIZE               cell size in map units (default: half the median point spacing,
                             at least 200 cells along the longer side, rounded to 1, 2, 2.5 or 5·10ᵏ)
   --extent XMIN,YMIN,XMAX,YMAX  outer edges of the grid (default: the data's bounding box)
@@ -180,8 +186,8 @@ function fitOptions(v: Record<string, unknown>): FitOptions {
   const smText = (v.smoothing as string | undefined) ?? "gcv";
   const smoothing = smText === "gcv" ? "gcv" as const : num(smText, "smoothing")!;
   if (smoothing !== "gcv" && !(smoothing >= 0)) throw usage(`--smoothing must be gcv or a number ≥ 0, not "${smText}"`);
-  const select = (v.select as string | undefined) ?? "gcv";
-  if (select !== "gcv" && select !== "loocv") throw usage(`--select must be gcv or loocv, not "${select}"`);
+  const select = (v.select as string | undefined) ?? "one-se";
+  if (select !== "one-se" && select !== "gcv" && select !== "loocv") throw usage(`--select must be one-se, loocv or gcv, not "${select}"`);
   const transform = (v.transform as string | undefined) ?? "none";
   if (transform !== "none" && transform !== "log") throw usage(`--transform must be none or log, not "${transform}"`);
   let anisotropy: FitOptions["anisotropy"];
@@ -192,17 +198,18 @@ function fitOptions(v: Record<string, unknown>): FitOptions {
     }
     anisotropy = { azimuth: parts[0], ratio: parts[1] };
   }
-  const flagThreshold = num(v["flag-threshold"] as string | undefined, "flag-threshold");
-  if (flagThreshold !== undefined && !(flagThreshold > 0)) throw usage("--flag-threshold must be a positive number");
+  const flagLevel = num(v["flag-level"] as string | undefined, "flag-level");
+  if (flagLevel !== undefined && !(flagLevel > 0 && flagLevel < 1)) throw usage("--flag-level must be a number between 0 and 1, such as 0.05");
   return {
     kernel: kernel as FitOptions["kernel"],
     drift: drift as FitOptions["drift"],
     shape,
     smoothing,
-    select,
+    select: select as FitOptions["select"],
     transform,
     anisotropy,
-    flagThreshold,
+    flagLevel,
+    robust: Boolean(v.robust),
   };
 }
 
@@ -254,6 +261,8 @@ function modelJson(model: SurfaceModel): Record<string, unknown> {
     anisotropy: model.anisotropy,
     selection: d.selection,
     flaggedLines: d.flags.lines,
+    flagTest: { test: d.flags.test, level: d.flags.level, critical: d.flags.critical },
+    robust: d.robust,
     crs: model.crs,
     warnings: d.warnings,
     caution: CAUTION,
@@ -368,10 +377,18 @@ export async function main(args: string[], io: Io): Promise<number> {
       const table = await readPointTable(pos[1], { x: v.x as string | undefined, y: v.y as string | undefined, needValue: false });
       const est = estimateTable(model, table);
       writeFileAtomic(out, estimatesCsv(table, estimateColumns(est)));
-      const nu = est.unusable.length;
-      const unusable = nu ? `; ${nu} ${nu === 1 ? "row" : "rows"} without usable coordinates left empty (line${nu === 1 ? "" : "s"} ${est.unusable.slice(0, 5).join(", ")}${nu > 5 ? ", …" : ""})` : "";
-      if (v.json) io.out(JSON.stringify({ rows: table.rows.length, unusableLines: est.unusable, file: out, caution: CAUTION }, null, 2) + "\n");
-      else io.out(`Estimates for ${table.rows.length - est.unusable.length} locations written to ${out}${unusable}\n\n${CAUTION}\n`);
+      if (v.json) {
+        const info = {
+          rows: table.rows.length,
+          unusableLines: est.unusable,
+          outsideHullLines: est.outsideHull,
+          farFromDataLines: est.farFromData,
+          outOfRangeLines: est.outOfRange,
+          file: out,
+          caution: CAUTION,
+        };
+        io.out(JSON.stringify(info, null, 2) + "\n");
+      } else io.out([...estimateSummaryLines(est, model), `Written to ${out}`, "", CAUTION, ""].join("\n"));
       return 0;
     }
     // run

@@ -5,6 +5,7 @@ import * as path from "node:path";
 import { cleanPoints, describeCleaning } from "./clean/clean.ts";
 import { ExitCode, inputError, RbfieldError } from "./errors.ts";
 import { makeEvaluator } from "./evaluate/evaluate.ts";
+import { extrapolationNote, FAR_SPACINGS, makeExtrapolationCheck } from "./evaluate/extrapolation.ts";
 import { gridModelParallel } from "./evaluate/parallel.ts";
 import { type ErrorEstimator, gridStandardError, makeErrorEstimator } from "./evaluate/stderr.ts";
 import { type GridOptions, niceFloor, polygonsFromGeoJson, type PolygonRings } from "./evaluate/grid.ts";
@@ -208,6 +209,22 @@ export async function readGrid(file: string): Promise<GridValues> {
   return await decodeGeoTiff(bytes, file);
 }
 
+/** Estimates at the rows of a locations table, with their standard errors and extrapolation marks. */
+export interface EstimateTable {
+  estimates: Float64Array;
+  stdErrors: Float64Array | null;
+  /** Distance from each location to the nearest reading (map units). */
+  nearest: Float64Array;
+  /** The `extrapolation` column: "", or "outside data hull", "far from data", "outside value range" joined by "; ". */
+  notes: string[];
+  /** Input lines of rows without usable coordinates (their cells are left empty). */
+  unusable: number[];
+  /** Input lines of the rows outside the hull, far from data, or out of range. */
+  outsideHull: number[];
+  farFromData: number[];
+  outOfRange: number[];
+}
+
 /**
  * Estimates (and standard errors) at the rows of a locations table. Rows without usable x, y (or
  * so far away that the estimate is not a finite number) get empty cells and are listed in `unusable`.
@@ -216,43 +233,102 @@ export function estimateTable(
   model: SurfaceModel,
   table: PointTable,
   se: ErrorEstimator | null = makeErrorEstimator(model),
-): { estimates: Float64Array; stdErrors: Float64Array | null; unusable: number[] } {
+): EstimateTable {
   const ev = makeEvaluator(model);
-  const est = new Float64Array(table.rows.length);
-  const err = se ? new Float64Array(table.rows.length) : null;
-  const unusable: number[] = [];
+  const check = makeExtrapolationCheck(model);
+  const rows = table.rows.length;
+  const est = new Float64Array(rows);
+  const err = se ? new Float64Array(rows) : null;
+  const nearest = new Float64Array(rows).fill(NaN);
+  const notes: string[] = new Array(rows).fill("");
+  const out: EstimateTable = { estimates: est, stdErrors: err, nearest, notes, unusable: [], outsideHull: [], farFromData: [], outOfRange: [] };
   table.rows.forEach((row, i) => {
     const x = parseNumber(row[table.xColumn] ?? "", table.decimalComma);
     const y = parseNumber(row[table.yColumn] ?? "", table.decimalComma);
     const value = Number.isFinite(x) && Number.isFinite(y) ? ev.at(x, y) : NaN;
-    if (Number.isFinite(value)) {
-      est[i] = value;
-      if (err && se) err[i] = se.at(x, y);
-    } else {
+    const line = table.lines[i];
+    if (!Number.isFinite(value)) {
       est[i] = NaN;
       if (err) err[i] = NaN;
-      unusable.push(table.lines[i]);
+      out.unusable.push(line);
+      return;
     }
+    est[i] = value;
+    if (err && se) err[i] = se.at(x, y);
+    const c = check.at(x, y);
+    const wild = check.outOfRange(value);
+    nearest[i] = c.distance;
+    notes[i] = extrapolationNote(c, wild);
+    if (c.outsideHull) out.outsideHull.push(line);
+    if (c.far) out.farFromData.push(line);
+    if (wild) out.outOfRange.push(line);
   });
-  return { estimates: est, stdErrors: err, unusable };
+  return out;
 }
 
 /** The columns added to an estimates table. */
-export function estimateColumns(est: { estimates: Float64Array; stdErrors: Float64Array | null }) {
-  const cols = [{ name: "estimate", values: est.estimates }];
+export function estimateColumns(est: EstimateTable) {
+  const cols: { name: string; values: Float64Array | string[]; digits?: number }[] = [{ name: "estimate", values: est.estimates }];
   if (est.stdErrors) cols.push({ name: "std_error", values: est.stdErrors });
+  cols.push({ name: "nearest_reading", values: est.nearest, digits: 6 }, { name: "extrapolation", values: est.notes });
   return cols;
+}
+
+/** Summary lines about a standard-error grid, with the reason when it is zero everywhere. */
+export function standardErrorLines(range: { lo: number; hi: number }, stride: number): string[] {
+  if (!(range.hi >= range.lo)) return ["Standard error of the surface: no unmasked cell"];
+  const line = `Standard error of the surface: ${fmt(range.lo)} to ${fmt(range.hi)} inside the mask` +
+    (stride > 1 ? ` (computed every ${stride} cells and interpolated)` : "") + "; a model-based figure, not a survey tolerance";
+  if (range.hi > 0) return [line];
+  return [line, "  it is zero because the readings lie exactly on the trend (for example a plane): the model sees no variation to be unsure of"];
+}
+
+/** Summary lines about estimates: how many, which rows were unusable, which are extrapolations. */
+export function estimateSummaryLines(est: EstimateTable, model: SurfaceModel): string[] {
+  const lines = (l: number[]) => `line${l.length === 1 ? "" : "s"} ${l.slice(0, 5).join(", ")}${l.length > 5 ? ", …" : ""}`;
+  const nu = est.unusable.length;
+  const out = [
+    `Estimates: ${est.estimates.length - nu} locations` +
+    (nu ? `; ${nu} ${nu === 1 ? "row" : "rows"} without usable coordinates left empty (${lines(est.unusable)})` : ""),
+  ];
+  if (est.outsideHull.length || est.farFromData.length) {
+    // The worst place: the largest distance to the nearest reading.
+    let worst = -1;
+    est.nearest.forEach((d, i) => {
+      if (!Number.isNaN(d) && (worst < 0 || d > est.nearest[worst])) worst = i;
+    });
+    out.push(
+      `  extrapolated: ${est.outsideHull.length} outside the data hull, ${est.farFromData.length} farther than ` +
+        `${fmt(FAR_SPACINGS)} point spacings (${fmt(FAR_SPACINGS * model.spacing)} map units) from the nearest reading` +
+        (worst >= 0 ? `; the farthest is ${fmt(est.nearest[worst])} map units away` : "") +
+        " (column extrapolation); such estimates rest on the trend, not on nearby readings",
+    );
+  }
+  if (est.outOfRange.length) {
+    out.push(
+      `WARNING: ${est.outOfRange.length} estimates lie far outside the range of the readings (${lines(est.outOfRange)}); ` +
+        "do not rely on them without more readings nearby",
+    );
+  }
+  return out;
 }
 
 /**
  * Per-point residual table (CSV): input line, position, value, fitted value, residual, leave-one-out
- * residual, its robust standardisation and the blunder flag. For log fits, residuals are in log units.
+ * residual, its studentised value (Pope's tau), the blunder flag and, for a robust fit, the
+ * robustness weight. For log fits, residuals are in log units.
  */
 export function residualsCsv(model: SurfaceModel): string {
   const log = model.transform === "log";
-  const lines = [`line,x,y,value,fitted${log ? "_log" : ""},residual${log ? "_log" : ""},loo_residual${log ? "_log" : ""},loo_standardised,flag`];
+  const rw = model.points.robustWeight;
+  const tau = model.diagnostics.flags.test === "tau";
+  const header = [
+    "line", "x", "y", "value", `fitted${log ? "_log" : ""}`, `residual${log ? "_log" : ""}`, `loo_residual${log ? "_log" : ""}`,
+    tau ? "loo_studentised" : "loo_standardised", "flag", ...(rw ? ["robust_weight"] : []),
+  ];
+  const lines = [header.join(",")];
   const p = model.points;
-  const t = model.diagnostics.flags.threshold;
+  const flagged = new Set(model.diagnostics.flags.lines);
   for (let i = 0; i < p.x.length; i++) {
     const v = log ? Math.log(p.z[i]) : p.z[i];
     const zst = model.looStandardised[i];
@@ -265,8 +341,9 @@ export function residualsCsv(model: SurfaceModel): string {
         fmt(model.fitted[i], 10),
         fmt(v - model.fitted[i], 6),
         model.loo[i] === null ? "" : fmt(model.loo[i], 6),
-        model.loo[i] === null ? "" : fmt(zst, 4),
-        Math.abs(zst) > t ? "possible blunder" : "",
+        model.loo[i] === null || zst === null ? "" : fmt(zst, 4),
+        flagged.has(p.line[i]) ? "possible blunder" : "",
+        ...(rw ? [fmt(rw[i], 4)] : []),
       ].join(","),
     );
   }
@@ -344,8 +421,9 @@ async function runInto(opts: RunOptions, files: Record<string, string>, inputs: 
   const errorEstimator = makeErrorEstimator(model);
   const est = estimateTable(model, locTable, errorEstimator);
   const errors = gridStandardError(model, grid, opts.progress, errorEstimator);
-  let seMax = 0;
-  for (const v of errors.grid.values) if (v > seMax) seMax = v;
+  const seRange = valueRange(errors.grid.values);
+  const gridRange = valueRange(grid.values);
+  const check = makeExtrapolationCheck(model);
 
   const s = grid.spec;
   let masked = 0;
@@ -355,14 +433,13 @@ async function runInto(opts: RunOptions, files: Record<string, string>, inputs: 
     modelSummaryLines(model),
     [
       `Grid: ${s.cols} × ${s.rows} cells of ${fmt(s.cell)} map units, extent ${s.xmin}, ${s.ymin} to ${s.xmax}, ${s.ymax} (outer cell edges); ${masked} cells masked`,
-      `Standard error of the surface: up to ${fmt(seMax)} inside the mask` +
-      (errors.stride > 1 ? ` (computed every ${errors.stride} cells and interpolated)` : "") +
-      "; a model-based figure, not a survey tolerance",
+      `Grid values from ${fmt(gridRange.lo)} to ${fmt(gridRange.hi)} (readings from ${fmt(check.range.lo)} to ${fmt(check.range.hi)})`,
+      ...(check.outOfRange(gridRange.lo) || check.outOfRange(gridRange.hi)
+        ? ["WARNING: the grid reaches far outside the range of the readings; look at the cells far from readings before using them"]
+        : []),
+      ...standardErrorLines(seRange, errors.stride),
       `Contours: interval ${fmt(interval)}, ${lines.levels.length} levels; bands between them`,
-      `Estimates: ${est.estimates.length - est.unusable.length} locations` +
-      (est.unusable.length
-        ? `; ${est.unusable.length} ${est.unusable.length === 1 ? "row" : "rows"} without usable coordinates left empty (lines ${est.unusable.slice(0, 5).join(", ")})`
-        : ""),
+      ...estimateSummaryLines(est, model),
     ],
     [
       "Files:",

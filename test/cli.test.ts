@@ -81,11 +81,12 @@ describe("rbfield CLI", () => {
     const r = await cli(["predict", model, locs, "--out", out, "--quiet"]);
     expect(r.code).toBe(0);
     const lines = fs.readFileSync(out, "utf8").split("\r\n");
-    expect(lines[0]).toBe("name,x,y,estimate,std_error");
+    expect(lines[0]).toBe("name,x,y,estimate,std_error,nearest_reading,extrapolation");
     expect(lines[1].startsWith('"A, north",1030.5,2040.25,')).toBe(true);
-    const est = Number(lines[1].split(",").at(-2));
-    // Exact data on a plane: no residual, so the model-based standard error is 0.
-    expect(Number(lines[1].split(",").at(-1))).toBeLessThan(1e-6);
+    const cells = lines[1].split(",");
+    const est = Number(cells.at(-4));
+    // Exact data on a plane: the readings lie on the trend, so the model-based standard error is 0.
+    expect(Number(cells.at(-3))).toBeLessThan(1e-6);
     expect(Math.abs(est - (10 + 0.02 * 1030.5 - 0.01 * 2040.25))).toBeLessThan(1e-8);
   });
 
@@ -140,7 +141,7 @@ describe("rbfield CLI", () => {
     expect((await cli(["frobnicate"])).code).toBe(2);
   });
 
-  it("model options reach the fit: --transform log, --weight, --anisotropy, --select, --flag-threshold", async () => {
+  it("model options reach the fit: --transform log, --weight, --anisotropy, --select, --flag-level", async () => {
     // Concentrations exp(plane) are reproduced exactly in log space (analytic); weights and
     // anisotropy are recorded in the model; the selection ranks by leave-one-out RMSE.
     const conc = ["x,y,conc,w"];
@@ -153,7 +154,7 @@ describe("rbfield CLI", () => {
     const out = path.join(tmp, "conc.json");
     const r = await cli([
       "fit", file, "--out", out, "--z", "conc", "--transform", "log", "--weight", "w", "--anisotropy", "30,2",
-      "--select", "loocv", "--flag-threshold", "4", "--json", "--quiet",
+      "--select", "loocv", "--flag-level", "0.01", "--json", "--quiet",
     ]);
     expect(r.code, r.err).toBe(0);
     const j = JSON.parse(r.out);
@@ -163,7 +164,8 @@ describe("rbfield CLI", () => {
     expect(j.selection.by).toBe("loocv");
     const model = JSON.parse(fs.readFileSync(out, "utf8"));
     expect(model.points.weight).toHaveLength(30);
-    expect(model.diagnostics.flags.threshold).toBe(4);
+    expect(model.diagnostics.flags.level).toBe(0.01);
+    expect(j.flagTest.level).toBe(0.01);
     const locs = path.join(tmp, "conc-locs.csv");
     fs.writeFileSync(locs, "x,y\n50,40\n");
     const est = path.join(tmp, "conc-est.csv");

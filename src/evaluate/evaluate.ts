@@ -1,5 +1,6 @@
 // Evaluate a fitted surface: f(x) = zc + zs·(Σᵢ wᵢ φ(‖u − uᵢ‖²) + Σⱼ cⱼ pⱼ(u)), u = (x − c)/s.
 import { driftRow, kernelOfSquared } from "../fit/kernels.ts";
+import { anisotropyMap } from "../geometry.ts";
 import type { SurfaceModel } from "../model/model.ts";
 
 /** A model prepared for fast repeated evaluation (scaled centres as typed arrays). */
@@ -20,12 +21,11 @@ export function coordinateMapper(model: SurfaceModel): (x: number, y: number, ou
       out[1] = (y - cy) / s;
     };
   }
-  const th = (an.azimuth * Math.PI) / 180;
-  const sn = Math.sin(th), cs = Math.cos(th);
+  const rotate = anisotropyMap(an);
   return (x, y, out) => {
-    const dx = x - an.x0, dy = y - an.y0;
-    out[0] = (dx * sn + dy * cs - cx) / s;
-    out[1] = (an.ratio * (dx * cs - dy * sn) - cy) / s;
+    rotate(x, y, out);
+    out[0] = (out[0] - cx) / s;
+    out[1] = (out[1] - cy) / s;
   };
 }
 

@@ -1,19 +1,20 @@
 // Standard error of the surface estimate, from the same linear algebra as the fit.
 //
 // View the fit as kriging with a generalised covariance b·φ, unknown drift coefficients (flat prior)
-// and measurement noise of variance σ²/ωᵢ; the smoothing is then λ = σ²/b (Wahba 1978, 1990 §5;
-// Kimeldorf & Wahba 1970). The error variance of the estimate f̂(x) of the true surface is the
-// universal-kriging variance with the noise as a nugget:
+// and measurement noise of variance b·λ/ωᵢ (Wahba 1978, 1990 §5; Kimeldorf & Wahba 1970). The error
+// variance of the estimate f̂(x) of the true surface is the universal-kriging variance with the noise
+// as a nugget:
 //     Var[f(x) − f̂(x)] = b · (φ(0) − sᵀ M⁻¹ s),  s = [k(x); p(x)],  M = [K + λΩ⁻¹, P; Pᵀ, 0]
 // (Cressie 1993, §3.4; Rasmussen & Williams 2006, eq. 2.42 with a vague prior on the drift;
 // for conditionally positive definite kernels this is the power function with the drift
-// constraints, Wendland 2005 ch. 11, Fasshauer 2007 ch. 14). σ² is estimated from the GCV fit as
-// RSS_ω/(N − edf) (Wahba 1990, ch. 4) and b = σ²/λ; for an interpolating fit (λ = 0) b is the
-// process-variance estimate ỹᵀw̃/(N − m) (common practice in kriging with a fitted sill).
+// constraints, Wendland 2005 ch. 11, Fasshauer 2007 ch. 14). The scale b is estimated by maximum
+// likelihood of the drift-free contrasts, b̂ = ỹᵀw̃/(N − m) (processScale in fit.ts; b̂·λ is Wahba's
+// 1985 GML variance). It is the same formula for every λ, so it does not vanish when the fit
+// interpolates (λ → 0), where the error is zero at the readings and grows between them.
 // Assumptions: the kernel describes the surface's spatial correlation, errors are independent with
 // the stated weights, and the model (kernel, shape, drift) is right. The figure is a model-based
 // error of the surface, not a survey tolerance; a new reading at x would scatter by a further σ.
-import { borderedInverse, borderedQuadratic, fitCore } from "../fit/fit.ts";
+import { borderedInverse, borderedQuadratic, fitCore, processScale } from "../fit/fit.ts";
 import { driftRow, driftTerms, kernelOfSquared } from "../fit/kernels.ts";
 import type { SurfaceModel } from "../model/model.ts";
 import type { GridValues } from "../types.ts";
@@ -44,23 +45,14 @@ export function makeErrorEstimator(model: SurfaceModel): ErrorEstimator {
   });
   const inv = borderedInverse(fit, u, v);
   const m = driftTerms(model.drift);
-  let b: number;
-  if (lambda > 0) {
-    const sigma2 = model.diagnostics.sigma ** 2 / (zs * zs);
-    b = sigma2 / lambda;
-  } else {
-    let yw = 0;
-    for (let i = 0; i < n; i++) yw += y[i] * (sqrtW ? sqrtW[i] : 1) * fit.state.wTilde[i];
-    b = Math.max(yw, 0) / Math.max(n - m, 1);
-  }
+  const b = processScale(fit.state);
   const phi = kernelOfSquared(model.kernel, model.internal.epsilonScaled);
   const phi0 = phi(0);
   const map = coordinateMapper(model);
   const uv = new Float64Array(2);
   const k = new Float64Array(n);
   const p = new Float64Array(Math.max(m, 1));
-  const sigmaLog = model.diagnostics.sigma;
-  const logEv = model.transform === "log" ? makeEvaluator({ ...model, transform: "none" }) : undefined;
+  const estimate = model.transform === "log" ? makeEvaluator(model) : undefined;
   const at = (x: number, yy: number): number => {
     map(x, yy, uv);
     for (let i = 0; i < n; i++) {
@@ -70,10 +62,11 @@ export function makeErrorEstimator(model: SurfaceModel): ErrorEstimator {
     driftRow(uv[0], uv[1], m, p);
     const q = borderedQuadratic(inv, k, p);
     const se = zs * Math.sqrt(Math.max(b * (phi0 - q), 0));
-    if (!logEv) return se;
-    // Lognormal: the estimate is exp(f̂ + σ²/2); its standard error ≈ estimate·√(exp(se²) − 1)
-    // for a log-scale error se (Aitchison & Brown 1957, moments of the lognormal).
-    return logEv.at(x, yy) * Math.exp(0.5 * sigmaLog * sigmaLog) * Math.sqrt(Math.expm1(se * se));
+    if (!estimate) return se;
+    // Lognormal: the back-transformed estimate is ẑ = exp(f̂ + σ²/2); a log-scale error se makes it
+    // lognormal with relative standard deviation √(exp(se²) − 1) (Aitchison & Brown 1957, moments of
+    // the lognormal), so its standard error is ẑ·√(exp(se²) − 1) — positive, in value units.
+    return estimate.at(x, yy) * Math.sqrt(Math.expm1(se * se));
   };
   return { at, processScale: b };
 }

@@ -13,6 +13,7 @@
 // inverse of the bordered system (Rippa 1999 for λ = 0; the same identity eᵢ = rᵢ / (1 − Aᵢᵢ) for λ > 0).
 import { ExitCode, RbfieldError } from "../errors.ts";
 import type { DriftName, KernelName } from "../types.ts";
+import { boundingBox } from "../geometry.ts";
 import { driftRow, driftTerms, hasShape, minimumDrift, weightedKernelMatrix } from "./kernels.ts";
 import { goldenSection } from "./minimise.ts";
 import {
@@ -32,6 +33,37 @@ import {
 /** Largest condition number (μmax + λ)/(μmin + λ) we accept before adding smoothing. */
 export const CONDITION_LIMIT = 1e12;
 
+/** Unit roundoff of IEEE double precision, 2⁻⁵³. */
+const UNIT_ROUNDOFF = 2 ** -53;
+/**
+ * How far above the rounding level δ every μₖ + λ must stay. A perturbation dμ of an eigenvalue moves
+ * the filter factor λ/(μ+λ) by at most |dμ|/(μ+λ), so with μ + λ ≥ 10³δ every filter factor, the
+ * edf tr(A) and the GCV score are accurate to about 10⁻³ whatever the eigenvalues below δ really are.
+ */
+export const TRUST_FACTOR = 1e3;
+
+/**
+ * Rounding level of the eigenvalues of B = Q₂ᵀK̃Q₂ computed in double precision: δ = 10·N·u·max|K̃ᵢⱼ|.
+ * Forming K̃ perturbs each entry by about u·max|K̃ᵢⱼ|, so ‖ΔK̃‖₂ ≤ N·u·max|K̃ᵢⱼ|; the orthogonal
+ * reduction adds a backward error of the same order (Golub & Van Loan 2013, §8.3.1), and by Weyl's
+ * inequality the computed eigenvalues are off by at most ‖ΔB‖₂ (the factor 10 covers both).
+ * Measured against the largest kernel entry, not the largest eigenvalue: for a flat kernel the
+ * entries are near 1 while every eigenvalue of B is tiny.
+ */
+export function roundingLevel(k: Float64Array, n: number): number {
+  let kmax = 0;
+  for (let i = 0; i < k.length; i++) {
+    const a = Math.abs(k[i]);
+    if (a > kmax) kmax = a;
+  }
+  return 10 * n * UNIT_ROUNDOFF * kmax;
+}
+
+/** Smallest λ with μmin + λ ≥ TRUST_FACTOR·δ (0 when the kernel is well clear of rounding). */
+export function numericalFloor(muMin: number, rounding: number): number {
+  return Math.max(0, TRUST_FACTOR * rounding - muMin);
+}
+
 /** Centring and isotropic scaling of coordinates and values: u = (x − cx)/s, ỹ = (z − zc)/zs. */
 export interface Scaling {
   cx: number;
@@ -39,18 +71,6 @@ export interface Scaling {
   s: number;
   zc: number;
   zs: number;
-}
-
-/** Bounding box of points. */
-export function boundingBox(x: ArrayLike<number>, y: ArrayLike<number>): { xmin: number; ymin: number; xmax: number; ymax: number } {
-  let xmin = Infinity, xmax = -Infinity, ymin = Infinity, ymax = -Infinity;
-  for (let i = 0; i < x.length; i++) {
-    xmin = Math.min(xmin, x[i]);
-    xmax = Math.max(xmax, x[i]);
-    ymin = Math.min(ymin, y[i]);
-    ymax = Math.max(ymax, y[i]);
-  }
-  return { xmin, ymin, xmax, ymax };
 }
 
 export function computeScaling(x: Float64Array, y: Float64Array, z: Float64Array, centreValues = true): Scaling {
@@ -90,6 +110,8 @@ export interface KernelFit {
   /** λ in scaled units (added to the diagonal of the scaled kernel matrix). */
   lambdaScaled: number;
   smoothingChoice: SmoothingChoice;
+  /** True when λ sits at the numerical or conditioning floor rather than where GCV or the user put it. */
+  heldAtFloor: boolean;
   /** RBF weights w of the surface (scaled units). */
   weights: Float64Array;
   /** Residuals y − f at the data (scaled value units). */
@@ -176,6 +198,7 @@ export function fitCore(u: Float64Array, v: Float64Array, y: Float64Array, zs: n
   // Qᵀ K Q, then B = its trailing (n−m)×(n−m) block.
   const sw = opts.sqrtWeights;
   const k = weightedKernelMatrix(opts.kernel, opts.epsilonScaled, u, v, sw);
+  const rounding = roundingLevel(k, n);
   for (const refl of qr) reflectSymmetric(k, n, refl);
   const nb = n - m;
   const b = new Float64Array(nb * nb);
@@ -203,8 +226,19 @@ export function fitCore(u: Float64Array, v: Float64Array, y: Float64Array, zs: n
     );
   }
   const muMax = mu[nb - 1];
-  // Smallest λ that keeps (μmax+λ)/(μmin+λ) ≤ CONDITION_LIMIT.
-  const floor = Math.max(0, (muMax - CONDITION_LIMIT * muMin) / (CONDITION_LIMIT - 1));
+  if (!(muMax > TRUST_FACTOR * rounding)) {
+    throw new RbfieldError(
+      `the ${opts.kernel} kernel is flat at this shape over these points (its variation after the drift is at rounding level); ` +
+        "use a larger --shape, --shape auto, or another kernel",
+      ExitCode.numerical,
+    );
+  }
+  // Smallest λ that keeps (μmax+λ)/(μmin+λ) ≤ CONDITION_LIMIT, and the numerical floor: μₖ + λ must
+  // stay TRUST_FACTOR times above the rounding level of the computed eigenvalues, so that every GCV
+  // filter factor λ/(μₖ+λ), the edf and the solve are accurate (see numericalFloor).
+  const trustFloor = numericalFloor(muMin, rounding);
+  const conditionFloor = Math.max(0, (muMax - CONDITION_LIMIT * muMin) / (CONDITION_LIMIT - 1));
+  const floor = Math.max(conditionFloor, trustFloor);
   const t = new Float64Array(nb);
   // GCV in the λ-free form N ‖t‖² / (Σ 1/(μₖ+λ))², t = (T+λI)⁻¹h, which equals the usual form
   // after dividing numerator and denominator by λ²; it stays finite as λ → 0.
@@ -233,6 +267,7 @@ export function fitCore(u: Float64Array, v: Float64Array, y: Float64Array, zs: n
 
   let lambda: number;
   let smoothingChoice: SmoothingChoice;
+  let heldAtFloor = false;
   if (opts.smoothing === "gcv") {
     // Golden-section refinement in log λ between the grid neighbours of the best grid point.
     const idx = grid.indexOf(best.lambda);
@@ -245,10 +280,11 @@ export function fitCore(u: Float64Array, v: Float64Array, y: Float64Array, zs: n
     const xm = Math.exp(0.5 * (a + c));
     lambda = gcvAt(xm).gcv <= best.gcv ? xm : best.lambda;
     smoothingChoice = "gcv";
-    if (idx === 0 && floor > 0) {
+    heldAtFloor = idx === 0 && floor > 0;
+    if (heldAtFloor) {
       warnings.push(
-        `GCV asks for less smoothing than the system can take stably (condition limit ${CONDITION_LIMIT.toExponential(0)}); ` +
-          `smoothing was held at the stable minimum`,
+        `GCV asks for less smoothing than double precision resolves for this kernel and shape; smoothing was held at ` +
+          `the numerical floor λ = ${fmtExp(lambda * opts.lambdaToUser)}, where the scores are still reliable`,
       );
     }
   } else {
@@ -262,6 +298,7 @@ export function fitCore(u: Float64Array, v: Float64Array, y: Float64Array, zs: n
       );
       lambda = floor;
       smoothingChoice = "given-raised";
+      heldAtFloor = true;
     }
   }
 
@@ -304,6 +341,7 @@ export function fitCore(u: Float64Array, v: Float64Array, y: Float64Array, zs: n
     epsilonScaled: opts.epsilonScaled,
     lambdaScaled: lambda,
     smoothingChoice,
+    heldAtFloor,
     weights: w,
     residual,
     driftCoefficients: rhs,
@@ -372,10 +410,47 @@ export function influenceComplementDiagonal(state: FitState, zt: Float64Array, l
   return gii;
 }
 
-/** Leave-one-out residuals eᵢ = wᵢ / Gᵢᵢ (Rippa 1999), in value units; G from the weighted system. */
-export function leaveOneOutResiduals(fit: KernelFit, zs: number): Float64Array {
-  const gii = influenceComplementDiagonalCholesky(fit.state, fit.lambdaScaled) ??
+/** diag(G̃) of a fit, by the Cholesky route (or the tridiagonal one when B + λI is not numerically positive definite). */
+export function influenceDiagonal(fit: KernelFit): Float64Array {
+  return influenceComplementDiagonalCholesky(fit.state, fit.lambdaScaled) ??
     influenceComplementDiagonal(fit.state, rotatedBasis(fit.state), fit.lambdaScaled);
+}
+
+/**
+ * Column i of G̃ = Q₂ H (T+λI)⁻¹ Hᵀ Q₂ᵀ from the fit's factors, O(N²): the data snooping's exact
+ * deletion of points needs a few columns, never the whole matrix.
+ */
+export function influenceComplementColumn(state: FitState, lambda: number, i: number): Float64Array {
+  const { n, m, qr, tri } = state;
+  const col = new Float64Array(n);
+  col[i] = 1;
+  for (const refl of qr) applyReflector(refl, col);
+  const z = col.slice(m);
+  applyReflectorsTransposed(tri.reflectors, z);
+  const t = solveTridiagonal(tri.d, tri.e, lambda, z);
+  applyReflectors(tri.reflectors, t);
+  const g = new Float64Array(n);
+  g.set(t, m);
+  for (let j = qr.length - 1; j >= 0; j--) applyReflector(qr[j], g);
+  return g;
+}
+
+/**
+ * Process scale b̂ = ỹᵀw̃ / (N − m) in scaled units: the fit read as a Gaussian process with covariance
+ * b·φ, noise variance b·λ/ωᵢ and a flat prior on the trend, b̂ is the maximum-likelihood scale of the
+ * N − m trend-free contrasts Q₂ᵀỹ ~ N(0, b(B + λI)); b̂·λ = ỹᵀ(I − A)ỹ/(N − m) is Wahba's generalized
+ * maximum likelihood variance (Wahba 1985, Ann. Statist. 13). Unlike RSS/λ it does not vanish for an
+ * interpolating fit (λ → 0), where it is the kriging sill estimate.
+ */
+export function processScale(state: FitState): number {
+  const { n, m, y, wTilde, sqrtW } = state;
+  let yw = 0;
+  for (let i = 0; i < n; i++) yw += y[i] * (sqrtW ? sqrtW[i] : 1) * wTilde[i];
+  return Math.max(yw, 0) / Math.max(n - m, 1);
+}
+
+/** Leave-one-out residuals eᵢ = wᵢ / Gᵢᵢ (Rippa 1999), in value units; G from the weighted system. */
+export function leaveOneOutResiduals(fit: KernelFit, zs: number, gii: Float64Array = influenceDiagonal(fit)): Float64Array {
   const e = new Float64Array(gii.length);
   // eᵢ = (yᵢ − fᵢ)/(1 − Aᵢᵢ) = w̃ᵢ / (Dᵢ G̃ᵢᵢ) for the weighted system (D = I unweighted).
   const sw = fit.state.sqrtW;

@@ -1,5 +1,6 @@
 // Worker for parallel model selection: scores the kernel groups it is given (see fitSurfaceParallel).
-import { type KernelGroup, type Prepared, rankGroup } from "./surface.ts";
+import { type KernelGroup, rankGroup } from "./candidate.ts";
+import type { Prepared } from "./prepare.ts";
 
 interface Job {
   data: Prepared;

@@ -5,7 +5,27 @@ import { DRIFTS, driftTerms, KERNELS } from "../fit/kernels.ts";
 import type { Crs, DriftName, KernelName } from "../types.ts";
 
 export const MODEL_FORMAT = "rbfield-model";
-export const MODEL_VERSION = 1;
+export const MODEL_VERSION = 2;
+/** Older versions this rbfield still reads (upgraded on reading). */
+export const READABLE_VERSIONS: readonly number[] = [1, 2];
+
+/** One candidate of an automatic selection, with its scores (the fields marked optional are absent in version 1 files). */
+export interface RankedCandidate {
+  kernel: KernelName;
+  drift: DriftName;
+  shape: number | null;
+  lambda: number;
+  edf: number;
+  gcv: number;
+  loocvRmse: number;
+  /** Standard error of the leave-one-out RMSE (delta method on the mean squared error). */
+  loocvSe?: number;
+  /** λ was held at the numerical floor (GCV asked for less smoothing than the arithmetic resolves). */
+  heldAtFloor?: boolean;
+  /** Why the candidate may not be chosen, if it may not. */
+  excluded?: string | null;
+  chosen: boolean;
+}
 
 export interface ModelDiagnostics {
   n: number;
@@ -22,15 +42,30 @@ export interface ModelDiagnostics {
   /** Condition estimate (μmax+λ)/(μmin+λ) of the solved system. */
   condition: number;
   smoothingChoice: "gcv" | "given" | "given-raised";
+  /** λ sits at the numerical or conditioning floor (version 2; false when read from version 1). */
+  heldAtFloor: boolean;
   shapeChoice: "auto" | "given" | "none";
-  /** Automatic selection: how candidates were ranked, and the ranking (best first). */
+  /** Automatic selection: the rule, the ranking (best first under the rule's score) and what parsimony overrode. */
   selection: {
-    by: "gcv" | "loocv";
+    by: "one-se" | "gcv" | "loocv";
     onSubsample: number | null;
-    ranking: { kernel: KernelName; drift: DriftName; shape: number | null; lambda: number; edf: number; gcv: number; loocvRmse: number; chosen: boolean }[];
+    ranking: RankedCandidate[];
+    /**
+     * How the choice was made (absent in version 1 files): "minimum" the best score, "parsimony" the
+     * one-standard-error rule took a simpler candidate than `best`, "few-points" too few points to
+     * choose, so the simplest candidate was taken.
+     */
+    decision?: "minimum" | "parsimony" | "few-points";
+    best?: { kernel: KernelName; drift: DriftName };
   } | null;
-  /** Possible blunders: input lines whose standardised leave-one-out residual exceeds the threshold. */
-  flags: { threshold: number; robustScale: number; lines: number[] };
+  /**
+   * Possible blunders. Version 2: Pope's tau test at family-wise level `level`, iterated (`critical`
+   * is the last round's critical value, null when too few points leave no test); version 1 files:
+   * |robust z| > `critical` (level null).
+   */
+  flags: { test: "tau" | "robust-z"; level: number | null; critical: number | null; lines: number[]; truncated: boolean };
+  /** The robust fit (--robust): passes, whether it settled, and the input lines down-weighted below 0.5, lowest first. */
+  robust: { passes: number; converged: boolean; downweighted: number[] } | null;
   warnings: string[];
   /** GCV curve over λ. */
   gcvCurve: { lambda: number; gcv: number; edf: number }[];
@@ -58,16 +93,19 @@ export interface SurfaceModel {
   transform: "none" | "log";
   /** Shape in scaled units and λ in scaled units, as used by the evaluator. */
   internal: { epsilonScaled: number; lambdaScaled: number };
-  /** Data after cleaning, in map units, with the input line of each point. */
-  points: { x: number[]; y: number[]; z: number[]; line: number[]; weight: number[] | null };
+  /**
+   * Data after cleaning, in map units, with the input line of each point; `weight` the weights as
+   * fitted (normalised to mean 1), `robustWeight` the robustness weights of a robust fit (else null).
+   */
+  points: { x: number[]; y: number[]; z: number[]; line: number[]; weight: number[] | null; robustWeight: number[] | null };
   /** RBF weights and drift coefficients in scaled units. */
   weights: number[];
   driftCoefficients: number[];
   /** Fitted value and leave-one-out residual z − f₍₋ᵢ₎(xᵢ) at every point, value units. */
   fitted: number[];
   loo: number[];
-  /** Leave-one-out residuals divided by the robust scale 1.4826·median|e|. */
-  looStandardised: number[];
+  /** Studentised leave-one-out residuals τ (Pope's tau; version 1: divided by 1.4826·median|e|); null where undefined. */
+  looStandardised: (number | null)[];
   diagnostics: ModelDiagnostics;
   /** Data extent, convex hull (closed ring, counter-clockwise) and median nearest-neighbour spacing. */
   extent: { xmin: number; ymin: number; xmax: number; ymax: number };
@@ -104,9 +142,9 @@ export function modelFromJson(text: string, file: string): SurfaceModel {
   if (typeof m !== "object" || m === null || Array.isArray(m) || m.format !== MODEL_FORMAT) {
     throw inputError(`not an rbfield model file (no "format": "${MODEL_FORMAT}"); give the model file written by 'rbfield fit'`, { file });
   }
-  if (m.version !== MODEL_VERSION) {
+  if (!READABLE_VERSIONS.includes(m.version as number)) {
     throw inputError(
-      `model file version ${JSON.stringify(m.version)} is not supported by this rbfield (reads version ${MODEL_VERSION}); refit the points`,
+      `model file version ${JSON.stringify(m.version)} is not supported by this rbfield (reads versions ${READABLE_VERSIONS.join(" and ")}); refit the points`,
       { file },
     );
   }
@@ -126,6 +164,9 @@ export function modelFromJson(text: string, file: string): SurfaceModel {
     throw bad("point weights are not positive numbers");
   }
   if (!Array.isArray(pts.line) || pts.line.length !== n) throw bad("point line numbers missing");
+  if (m.version !== 1 && pts.robustWeight !== null && !(finiteArray(pts.robustWeight, n) && pts.robustWeight.every((w) => w > 0 && w <= 1))) {
+    throw bad("robustness weights are not numbers between 0 and 1");
+  }
   // Magnitudes a fit can produce; anything larger is damage, not data.
   const sane = (v: unknown[]) => v.every((x) => finite(x) && Math.abs(x as number) < 1e200);
   if (!finiteArray(m.weights, n) || !sane(m.weights as number[])) throw bad("weights do not match the points");
@@ -153,6 +194,9 @@ export function modelFromJson(text: string, file: string): SurfaceModel {
   }
   const d = m.diagnostics as SurfaceModel["diagnostics"] | undefined;
   if (!d || typeof d !== "object" || !finite(d.sigma) || d.sigma < 0 || (m.transform === "log" && d.sigma > 30)) throw bad("diagnostics missing");
+  if (m.version !== 1 && (typeof d.flags !== "object" || d.flags === null || !Array.isArray(d.flags.lines) || (d.flags.critical !== null && typeof d.flags.critical !== "number"))) {
+    throw bad("blunder flags missing");
+  }
   const e = m.extent as SurfaceModel["extent"] | undefined;
   if (!e || ![e.xmin, e.ymin, e.xmax, e.ymax].every((v) => finite(v) && Math.abs(v) <= 1e15)) throw bad("extent missing or not numbers");
   const hull = m.hull;
@@ -160,5 +204,17 @@ export function modelFromJson(text: string, file: string): SurfaceModel {
   if (!(finite(m.spacing) && (m.spacing as number) >= 0)) throw bad("spacing missing");
   const crs = m.crs as Crs | undefined;
   if (!crs || typeof crs.label !== "string" || (crs.epsg !== undefined && !(Number.isInteger(crs.epsg) && crs.epsg > 0))) throw bad("CRS missing");
+  if (m.version === 1) upgradeVersion1(m);
   return m as unknown as SurfaceModel;
+}
+
+/** Version 1 → 2 in memory: the blunder flags' description, the robust fields, the floor marker. */
+function upgradeVersion1(m: Record<string, unknown>): void {
+  const d = m.diagnostics as Record<string, unknown>;
+  const f = (d.flags ?? {}) as { threshold?: number; lines?: number[] };
+  d.flags = { test: "robust-z", level: null, critical: f.threshold ?? 3, lines: Array.isArray(f.lines) ? f.lines : [], truncated: false };
+  d.robust = null;
+  d.heldAtFloor = d.smoothingChoice === "given-raised";
+  (m.points as Record<string, unknown>).robustWeight = null;
+  m.version = MODEL_VERSION;
 }

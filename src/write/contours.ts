@@ -10,6 +10,7 @@
 import { contours as d3Contours } from "d3-contour";
 import { difference, featureCollection, multiPolygon, polygon, rewind } from "@turf/turf";
 import { ExitCode, RbfieldError } from "../errors.ts";
+import { ringArea } from "../geometry.ts";
 import type { GridSpec, GridValues } from "../types.ts";
 
 // Minimal GeoJSON types (RFC 7946) for what this module writes.
@@ -362,13 +363,4 @@ function cleanPolygons(polygons: Position[][][], round: (v: number) => number): 
     if (rings.length > 0) out.push(rings);
   }
   return out;
-}
-
-/** Shoelace signed area; positive for counter-clockwise rings. */
-function ringArea(ring: Position[]): number {
-  let sum = 0;
-  for (let i = 0; i + 1 < ring.length; i++) {
-    sum += ring[i][0] * ring[i + 1][1] - ring[i + 1][0] * ring[i][1];
-  }
-  return sum / 2;
 }

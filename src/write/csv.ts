@@ -19,10 +19,10 @@ export function csvField(text: string): string {
   return /[",\r\n]/.test(text) ? `"${text.replace(/"/g, '""')}"` : text;
 }
 
-/** One record per input row: original cells, then each added column formatted with formatNumber. */
+/** One record per input row: original cells, then each added column (numbers formatted with formatNumber). */
 export function estimatesCsv(
   table: PointTable,
-  added: { name: string; values: Float64Array | number[]; digits?: number }[],
+  added: { name: string; values: Float64Array | number[] | string[]; digits?: number }[],
 ): string {
   for (const col of added) {
     if (col.values.length !== table.rows.length) {
@@ -40,7 +40,10 @@ export function estimatesCsv(
     const row = table.rows[i];
     const fields: string[] = [];
     for (let j = 0; j < width; j++) fields.push(csvField(row[j] ?? ""));
-    for (const col of added) fields.push(csvField(formatNumber(col.values[i], col.digits ?? 10)));
+    for (const col of added) {
+      const v = col.values[i];
+      fields.push(csvField(typeof v === "string" ? v : formatNumber(v, col.digits ?? 10)));
+    }
     out.push(fields.join(",") + "\r\n");
   }
   return out.join("");

@@ -3,6 +3,7 @@
 import { CAUTION } from "../caution.ts";
 import { printable } from "../errors.ts";
 import type { SurfaceModel } from "../model/model.ts";
+import { MIN_SELECTION_POINTS } from "../fit/select.ts";
 
 /** Replace control characters (terminal escapes, newlines) in text that came from an input. */
 export const printableText = printable;
@@ -32,15 +33,30 @@ export function modelSummaryLines(model: SurfaceModel): string[] {
   );
   const sel = d.selection;
   if (sel) {
+    const byText = sel.by === "gcv" ? "GCV score" : sel.by === "loocv" ? "leave-one-out RMSE" : "leave-one-out RMSE, simplest within one standard error of the best";
     lines.push(
-      `Selection: ${sel.ranking.length} candidate models ranked by ${sel.by === "gcv" ? "GCV score" : "leave-one-out RMSE"}` +
+      `Selection: ${sel.ranking.length} candidate models ranked by ${byText}` +
         (sel.onSubsample ? ` on a ${sel.onSubsample}-point subsample` : "") + " (best first):",
     );
-    lines.push("  kernel                drift      shape ε     λ           edf      GCV         LOO RMSE");
+    lines.push("  kernel                drift      shape ε     λ           edf      GCV         LOO RMSE ± SE         note");
     for (const c of sel.ranking) {
+      const note = c.excluded ? `not eligible: ${c.excluded}` : c.heldAtFloor ? "λ held at the numerical floor" : "";
+      const loo = `${fmt(c.loocvRmse)}${c.loocvSe === undefined ? "" : ` ± ${fmt(c.loocvSe, 2)}`}`;
       lines.push(
         `${c.chosen ? "* " : "  "}${c.kernel.padEnd(22)}${c.drift.padEnd(11)}${(c.shape === null ? "—" : fmt(c.shape)).padEnd(12)}` +
-          `${fmt(c.lambda).padEnd(12)}${fmt(c.edf).padEnd(9)}${fmt(c.gcv).padEnd(12)}${fmt(c.loocvRmse)}`,
+          `${fmt(c.lambda).padEnd(12)}${fmt(c.edf).padEnd(9)}${fmt(c.gcv).padEnd(12)}${loo.padEnd(22)}${note}`.trimEnd(),
+      );
+    }
+    const chosen = sel.ranking.find((c) => c.chosen);
+    if (sel.decision === "parsimony" && chosen && sel.best) {
+      lines.push(
+        `  parsimony decided: ${chosen.kernel} with ${chosen.drift} drift is the simplest candidate within one standard error of the ` +
+          `best leave-one-out error (${sel.best.kernel} with ${sel.best.drift} drift); --select loocv takes the raw minimum`,
+      );
+    } else if (sel.decision === "few-points" && chosen) {
+      lines.push(
+        `  with fewer than ${MIN_SELECTION_POINTS} points the leave-one-out errors differ mostly by chance, so the simplest candidate ` +
+          `(${chosen.kernel} with ${chosen.drift} drift) was taken; name a kernel to use another`,
       );
     }
   }
@@ -56,7 +72,10 @@ export function modelSummaryLines(model: SurfaceModel): string[] {
   lines.push(`  shape: ${shape}`);
   const how = d.smoothingChoice === "gcv" ? "chosen by GCV" : d.smoothingChoice === "given" ? "given" : "given, raised for stability";
   lines.push(`  smoothing λ = ${fmt(model.lambda)} (${how}); effective degrees of freedom ${fmt(d.edf)} of ${d.n}`);
-  lines.push(`  GCV score ${fmt(d.gcv)}; leave-one-out RMSE ${fmt(d.loocvRmse)}; fit RMSE ${fmt(d.rmse)}; noise σ estimate ${fmt(d.sigma)}`);
+  lines.push(
+    `  GCV score ${fmt(d.gcv)}; leave-one-out RMSE ${fmt(d.loocvRmse)}; fit RMSE ${fmt(d.rmse)}; noise σ estimate ${fmt(d.sigma)}` +
+      (d.sigma === 0 ? " (the surface passes through every reading, which it takes as exact)" : ""),
+  );
   lines.push(`  condition estimate ${fmt(d.condition, 3)}`);
   const order = model.loo.map((_, i) => i).filter((i) => model.loo[i] !== null)
     .sort((a, b) => Math.abs(model.loo[b]) - Math.abs(model.loo[a])).slice(0, 3);
@@ -66,11 +85,7 @@ export function modelSummaryLines(model: SurfaceModel): string[] {
         order.map((i) => `line ${model.points.line[i]}: ${model.loo[i] >= 0 ? "+" : ""}${fmt(model.loo[i], 3)}`).join("; "),
     );
   }
-  lines.push(
-    d.flags.lines.length
-      ? `  possible blunders (|standardised leave-one-out residual| > ${fmt(d.flags.threshold)}): lines ${d.flags.lines.slice(0, 10).join(", ")}${d.flags.lines.length > 10 ? ", …" : ""}`
-      : `  no point has a standardised leave-one-out residual beyond ${fmt(d.flags.threshold)}`,
-  );
+  lines.push(...blunderLines(model));
   for (const w of d.warnings) lines.push(`WARNING: ${w}`);
   return lines;
 }
@@ -84,4 +99,27 @@ export function summaryText(title: string, sections: string[][]): string {
   }
   out.push("", CAUTION, "");
   return out.join("\n");
+}
+
+/** What the blunder test found, and what to do about it. */
+function blunderLines(model: SurfaceModel): string[] {
+  const d = model.diagnostics;
+  const f = d.flags;
+  const lines: string[] = [];
+  const list = (l: number[]) => `${l.slice(0, 10).join(", ")}${l.length > 10 ? `, … (${l.length} in all)` : ""}`;
+  if (f.critical === null) return ["  no blunder test: too few points are left over after the trend for Pope's tau test"];
+  const test = f.test === "tau"
+    ? `Pope's tau test on studentised leave-one-out residuals, ${fmt(100 * f.level!)}% false-alarm rate for the whole survey, critical value ${fmt(f.critical, 3)}`
+    : `|standardised leave-one-out residual| > ${fmt(f.critical)}`;
+  if (f.lines.length) {
+    lines.push(`  possible blunders (${test}): lines ${list(f.lines)}`);
+    if (!d.robust) lines.push("  check them in the field book; --robust refits with blunders down-weighted");
+  } else lines.push(`  no possible blunder (${test})`);
+  if (d.robust) {
+    lines.push(
+      `  robust fit (Tukey's biweight, ${d.robust.passes} passes): ` +
+        (d.robust.downweighted.length ? `down-weighted below 0.5: lines ${list(d.robust.downweighted)}` : "no point down-weighted below 0.5"),
+    );
+  }
+  return lines;
 }

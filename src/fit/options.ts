@@ -1,0 +1,39 @@
+// The options of a fit, shared by every module of the fit stage.
+import type { Crs, DriftName, KernelName } from "../types.ts";
+
+export type KernelChoice = KernelName | "auto";
+export type DriftChoice = DriftName | "auto";
+/**
+ * How automatic selection picks among candidates: "one-se" (default) the simplest candidate whose
+ * leave-one-out error is within one standard error of the best (Breiman et al. 1984); "loocv" the
+ * smallest leave-one-out RMSE; "gcv" the smallest GCV score among candidates whose leave-one-out
+ * RMSE is not grossly worse than the best's (see select.ts).
+ */
+export type SelectRule = "one-se" | "loocv" | "gcv";
+
+export interface FitOptions {
+  /** Basis function, or "auto" to rank every kernel (the default). */
+  kernel?: KernelChoice;
+  /** Shape ε in 1/map units (φ(ε r)), or "auto" to choose it by GCV; default auto. */
+  shape?: "auto" | number;
+  /** Polynomial drift, or "auto" (with kernel auto: the degrees each kernel supports); default linear. */
+  drift?: DriftChoice;
+  /** λ in map-unit convention (added to the kernel matrix diagonal), or "gcv"; default gcv. */
+  smoothing?: "gcv" | number;
+  /** How automatic selection picks the model; default "one-se". */
+  select?: SelectRule;
+  /** Observation weights ωᵢ > 0 (e.g. 1/variance), one per point; normalised to mean 1. */
+  weights?: Float64Array;
+  /** Geometric anisotropy: azimuth of the long axis (degrees clockwise from grid north), ratio ≥ 1. */
+  anisotropy?: { azimuth: number; ratio: number };
+  /** "log" fits ln z (values must be positive) and back-transforms with a lognormal bias correction. */
+  transform?: "none" | "log";
+  /** Family-wise level α of the blunder test (Pope's tau, iterated); default 0.05. */
+  flagLevel?: number;
+  /** Refit by iteratively reweighted least squares with Tukey's biweight (bounded influence of blunders). */
+  robust?: boolean;
+  crs?: Crs;
+  source?: { file: string; x: string; y: string; z: string };
+  /** Called with short progress messages during long work. */
+  progress?: (message: string) => void;
+}
