@@ -19,7 +19,7 @@ import {
   readModel,
   runJob,
 } from "./job.ts";
-import { modelToJson, type SurfaceModel } from "./model/model.ts";
+import { MODEL_VERSION, modelToJson, type SurfaceModel } from "./model/model.ts";
 import { readPointTable } from "./read/points.ts";
 import type { DriftName, KernelName } from "./types.ts";
 import { checkWritableFolder, refuseInputAsOutput, writeFileAtomic } from "./write/atomic.ts";
@@ -61,8 +61,8 @@ const POINTS_HELP = `  --x COL --y COL --z COL   columns to use (default: detect
   --max-spread DZ           refuse coincident points whose values differ by more than DZ
   --merge-conflicts         merge such points anyway (mean value) and report them
   --weight COL              observation weights (e.g. 1/variance from instrument precision)`;
-const MODEL_HELP = `  --kernel K                auto|${KERNELS.join("|")} (default auto: ranks every
-                            kernel with the drifts it supports and keeps the best)
+const MODEL_HELP = `  --kernel K                auto|${KERNELS.join("|")} (default auto: tries every
+                            kernel with the drifts it supports; see --select)
   --shape auto|NUMBER       shape ε in 1/map units for gaussian and the multiquadrics (default auto:
                             chosen by GCV)
   --drift D                 auto|${DRIFTS.join("|")} (default auto with --kernel auto, else linear;
@@ -112,7 +112,7 @@ ${CAUTION}
 
 Reads POINTS (CSV, TSV, semicolon or whitespace text with a header row, or GeoJSON points), fits
 an RBF surface with polynomial drift, chooses the smoothing by generalized cross-validation and
-writes the model file (JSON, format rbfield-model version 1).
+writes the model file (JSON, format rbfield-model version ${MODEL_VERSION}).
 
 ${POINTS_HELP}
 ${MODEL_HELP}

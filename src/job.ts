@@ -306,7 +306,7 @@ export function estimateSummaryLines(est: EstimateTable, model: SurfaceModel): s
   }
   if (est.outOfRange.length) {
     out.push(
-      `WARNING: ${est.outOfRange.length} estimates lie far outside the range of the readings (${lines(est.outOfRange)}); ` +
+      `WARNING: ${est.outOfRange.length} ${est.outOfRange.length === 1 ? "estimate lies" : "estimates lie"} far outside the range of the readings (${lines(est.outOfRange)}); ` +
         "do not rely on them without more readings nearby",
     );
   }
