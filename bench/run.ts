@@ -1,8 +1,8 @@
 // deno task bench: speed of rbfield against a reference measured in the same run, as ratios.
 //   1. 2,000 noisy points, full automatic selection (--kernel auto) + a 500 × 500 grid, against
-//      scipy's RBFInterpolator with the kernel, shape, drift and smoothing rbfield chose, fixed (scipy
+//      scipy's RBFInterpolator with the kernel, shape, trend and smoothing rbfield chose, fixed (scipy
 //      does no selection), on the same points and grid.
-//   2. A fixed thin-plate model (linear drift, smoothing 1) in both.
+//   2. A fixed thin-plate model (linear trend, smoothing 1) in both.
 // The machine is noisy: read the ratios, not the seconds. Nothing here is a pass/fail test.
 import { execFileSync } from "node:child_process";
 import * as fs from "node:fs";
@@ -52,10 +52,10 @@ console.log(`rbfield benchmark: ${N} noisy points, ${SIDE} × ${SIDE} grid, ${os
 // 1. rbfield with full automatic selection.
 const [auto, tAutoFit] = await timeAsync(() => fitSurfaceParallel(pts, { kernel: "auto" }));
 const [gAuto, tAutoGrid] = await timeAsync(() => gridModelParallel(auto, { cell, extent, mask: "none" }));
-console.log(`rbfield auto: chose ${auto.kernel}/${auto.drift}, fit+select ${tAutoFit.toFixed(2)} s, grid ${tAutoGrid.toFixed(2)} s`);
+console.log(`rbfield auto: chose ${auto.kernel}/${auto.trend}, fit+select ${tAutoFit.toFixed(2)} s, grid ${tAutoGrid.toFixed(2)} s`);
 // 2. rbfield with the fixed model scipy runs (smoothing: a round value near what GCV picks here).
 const smoothing = 1.0;
-const [fixed, tFixedFit] = time(() => fitSurface(pts, { kernel: "thin-plate", drift: "linear", smoothing }));
+const [fixed, tFixedFit] = time(() => fitSurface(pts, { kernel: "thin-plate", trend: "linear", smoothing }));
 const [gFixed, tFixedGrid] = await timeAsync(() => gridModelParallel(fixed, { cell, extent, mask: "none" }));
 console.log(`rbfield fixed thin-plate: fit ${tFixedFit.toFixed(2)} s (includes exact leave-one-out), grid ${tFixedGrid.toFixed(2)} s`);
 
@@ -96,8 +96,8 @@ const SCIPY_KERNEL: Record<string, string> = {
   "inverse-multiquadric": "inverse_multiquadric",
 };
 const DEGREE: Record<string, number> = { none: -1, constant: 0, linear: 1, quadratic: 2 };
-// 1. scipy with the kernel, shape, drift and smoothing rbfield's selection chose, fixed.
-const scipyChosen = scipyRun(auto.lambda, SCIPY_KERNEL[auto.kernel], auto.shape ?? 1, DEGREE[auto.drift]);
+// 1. scipy with the kernel, shape, trend and smoothing rbfield's selection chose, fixed.
+const scipyChosen = scipyRun(auto.lambda, SCIPY_KERNEL[auto.kernel], auto.shape ?? 1, DEGREE[auto.trend]);
 // 2. scipy with the fixed thin-plate model.
 const scipy = scipyRun(smoothing, "thin_plate_spline", 1, 1);
 const mem = Deno.memoryUsage();

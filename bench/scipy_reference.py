@@ -1,5 +1,5 @@
 # Reference timing for `deno task bench`: scipy.interpolate.RBFInterpolator (Debian python3-scipy)
-# with a FIXED kernel, shape, drift degree and smoothing (no selection), fitted to the same points and
+# with a FIXED kernel, shape, trend degree and smoothing (no selection), fitted to the same points and
 # evaluated on the same 500 x 500 grid of cell centres. Prints one JSON line.
 # Arguments: points.csv cols rows xmin ymax cell smoothing [kernel epsilon degree]
 import json, sys, time

@@ -4,7 +4,7 @@ import { parseArgs } from "node:util";
 import { CAUTION } from "./caution.ts";
 import { ExitCode, RbfieldError } from "./errors.ts";
 import type { GridOptions } from "./evaluate/grid.ts";
-import { KERNELS, DRIFTS } from "./fit/kernels.ts";
+import { KERNELS, TRENDS } from "./fit/kernels.ts";
 import type { FitOptions } from "./fit/surface.ts";
 import { gridModelParallel } from "./evaluate/parallel.ts";
 import { gridStandardError } from "./evaluate/stderr.ts";
@@ -13,6 +13,7 @@ import {
   estimateColumns,
   estimateSummaryLines,
   estimateTable,
+  estimateWarnings,
   fitPointsFile,
   readGrid,
   readMask,
@@ -21,7 +22,7 @@ import {
 } from "./job.ts";
 import { MODEL_VERSION, modelToJson, type SurfaceModel } from "./model/model.ts";
 import { readPointTable } from "./read/points.ts";
-import type { DriftName, KernelName } from "./types.ts";
+import type { TrendName, KernelName } from "./types.ts";
 import { checkWritableFolder, refuseInputAsOutput, writeFileAtomic } from "./write/atomic.ts";
 import { estimatesCsv } from "./write/csv.ts";
 import { encodeGeoTiff } from "./write/geotiff.ts";
@@ -42,11 +43,11 @@ const POINTS: Spec = {
 const MODEL: Spec = {
   kernel: { type: "string" },
   shape: { type: "string" },
-  drift: { type: "string" },
+  trend: { type: "string" },
   smoothing: { type: "string" },
   select: { type: "string" },
   transform: { type: "string" },
-  anisotropy: { type: "string" },
+  stretch: { type: "string" },
   "flag-level": { type: "string" },
   robust: { type: "boolean" },
 };
@@ -61,20 +62,22 @@ const POINTS_HELP = `  --x COL --y COL --z COL   columns to use (default: detect
   --max-spread DZ           refuse coincident points whose values differ by more than DZ
   --merge-conflicts         merge such points anyway (mean value) and report them
   --weight COL              observation weights (e.g. 1/variance from instrument precision)`;
-const MODEL_HELP = `  --kernel K                auto|${KERNELS.join("|")} (default auto: tries every
-                            kernel with the drifts it supports; see --select)
+const MODEL_HELP = `  --kernel K                auto|${KERNELS.join("|")}
+                            (default auto: tries every kernel with the trends it supports; see --select)
   --shape auto|NUMBER       shape ε in 1/map units for gaussian and the multiquadrics (default auto:
                             chosen by GCV)
-  --drift D                 auto|${DRIFTS.join("|")} (default auto with --kernel auto, else linear;
-                            thin-plate needs linear or more, multiquadric constant or more)
+  --trend T                 polynomial trend: auto|${TRENDS.join("|")} (default auto with
+                            --kernel auto, else linear; thin-plate needs linear or more, multiquadric
+                            constant or more)
   --smoothing gcv|NUMBER    λ added to the kernel matrix diagonal (0 interpolates; default gcv)
   --select one-se|loocv|gcv how --kernel auto chooses: one-se (default) the simplest candidate whose
                             leave-one-out error is within one standard error of the best; loocv the
                             smallest leave-one-out RMSE; gcv the smallest GCV score
   --transform none|log      log: fit ln z for positive, skewed readings; estimates back-transformed
                             with the lognormal bias correction exp(f + σ²/2)
-  --anisotropy AZ,RATIO     long axis at azimuth AZ degrees (clockwise from grid north), correlation
-                            RATIO ≥ 1 times longer along it than across
+  --stretch AZIMUTH:FACTOR  the surface varies FACTOR (≥ 1) times more slowly along AZIMUTH
+                            (degrees clockwise from grid north) than across it, e.g. 45:3 along
+                            a valley or a buried channel
   --flag-level ALPHA        false-alarm rate of the blunder test for the whole survey (default 0.05;
                             Pope's tau test on studentised leave-one-out residuals, iterated)
   --robust                  refit with blunders down-weighted (Tukey's biweight, iterated; λ by GCV)`;
@@ -111,7 +114,7 @@ ${CAUTION}
   fit: `Usage: deno task rbfield fit POINTS --out MODEL [options]
 
 Reads POINTS (CSV, TSV, semicolon or whitespace text with a header row, or GeoJSON points), fits
-an RBF surface with polynomial drift, chooses the smoothing by generalized cross-validation and
+an RBF surface with polynomial trend, chooses the smoothing by generalized cross-validation and
 writes the model file (JSON, format rbfield-model version ${MODEL_VERSION}).
 
 ${POINTS_HELP}
@@ -164,6 +167,13 @@ ${COMMON_HELP}
 `,
 };
 
+/** Options renamed since the first release, and what to write instead. */
+const RENAMED: Record<string, string> = {
+  drift: "--trend (none|constant|linear|quadratic|auto)",
+  anisotropy: "--stretch AZIMUTH:FACTOR (e.g. 45:3)",
+  "flag-threshold": "--flag-level ALPHA (the blunder test's false-alarm rate, e.g. 0.05)",
+};
+
 function usage(message: string): RbfieldError {
   return new RbfieldError(message, ExitCode.usage);
 }
@@ -178,8 +188,8 @@ function num(value: string | undefined, name: string): number | undefined {
 function fitOptions(v: Record<string, unknown>): FitOptions {
   const kernel = (v.kernel as string | undefined) ?? "auto";
   if (kernel !== "auto" && !KERNELS.includes(kernel as KernelName)) throw usage(`--kernel must be auto or one of ${KERNELS.join(", ")}, not "${kernel}"`);
-  const drift = (v.drift as string | undefined) ?? (kernel === "auto" ? "auto" : "linear");
-  if (drift !== "auto" && !DRIFTS.includes(drift as DriftName)) throw usage(`--drift must be auto or one of ${DRIFTS.join(", ")}, not "${drift}"`);
+  const trend = (v.trend as string | undefined) ?? (kernel === "auto" ? "auto" : "linear");
+  if (trend !== "auto" && !TRENDS.includes(trend as TrendName)) throw usage(`--trend must be auto or one of ${TRENDS.join(", ")}, not "${trend}"`);
   const shapeText = (v.shape as string | undefined) ?? "auto";
   const shape = shapeText === "auto" ? "auto" as const : num(shapeText, "shape")!;
   if (shape !== "auto" && !(shape > 0)) throw usage(`--shape must be a positive number or auto, not "${shapeText}"`);
@@ -190,24 +200,24 @@ function fitOptions(v: Record<string, unknown>): FitOptions {
   if (select !== "one-se" && select !== "gcv" && select !== "loocv") throw usage(`--select must be one-se, loocv or gcv, not "${select}"`);
   const transform = (v.transform as string | undefined) ?? "none";
   if (transform !== "none" && transform !== "log") throw usage(`--transform must be none or log, not "${transform}"`);
-  let anisotropy: FitOptions["anisotropy"];
-  if (v.anisotropy !== undefined) {
-    const parts = String(v.anisotropy).split(",").map((t) => Number(t.trim()));
+  let stretch: FitOptions["stretch"];
+  if (v.stretch !== undefined) {
+    const parts = String(v.stretch).split(":").map((t) => (t.trim() === "" ? NaN : Number(t.trim())));
     if (parts.length !== 2 || !parts.every(Number.isFinite) || !(parts[1] >= 1)) {
-      throw usage(`--anisotropy must be AZIMUTH,RATIO with RATIO ≥ 1 (e.g. 45,3), not "${v.anisotropy}"`);
+      throw usage(`--stretch must be AZIMUTH:FACTOR with FACTOR ≥ 1 (e.g. 45:3), not "${v.stretch}"`);
     }
-    anisotropy = { azimuth: parts[0], ratio: parts[1] };
+    stretch = { azimuth: parts[0], factor: parts[1] };
   }
   const flagLevel = num(v["flag-level"] as string | undefined, "flag-level");
   if (flagLevel !== undefined && !(flagLevel > 0 && flagLevel < 1)) throw usage("--flag-level must be a number between 0 and 1, such as 0.05");
   return {
     kernel: kernel as FitOptions["kernel"],
-    drift: drift as FitOptions["drift"],
+    trend: trend as FitOptions["trend"],
     shape,
     smoothing,
     select: select as FitOptions["select"],
     transform,
-    anisotropy,
+    stretch,
     flagLevel,
     robust: Boolean(v.robust),
   };
@@ -246,7 +256,7 @@ function modelJson(model: SurfaceModel): Record<string, unknown> {
   return {
     kernel: model.kernel,
     shape: model.shape,
-    drift: model.drift,
+    trend: model.trend,
     lambda: model.lambda,
     edf: d.edf,
     gcv: d.gcv,
@@ -258,7 +268,7 @@ function modelJson(model: SurfaceModel): Record<string, unknown> {
     smoothingChoice: d.smoothingChoice,
     shapeChoice: d.shapeChoice,
     transform: model.transform,
-    anisotropy: model.anisotropy,
+    stretch: model.stretch,
     selection: d.selection,
     flaggedLines: d.flags.lines,
     flagTest: { test: d.flags.test, level: d.flags.level, critical: d.flags.critical },
@@ -300,6 +310,11 @@ export async function main(args: string[], io: Io): Promise<number> {
       if (name && specs[verb][name]?.type === "string" && i + 1 < argv.length && /^-[\d.]/.test(argv[i + 1])) {
         rest.push(`${a}=${argv[++i]}`);
       } else rest.push(a);
+    }
+    // Option names of the first release, refused with the name that replaced them.
+    for (const a of rest) {
+      const name = a.startsWith("--") ? a.slice(2).split("=")[0] : undefined;
+      if (name && name in RENAMED) throw usage(`--${name} is now ${RENAMED[name]} (see 'deno task rbfield ${verb} --help')`);
     }
     let parsed;
     try {
@@ -377,6 +392,8 @@ export async function main(args: string[], io: Io): Promise<number> {
       const table = await readPointTable(pos[1], { x: v.x as string | undefined, y: v.y as string | undefined, needValue: false });
       const est = estimateTable(model, table);
       writeFileAtomic(out, estimatesCsv(table, estimateColumns(est)));
+      // Empty or all-zero standard errors never pass without a reason on stderr.
+      for (const w of estimateWarnings(est)) io.err(`rbfield: warning: ${w}`);
       if (v.json) {
         const info = {
           rows: table.rows.length,

@@ -12,7 +12,7 @@ export const ExitCode = {
   input: 3,
   /** A file cannot be read or written (missing, permission, output equals input). */
   io: 4,
-  /** The data cannot support the model asked for (e.g. all points on one line for linear drift). */
+  /** The data cannot support the model asked for (e.g. all points on one line for linear trend). */
   numerical: 5,
 } as const;
 export type ExitCodeValue = (typeof ExitCode)[keyof typeof ExitCode];
@@ -20,11 +20,14 @@ export type ExitCodeValue = (typeof ExitCode)[keyof typeof ExitCode];
 export class RbfieldError extends Error {
   readonly exitCode: ExitCodeValue;
   readonly place?: SourcePlace;
-  constructor(message: string, exitCode: ExitCodeValue = ExitCode.input, place?: SourcePlace) {
+  /** The library option the problem concerns (e.g. "trend"), which the CLI names as its flag. */
+  readonly option?: string;
+  constructor(message: string, exitCode: ExitCodeValue = ExitCode.input, place?: SourcePlace, option?: string) {
     super(place ? `${formatPlace(place)}: ${message}` : message);
     this.name = "RbfieldError";
     this.exitCode = exitCode;
     this.place = place;
+    this.option = option;
   }
 }
 

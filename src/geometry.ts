@@ -60,16 +60,17 @@ export function convexHullRing(x: Float64Array, y: Float64Array): [number, numbe
 }
 
 /**
- * Geometric anisotropy: d = x − x₀ rotated to (along, across) the azimuth θ (clockwise from grid
- * north), the across component stretched by the ratio. One formula for the fit and the evaluator.
+ * The stretch (geometric anisotropy, common practice in geostatistics): d = x − x₀ rotated to
+ * (along, across) the azimuth θ (clockwise from grid north), the across component multiplied by the
+ * factor. One formula for the fit and the evaluator.
  */
-export function anisotropyMap(an: { azimuth: number; ratio: number; x0: number; y0: number }): (x: number, y: number, out: Float64Array) => void {
+export function stretchMap(an: { azimuth: number; factor: number; x0: number; y0: number }): (x: number, y: number, out: Float64Array) => void {
   const th = (an.azimuth * Math.PI) / 180;
   const sn = Math.sin(th), cs = Math.cos(th);
   return (x, y, out) => {
     const dx = x - an.x0, dy = y - an.y0;
     out[0] = dx * sn + dy * cs;
-    out[1] = an.ratio * (dx * cs - dy * sn);
+    out[1] = an.factor * (dx * cs - dy * sn);
   };
 }
 

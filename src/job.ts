@@ -283,6 +283,18 @@ export function standardErrorLines(range: { lo: number; hi: number }, stride: nu
   return [line, "  it is zero because the readings lie exactly on the trend (for example a plane): the model sees no variation to be unsure of"];
 }
 
+/** Warnings for stderr: rows left empty, standard errors that are zero everywhere, estimates far out of range. */
+export function estimateWarnings(est: EstimateTable): string[] {
+  const out: string[] = [];
+  const lines = (l: number[]) => `${l.slice(0, 5).join(", ")}${l.length > 5 ? ", …" : ""}`;
+  if (est.unusable.length) out.push(`${est.unusable.length} rows without usable coordinates have empty estimate and std_error cells (lines ${lines(est.unusable)})`);
+  if (est.stdErrors && est.stdErrors.length > est.unusable.length && est.stdErrors.every((v) => !(v > 0))) {
+    out.push("every std_error is 0: the readings lie exactly on the trend, so the model sees no variation to be unsure of");
+  }
+  if (est.outOfRange.length) out.push(`${est.outOfRange.length} estimates lie far outside the range of the readings (lines ${lines(est.outOfRange)})`);
+  return out;
+}
+
 /** Summary lines about estimates: how many, which rows were unusable, which are extrapolations. */
 export function estimateSummaryLines(est: EstimateTable, model: SurfaceModel): string[] {
   const lines = (l: number[]) => `line${l.length === 1 ? "" : "s"} ${l.slice(0, 5).join(", ")}${l.length > 5 ? ", …" : ""}`;

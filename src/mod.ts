@@ -10,7 +10,7 @@ export { decodeGeoTiff } from "./read/geotiff.ts";
 export { cleanPoints, type CleanOptions, describeCleaning } from "./clean/clean.ts";
 // fit and select
 export { fitSurface, fitSurfaceParallel, type FitOptions, medianSpacing } from "./fit/surface.ts";
-export { DRIFTS, KERNELS, minimumDrift } from "./fit/kernels.ts";
+export { TRENDS, KERNELS, minimumTrend } from "./fit/kernels.ts";
 export { MODEL_FORMAT, MODEL_VERSION, modelFromJson, modelToJson, type SurfaceModel } from "./model/model.ts";
 // evaluate
 export { evaluateModel, makeEvaluator, type Evaluator } from "./evaluate/evaluate.ts";

@@ -71,7 +71,7 @@ export interface CleanPoints {
 }
 
 export type KernelName = "thin-plate" | "gaussian" | "multiquadric" | "inverse-multiquadric";
-export type DriftName = "none" | "constant" | "linear" | "quadratic";
+export type TrendName = "none" | "constant" | "linear" | "quadratic";
 
 /** A regular grid of cells; cells are areas (pixel-is-area), row 0 is the northern row. */
 export interface GridSpec {

@@ -96,12 +96,12 @@ const CASES: Case[] = [
   // ---- Empty and header-only files
   { name: "empty file", fixture: "empty.csv", args: (p) => fitTo(p), code: 3, line: 1, words: ["file is empty", "give a header row"] },
   {
-    name: "only blank and comment lines",
-    fixture: "blank-and-comments.csv",
+    name: "only empty and comment lines",
+    fixture: "empty-and-comments.csv",
     args: (p) => fitTo(p),
     code: 3,
     line: 1,
-    words: ["only blank and comment lines", "give a header row"],
+    words: ["only empty and comment lines", "give a header row"],
   },
   { name: "header only", fixture: "header-only.csv", args: (p) => fitTo(p), code: 3, line: 1, words: ["no data rows after the header", "add one row per point"] },
   {
@@ -287,39 +287,39 @@ const CASES: Case[] = [
   },
   // ---- Degenerate geometry
   {
-    name: "two usable points (fewer than any drift needs)",
+    name: "two usable points (fewer than any trend needs)",
     fixture: "two-usable-points.csv",
     args: (p) => fitTo(p),
     code: 3,
     words: ["only 2 usable points", "at least 3 are needed"],
   },
   {
-    name: "five points for quadratic drift (six terms)",
+    name: "five points for quadratic trend (six terms)",
     fixture: "five-points.csv",
-    args: (p) => fitTo(p, "--drift", "quadratic"),
+    args: (p) => fitTo(p, "--trend", "quadratic"),
     code: 3,
-    words: ["too few for quadratic drift", "at least 7"],
+    words: ["too few for quadratic trend", "at least 7"],
   },
   {
-    name: "all points on one line with linear drift",
+    name: "all points on one line with linear trend",
     fixture: "collinear.csv",
-    args: (p) => fitTo(p, "--drift", "linear"),
+    args: (p) => fitTo(p, "--trend", "linear"),
     code: 5,
-    words: ["do not support linear drift", "--drift constant"],
+    words: ["do not support linear trend", "--trend constant"],
   },
   {
-    name: "all points on one line with quadratic drift",
+    name: "all points on one line with quadratic trend",
     fixture: "collinear.csv",
-    args: (p) => fitTo(p, "--drift", "quadratic"),
+    args: (p) => fitTo(p, "--trend", "quadratic"),
     code: 5,
-    words: ["do not support quadratic drift", "--drift linear"],
+    words: ["do not support quadratic trend", "--trend linear"],
   },
   {
-    name: "all points on a circle (a conic) with quadratic drift",
+    name: "all points on a circle (a conic) with quadratic trend",
     fixture: "on-a-circle.csv",
-    args: (p) => fitTo(p, "--drift", "quadratic"),
+    args: (p) => fitTo(p, "--trend", "quadratic"),
     code: 5,
-    words: ["do not support quadratic drift"],
+    words: ["do not support quadratic trend"],
   },
   {
     name: "all points identical",
@@ -452,7 +452,7 @@ const CASES: Case[] = [
     words: ["damaged"],
   },
   {
-    name: "model file with a text anisotropy azimuth (predict)",
+    name: "version 1 model file with a text anisotropy azimuth (predict)",
     fixture: "model-anisotropy-text.rbfield.json",
     extra: ["four-points.csv"],
     args: (p) => ["predict", p.input, p.file("four-points.csv"), "--out", p.out, ...Q],
@@ -814,11 +814,11 @@ describe("the real command line (child process)", () => {
   it("exit 5 for collinear points with progress on: the error is the last line and no output folder holds files", () => {
     const dir = fs.mkdtempSync(path.join(tmpRoot, "proc-"));
     const out = path.join(dir, "job");
-    const r = deno(["run", path.join(FIXTURES, "collinear.csv"), "--drift", "linear", "--out", out]);
+    const r = deno(["run", path.join(FIXTURES, "collinear.csv"), "--trend", "linear", "--out", out]);
     expect(r.status, r.stderr).toBe(5);
     const lines = r.stderr.trimEnd().split("\n");
     expect(lines.every((l) => l.startsWith("rbfield: ")), r.stderr).toBe(true);
-    expect(lines.at(-1)).toMatch(/do not support linear drift.*--drift constant/);
+    expect(lines.at(-1)).toMatch(/do not support linear trend.*--trend constant/);
     expect(r.stderr).not.toMatch(/^\s+at |^error: /m);
     expect(fs.existsSync(out) ? fs.readdirSync(out) : []).toEqual([]);
   });
@@ -831,7 +831,7 @@ describe("messy data that is handled, not refused", () => {
     fs.copyFileSync(path.join(FIXTURES, "good-points.csv"), input);
     const out = path.join(dir, "job");
     // Gaussian with ε·h ≈ 0.01 and no smoothing: the kernel matrix is numerically singular.
-    const r = await cli(["run", input, "--out", out, "--kernel", "gaussian", "--shape", "0.001", "--drift", "none", "--smoothing", "0", "--quiet"]);
+    const r = await cli(["run", input, "--out", out, "--kernel", "gaussian", "--shape", "0.001", "--trend", "none", "--smoothing", "0", "--quiet"]);
     expect(r.code, r.err).toBe(0);
     const summary = fs.readFileSync(path.join(out, "run-summary.txt"), "utf8");
     expect(summary).toMatch(/smoothing was raised/);
@@ -843,7 +843,7 @@ describe("messy data that is handled, not refused", () => {
     const model = JSON.parse(fs.readFileSync(path.join(out, "model.rbfield.json"), "utf8"));
     const d = model.diagnostics;
     const numbers = [model.lambda, d.edf, d.gcv, d.loocvRmse, d.rmse, d.sigma, d.condition, ...model.weights,
-      ...model.driftCoefficients, ...model.fitted, ...model.loo];
+      ...model.trendCoefficients, ...model.fitted, ...model.loo];
     expect(numbers.every((v) => typeof v === "number" && Number.isFinite(v))).toBe(true);
     for (const name of ["contours.geojson", "bands.geojson"]) {
       expect(fs.readFileSync(path.join(out, name), "utf8"), name).not.toMatch(/null|NaN/);

@@ -41,10 +41,10 @@ describe("rbfield CLI", () => {
     const r = await cli(["fit", pointsFile, "--out", model, "--crs", "EPSG:32632", "--kernel", "thin-plate", "--json", "--quiet"]);
     expect(r.code).toBe(0);
     const j = JSON.parse(r.out);
-    for (const key of ["kernel", "shape", "drift", "lambda", "edf", "gcv", "loocvRmse", "n"]) expect(j).toHaveProperty(key);
+    for (const key of ["kernel", "shape", "trend", "lambda", "edf", "gcv", "loocvRmse", "n"]) expect(j).toHaveProperty(key);
     expect(j.n).toBe(64);
     expect(j.kernel).toBe("thin-plate");
-    // A plane lies in the linear drift space: leave-one-out errors vanish (RBF polynomial precision).
+    // A plane lies in the linear trend space: leave-one-out errors vanish (RBF polynomial precision).
     expect(j.loocvRmse).toBeLessThan(1e-8);
     expect(fs.existsSync(model)).toBe(true);
   });
@@ -141,9 +141,9 @@ describe("rbfield CLI", () => {
     expect((await cli(["frobnicate"])).code).toBe(2);
   });
 
-  it("model options reach the fit: --transform log, --weight, --anisotropy, --select, --flag-level", async () => {
+  it("model options reach the fit: --transform log, --weight, --stretch, --select, --flag-level", async () => {
     // Concentrations exp(plane) are reproduced exactly in log space (analytic); weights and
-    // anisotropy are recorded in the model; the selection ranks by leave-one-out RMSE.
+    // the stretch are recorded in the model; the selection ranks by leave-one-out RMSE.
     const conc = ["x,y,conc,w"];
     for (let i = 0; i < 30; i++) {
       const x = (i * 37) % 100, y = (i * 53) % 97;
@@ -153,14 +153,14 @@ describe("rbfield CLI", () => {
     fs.writeFileSync(file, conc.join("\n") + "\n");
     const out = path.join(tmp, "conc.json");
     const r = await cli([
-      "fit", file, "--out", out, "--z", "conc", "--transform", "log", "--weight", "w", "--anisotropy", "30,2",
+      "fit", file, "--out", out, "--z", "conc", "--transform", "log", "--weight", "w", "--stretch", "30:2",
       "--select", "loocv", "--flag-level", "0.01", "--json", "--quiet",
     ]);
     expect(r.code, r.err).toBe(0);
     const j = JSON.parse(r.out);
     expect(j.transform).toBe("log");
-    expect(j.anisotropy.azimuth).toBe(30);
-    expect(j.anisotropy.ratio).toBe(2);
+    expect(j.stretch.azimuth).toBe(30);
+    expect(j.stretch.factor).toBe(2);
     expect(j.selection.by).toBe("loocv");
     const model = JSON.parse(fs.readFileSync(out, "utf8"));
     expect(model.points.weight).toHaveLength(30);
@@ -172,9 +172,9 @@ describe("rbfield CLI", () => {
     expect((await cli(["predict", out, locs, "--out", est, "--quiet"])).code).toBe(0);
     const value = Number(fs.readFileSync(est, "utf8").split("\r\n")[1].split(",")[2]);
     expect(Math.abs(value - Math.exp(1 + 0.5 - 0.8)) / Math.exp(0.7)).toBeLessThan(1e-6);
-    const bad = await cli(["fit", file, "--out", out, "--anisotropy", "30", "--quiet"]);
+    const bad = await cli(["fit", file, "--out", out, "--stretch", "30", "--quiet"]);
     expect(bad.code).toBe(2);
-    expect(bad.err).toContain("--anisotropy must be AZIMUTH,RATIO");
+    expect(bad.err).toContain("--stretch must be AZIMUTH:FACTOR");
   });
 
   it("every verb has --help", async () => {

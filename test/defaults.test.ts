@@ -41,8 +41,8 @@ function borderedSystem(model: SurfaceModel) {
   const n = model.points.x.length;
   const u = model.points.x.map((v) => (v - cx) / s), v = model.points.y.map((w) => (w - cy) / s);
   const phi = kernelOfSquared(model.kernel, model.internal.epsilonScaled);
-  const basis = (a: number, b: number) => [1, a, b, a * a, a * b, b * b].slice(0, model.driftCoefficients.length);
-  const m = model.driftCoefficients.length;
+  const basis = (a: number, b: number) => [1, a, b, a * a, a * b, b * b].slice(0, model.trendCoefficients.length);
+  const m = model.trendCoefficients.length;
   const lam = model.internal.lambdaScaled;
   const M = Matrix.zeros(n + m, n + m);
   const KP = Matrix.zeros(n, n + m);
@@ -87,7 +87,7 @@ describe("numerical trust: scores that an independent computation reproduces", (
       const d = model.diagnostics;
       worst = Math.max(worst, Math.abs(gcv - d.gcv) / d.gcv);
       expect(Math.abs(n - lam * tr - d.edf), `seed ${seed}`).toBeLessThan(1e-6 * n);
-      expect(d.edf).toBeGreaterThanOrEqual(model.driftCoefficients.length - 1e-6);
+      expect(d.edf).toBeGreaterThanOrEqual(model.trendCoefficients.length - 1e-6);
       expect(d.edf).toBeLessThanOrEqual(n + 1e-6);
     }
     expect(worst).toBeLessThan(1e-6);
@@ -95,8 +95,8 @@ describe("numerical trust: scores that an independent computation reproduces", (
 });
 
 describe("selection rule (select.ts)", () => {
-  const row = (kernel: CandidateScore["kernel"], drift: CandidateScore["drift"], loocvRmse: number, loocvSe: number, gcv = loocvRmse ** 2, heldAtFloor = false): CandidateScore => ({
-    kernel, drift, shape: kernel === "thin-plate" ? null : 1, lambda: 1, edf: 10, gcv, loocvRmse, loocvSe, heldAtFloor, excluded: null, chosen: false,
+  const row = (kernel: CandidateScore["kernel"], trend: CandidateScore["trend"], loocvRmse: number, loocvSe: number, gcv = loocvRmse ** 2, heldAtFloor = false): CandidateScore => ({
+    kernel, trend, shape: kernel === "thin-plate" ? null : 1, lambda: 1, edf: 10, gcv, loocvRmse, loocvSe, heldAtFloor, excluded: null, chosen: false,
   });
   // The one-standard-error rule (Breiman, Friedman, Olshen & Stone 1984, §3.4.3): the simplest
   // candidate whose error is within one standard error of the smallest.
@@ -104,7 +104,7 @@ describe("selection rule (select.ts)", () => {
     const rows = [row("gaussian", "constant", 1.0, 0.1), row("thin-plate", "linear", 1.09, 0.1), row("thin-plate", "quadratic", 1.05, 0.1)];
     // Limit: 1.0² + 2·1.0·0.1 = 1.2 ≥ 1.09² = 1.188: thin-plate linear (λ only, 3 terms) is simplest.
     const out = chooseCandidate(rows, "one-se", false, 100);
-    expect(out.ranking.find((r) => r.chosen)).toMatchObject({ kernel: "thin-plate", drift: "linear" });
+    expect(out.ranking.find((r) => r.chosen)).toMatchObject({ kernel: "thin-plate", trend: "linear" });
     expect(out.decision).toBe("parsimony");
     expect(out.best).toMatchObject({ kernel: "gaussian" });
   });

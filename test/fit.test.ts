@@ -8,7 +8,7 @@ import { tridiagonalEigenvalues, tridiagonalize } from "../src/fit/linalg.ts";
 import { fitSurface } from "../src/fit/surface.ts";
 import { fitCore, influenceComplementDiagonal, influenceComplementDiagonalCholesky, rotatedBasis } from "../src/fit/fit.ts";
 import { evaluateModel } from "../src/evaluate/evaluate.ts";
-import type { CleanPoints, DriftName, KernelName } from "../src/types.ts";
+import type { CleanPoints, TrendName, KernelName } from "../src/types.ts";
 import { franke, makePoints, mulberry32 } from "./helpers.ts";
 
 describe("symmetric tridiagonal eigenvalues", () => {
@@ -26,18 +26,18 @@ describe("symmetric tridiagonal eigenvalues", () => {
   });
 });
 
-describe("polynomial reproduction (RBF theory: the drift space is reproduced exactly; Fasshauer 2007, ch. 6)", () => {
-  const cases: [KernelName, DriftName, (x: number, y: number) => number][] = [
+describe("polynomial reproduction (RBF theory: the trend space is reproduced exactly; Fasshauer 2007, ch. 6)", () => {
+  const cases: [KernelName, TrendName, (x: number, y: number) => number][] = [
     ["thin-plate", "linear", (x, y) => 3 + 2 * x - 5 * y],
     ["thin-plate", "quadratic", (x, y) => 1 + x - y + 0.5 * x * x - 2 * x * y + 3 * y * y],
     ["gaussian", "constant", () => 7.25],
     ["multiquadric", "linear", (x, y) => -1 + 4 * x + y],
     ["inverse-multiquadric", "quadratic", (x, y) => 2 - x * x + y * y],
   ];
-  for (const [kernel, drift, f] of cases) {
-    it(`${kernel} with ${drift} drift reproduces a ${drift} polynomial, with GCV smoothing`, () => {
+  for (const [kernel, trend, f] of cases) {
+    it(`${kernel} with ${trend} trend reproduces a ${trend} polynomial, with GCV smoothing`, () => {
       const pts = makePoints(60, 11, f);
-      const model = fitSurface(pts, { kernel, drift, shape: kernel === "thin-plate" ? "auto" : 2 });
+      const model = fitSurface(pts, { kernel, trend, shape: kernel === "thin-plate" ? "auto" : 2 });
       const tx = [0.1, 0.5, 0.93, 0.37];
       const ty = [0.2, 0.5, 0.11, 0.81];
       const est = evaluateModel(model, tx, ty);
@@ -50,7 +50,7 @@ describe("interpolation with λ = 0 (the surface passes through every data point
   for (const kernel of ["thin-plate", "gaussian", "multiquadric", "inverse-multiquadric"] as KernelName[]) {
     it(kernel, () => {
       const pts = makePoints(80, 3, franke);
-      const model = fitSurface(pts, { kernel, drift: "linear", smoothing: 0, shape: kernel === "thin-plate" ? "auto" : 3 });
+      const model = fitSurface(pts, { kernel, trend: "linear", smoothing: 0, shape: kernel === "thin-plate" ? "auto" : 3 });
       expect(model.diagnostics.smoothingChoice).toBe("given");
       const est = evaluateModel(model, pts.x, pts.y);
       for (let i = 0; i < pts.x.length; i++) expect(Math.abs(est[i] - pts.z[i])).toBeLessThan(1e-8);
@@ -69,7 +69,7 @@ describe("GCV and leave-one-out against brute force", () => {
     const pts = makePoints(n, 5, noisy);
     const r = mulberry32(9);
     for (let i = 0; i < n; i++) pts.z[i] += 0.6 * (r() - 0.5);
-    const model = fitSurface(pts, { kernel: "thin-plate", drift: "linear" });
+    const model = fitSurface(pts, { kernel: "thin-plate", trend: "linear" });
     expect(model.diagnostics.edf).toBeLessThan(n - 5); // a real smoothing fit, not interpolation
     // Build the bordered system in the model's scaled coordinates with ml-matrix and get A column by column.
     const { cx, cy, s } = model.scaling;
@@ -102,18 +102,18 @@ describe("GCV and leave-one-out against brute force", () => {
     expect(Math.abs(model.diagnostics.gcv - gcv) / gcv).toBeLessThan(1e-6);
   });
 
-  const looCases: [KernelName, DriftName, boolean][] = [
+  const looCases: [KernelName, TrendName, boolean][] = [
     ["gaussian", "constant", false],
     ["thin-plate", "linear", false],
     ["multiquadric", "quadratic", false],
     ["thin-plate", "linear", true],
   ];
-  for (const [kernel, drift, weighted] of looCases) it(`leave-one-out residuals from one factorisation equal residuals from actually refitting without each point (Rippa 1999): ${kernel}, ${drift}${weighted ? ", weighted" : ""}`, () => {
+  for (const [kernel, trend, weighted] of looCases) it(`leave-one-out residuals from one factorisation equal residuals from actually refitting without each point (Rippa 1999): ${kernel}, ${trend}${weighted ? ", weighted" : ""}`, () => {
     const n = 25;
     const pts = makePoints(n, 8, noisy);
     const lambda = 0.001;
     const weights = weighted ? Float64Array.from({ length: n }, (_, i) => 1 + (i % 3)) : undefined;
-    const opts = { kernel, drift, shape: 2.5, smoothing: lambda };
+    const opts = { kernel, trend, shape: 2.5, smoothing: lambda };
     const model = fitSurface(pts, { ...opts, weights });
     for (const i of [0, 7, 24]) {
       const keep = [...Array(n).keys()].filter((k) => k !== i);
@@ -148,7 +148,7 @@ describe("the two routes to the leave-one-out diagonal agree", () => {
     const pts = makePoints(40, 21, (x, y) => Math.sin(5 * x) + y * y);
     const { x, y, z } = pts;
     const u = Float64Array.from(x, (v) => 2 * v - 1), v = Float64Array.from(y, (w) => 2 * w - 1);
-    const fit = fitCore(u, v, z, 1, { kernel: "thin-plate", drift: "quadratic", epsilonScaled: 1, smoothing: 1e-3, lambdaToUser: 1 });
+    const fit = fitCore(u, v, z, 1, { kernel: "thin-plate", trend: "quadratic", epsilonScaled: 1, smoothing: 1e-3, lambdaToUser: 1 });
     const a = influenceComplementDiagonalCholesky(fit.state, fit.lambdaScaled)!;
     const b = influenceComplementDiagonal(fit.state, rotatedBasis(fit.state), fit.lambdaScaled);
     for (let i = 0; i < 40; i++) expect(Math.abs(a[i] - b[i])).toBeLessThan(1e-9 * Math.abs(b[i]) + 1e-12);
@@ -164,7 +164,7 @@ describe("Franke's function (Franke 1982): accuracy improves at the expected rat
   function errors(kernel: KernelName): number[] {
     const errs: number[] = [];
     for (const n of [50, 200, 800]) {
-      const model = fitSurface(makePoints(n, 100 + n, franke), { kernel, drift: "linear" });
+      const model = fitSurface(makePoints(n, 100 + n, franke), { kernel, trend: "linear" });
       const g = 30;
       const tx: number[] = [], ty: number[] = [];
       for (let i = 0; i < g; i++) for (let j = 0; j < g; j++) {
@@ -196,8 +196,8 @@ describe("invariance (a fit must not depend on where the origin is)", () => {
     const a = makePoints(150, 21, f, 0, 0, 1000);
     const b: CleanPoints = { ...a, x: a.x.map((v) => v + 5e5), y: a.y.map((v) => v + 6e6) };
     for (const kernel of ["thin-plate", "gaussian"] as KernelName[]) {
-      const ma = fitSurface(a, { kernel, drift: "linear" });
-      const mb = fitSurface(b, { kernel, drift: "linear" });
+      const ma = fitSurface(a, { kernel, trend: "linear" });
+      const mb = fitSurface(b, { kernel, trend: "linear" });
       const tx = [100, 500, 900], ty = [300, 500, 700];
       const ea = evaluateModel(ma, tx, ty);
       const eb = evaluateModel(mb, tx.map((v) => v + 5e5), ty.map((v) => v + 6e6));
@@ -216,15 +216,15 @@ describe("invariance (a fit must not depend on where the origin is)", () => {
 });
 
 describe("degenerate data is refused with a clear message", () => {
-  it("thin-plate without linear drift", () => {
-    expect(() => fitSurface(makePoints(20, 1, franke), { kernel: "thin-plate", drift: "constant" })).toThrow(/needs at least linear drift/);
+  it("thin-plate without linear trend", () => {
+    expect(() => fitSurface(makePoints(20, 1, franke), { kernel: "thin-plate", trend: "constant" })).toThrow(/needs at least linear trend/);
   });
-  it("all points on one line with linear drift", () => {
+  it("all points on one line with linear trend", () => {
     const p = makePoints(20, 1, franke);
     p.y = p.x.map((v) => 2 * v + 1);
-    expect(() => fitSurface(p, { kernel: "thin-plate", drift: "linear" })).toThrow(/do not support linear drift/);
+    expect(() => fitSurface(p, { kernel: "thin-plate", trend: "linear" })).toThrow(/do not support linear trend/);
   });
-  it("too few points for the drift", () => {
-    expect(() => fitSurface(makePoints(5, 1, franke), { kernel: "gaussian", drift: "quadratic", shape: 1 })).toThrow(/too few/);
+  it("too few points for the trend", () => {
+    expect(() => fitSurface(makePoints(5, 1, franke), { kernel: "gaussian", trend: "quadratic", shape: 1 })).toThrow(/too few/);
   });
 });

@@ -14,10 +14,10 @@ import { mulberry32 } from "../src/random.ts";
 import { makeEvaluator } from "../src/evaluate/evaluate.ts";
 import { gridModel } from "../src/evaluate/grid.ts";
 import { fitSurface } from "../src/fit/surface.ts";
-import { DRIFTS, KERNELS, minimumDrift } from "../src/fit/kernels.ts";
+import { TRENDS, KERNELS, minimumTrend } from "../src/fit/kernels.ts";
 import { modelFromJson, modelToJson, type SurfaceModel } from "../src/model/model.ts";
 import { parseNumber, parsePointTable } from "../src/read/points.ts";
-import type { DriftName, KernelName, PointTable } from "../src/types.ts";
+import type { TrendName, KernelName, PointTable } from "../src/types.ts";
 
 /** Runs per property (recorded here so the report and CI logs agree). */
 export const RUNS = { texts: 20000, tables: 15000, geojson: 10000, fits: 12000, models: 15000 } as const;
@@ -132,7 +132,7 @@ const messyTable = fc
     bom: fc.boolean(),
     header,
     rows: fc.array(fc.tuple(fc.array(cellText, { minLength: 7, maxLength: 7 }), fc.integer({ min: -30, max: 1 })), { maxLength: 12 }),
-    blankOrComment: fc.array(fc.nat(14), { maxLength: 3 }),
+    emptyOrComment: fc.array(fc.nat(14), { maxLength: 3 }),
     quoteAll: fc.boolean(),
     finalNewline: fc.boolean(),
   })
@@ -142,7 +142,7 @@ const messyTable = fc
     const width = (d: number) => Math.max(0, r.header.length + (d < -2 ? 0 : d));
     const rows = r.rows.map(([cells, d]) => cells.slice(0, width(d)));
     const lines = [r.header.map(cell).join(r.delimiter), ...rows.map((row) => row.map(cell).join(r.delimiter))];
-    for (const at of r.blankOrComment) lines.splice(Math.min(at, lines.length), 0, at % 2 ? "" : "# note");
+    for (const at of r.emptyOrComment) lines.splice(Math.min(at, lines.length), 0, at % 2 ? "" : "# note");
     return (r.bom ? "\uFEFF" : "") + lines.join(r.newline) + (r.finalNewline ? r.newline : "");
   });
 
@@ -325,14 +325,14 @@ const pointSet = fc
 const fitChoice = fc
   .record({
     kernel: fc.constantFrom<KernelName>(...KERNELS),
-    driftUp: fc.nat(3),
+    trendUp: fc.nat(3),
     shape: fc.oneof(fc.constant("auto" as const), fc.constantFrom(1e-6, 0.01, 1, 100, 1e6)),
     smoothing: fc.oneof(fc.constant("gcv" as const), fc.constantFrom(0, 1e-12, 1, 1e6)),
   })
   .map((o) => {
-    const lowest = DRIFTS.indexOf(minimumDrift(o.kernel));
-    const drift = DRIFTS[Math.min(DRIFTS.length - 1, lowest + o.driftUp)] as DriftName;
-    return { kernel: o.kernel, drift, shape: o.shape, smoothing: o.smoothing };
+    const lowest = TRENDS.indexOf(minimumTrend(o.kernel));
+    const trend = TRENDS[Math.min(TRENDS.length - 1, lowest + o.trendUp)] as TrendName;
+    return { kernel: o.kernel, trend, shape: o.shape, smoothing: o.smoothing };
   });
 
 /** Every number anywhere in a model record is finite (JSON would turn NaN/Infinity into null). */
@@ -358,7 +358,7 @@ describe("(b) read, clean, fit and evaluate random small point sets", () => {
         const model = resultOrRbfieldError(() => fitSurface(points, fit));
         if (!model) return;
         // Every number in the model is finite; a leave-one-out residual that does not exist (the
-        // other points cannot carry the drift) is stored as null, never as NaN or Infinity.
+        // other points cannot carry the trend) is stored as null, never as NaN or Infinity.
         expect(nonFiniteNumbers(model)).toEqual([]);
         const ev = makeEvaluator(model);
         const { xmin, ymin, xmax, ymax } = model.extent;

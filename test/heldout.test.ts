@@ -2,7 +2,7 @@
 // test/reference/open_data.R: MASS::topo (r-cran-mass; 52 spot heights, Davis 1973 as cited in ?topo)
 // and sp::meuse (r-cran-sp; 155 topsoil zinc readings in ppm, fitted on ln z).
 // 10-fold cross-validation, folds from a seeded shuffle, the same folds for every method:
-//   rbfield default (fitSurface(points, {})), rbfield thin-plate + linear drift, and R mgcv
+//   rbfield default (fitSurface(points, {})), rbfield thin-plate + linear trend, and R mgcv
 //   gam(z ~ s(x, y, bs = "tp"), method = "GCV.Cp") with its default k (bench/sweep/mgcv_sweep.R with
 //   k = NA). For meuse every method fits ln z and predicts exp(f + σ̂²/2) (rbfield: transform "log";
 //   mgcv: σ̂² = m$sig2); RMSE is in ppm against the observed readings, pooled over the folds.
@@ -108,7 +108,7 @@ describe.skipIf(skipR)("10-fold held-out RMSE on MASS::topo and sp::meuse agains
     });
     // 1 % slack: the default ranks candidates by GCV, a noisy estimate of prediction error, so a
     // candidate of equal skill may lose to the fixed thin-plate fit by a little on one set of folds.
-    it(`${name}: default no worse than the fixed thin-plate + linear drift fit (≤ 1.01 ×; same folds)`, () => {
+    it(`${name}: default no worse than the fixed thin-plate + linear trend fit (≤ 1.01 ×; same folds)`, () => {
       expect(rmses[name].default).toBeLessThanOrEqual(1.01 * rmses[name].thinPlate);
     });
     it(`${name}: default within 2 % of R mgcv's held-out RMSE (gam, bs = "tp", default k, GCV.Cp)`, () => {

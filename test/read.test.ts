@@ -131,7 +131,7 @@ describe("delimited text formats", () => {
     expect(t.lines).toEqual([2, 4]);
   });
 
-  it("skips blank lines and lines starting with '#'", () => {
+  it("skips empty lines and lines starting with '#'", () => {
     const text = "# survey 2024\n\nx,y,z\n# mid comment with a \"quote\n1,2,3\n\n   \n,,\n4,5,6\n# end\n";
     const t = parsePointTable(text, "c.csv");
     expect(t.rows).toEqual([["1", "2", "3"], ["4", "5", "6"]]);

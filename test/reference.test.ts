@@ -11,7 +11,7 @@ import { describe, expect, it } from "vitest";
 import { readFileSync } from "node:fs";
 import { fitSurface } from "../src/fit/surface.ts";
 import { evaluateModel } from "../src/evaluate/evaluate.ts";
-import type { CleanPoints, DriftName, KernelName } from "../src/types.ts";
+import type { CleanPoints, TrendName, KernelName } from "../src/types.ts";
 
 const FIXTURES = new URL("./reference/fixtures/", import.meta.url);
 
@@ -19,14 +19,14 @@ interface ScipyCase {
   label: string;
   kernel: KernelName;
   shape: number | null;
-  drift: DriftName;
+  trend: TrendName;
   degree: number;
   smoothing: number;
   estimates: number[];
   edf: number;
   condition: number;
   selfCheck: number;
-  /** Drift none only: scipy (degree −1) on z − mean(z), plus mean(z). */
+  /** Trend none only: scipy (degree −1) on z − mean(z), plus mean(z). */
   estimatesMeanRemoved?: number[];
   edfMeanRemoved?: number;
 }
@@ -104,7 +104,7 @@ describe("RBF fits with fixed settings match scipy.interpolate.RBFInterpolator (
         const fit = () =>
           fitSurface(cleanPoints(fx.points), {
             kernel: c.kernel,
-            drift: c.drift,
+            trend: c.trend,
             shape: c.shape ?? "auto",
             smoothing: c.smoothing,
           });
@@ -114,7 +114,7 @@ describe("RBF fits with fixed settings match scipy.interpolate.RBFInterpolator (
           expect(model.diagnostics.smoothingChoice).toBe("given");
           expect(Math.abs(model.lambda - c.smoothing)).toBeLessThanOrEqual(1e-12 * c.smoothing);
           const est = evaluateModel(model, fx.test.x, fx.test.y);
-          // Drift "none" is scipy's degree = −1: f = Σ wᵢ φ fitted to z itself, falling to 0 away from the data.
+          // Trend "none" is scipy's degree = −1: f = Σ wᵢ φ fitted to z itself, falling to 0 away from the data.
           expect(maxRelDiff(est, c.estimates, zRange)).toBeLessThan(SCIPY_TOL);
           // edf = tr(A_λ), from the fixture's independent numpy solve of the same system.
           expect(Math.abs(model.diagnostics.edf - c.edf)).toBeLessThan(1e-6 * c.edf);
@@ -133,7 +133,7 @@ describe("RBF fits with fixed settings match scipy.interpolate.RBFInterpolator (
       it(`${c.label} (scipy ${fx.scipyVersion}, unshifted)`, () => {
         const model = fitSurface(cleanPoints(fx.points, dx, dy), {
           kernel: c.kernel,
-          drift: c.drift,
+          trend: c.trend,
           shape: c.shape ?? "auto",
           smoothing: c.smoothing,
         });
@@ -165,7 +165,7 @@ describe("GCV thin-plate smoothing spline matches mgcv (R mgcv 1.8-41, bs = \"tp
     const n = fx.points.x.length;
     const zRange = range(fx.points.z);
     describe(`${fx.dataset} (${n} points; ${fx.source})`, () => {
-      const model = fitSurface(cleanPoints(fx.points), { kernel: "thin-plate", drift: "linear", smoothing: "gcv" });
+      const model = fitSurface(cleanPoints(fx.points), { kernel: "thin-plate", trend: "linear", smoothing: "gcv" });
       it("the fixture was made with mgcv 1.8-41 at full rank (k = N)", () => {
         expect(fx.mgcvVersion).toBe("1.8.41");
         expect(fx.k).toBe(n);

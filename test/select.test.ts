@@ -1,4 +1,4 @@
-// Model selection, error bars, transforms, weights, anisotropy and blunder flags, each checked
+// Model selection, error bars, transforms, weights, the stretch and blunder flags, each checked
 // against an outside source: explicit formulas evaluated with ml-matrix (general-purpose linear
 // algebra library), analytic facts, or equivalences stated beside the check.
 import { describe, expect, it } from "vitest";
@@ -14,7 +14,7 @@ import { gaussian, mulberry32 } from "../src/random.ts";
 const gaussNoise = (seed: number) => gaussian(mulberry32(seed));
 
 /**
- * Universal-kriging / GP variance with a vague prior on the drift (Rasmussen & Williams 2006,
+ * Universal-kriging / GP variance with a vague prior on the trend (Rasmussen & Williams 2006,
  * eq. 2.42): V = b[φ(0) − k*ᵀA⁻¹k* + Rᵀ(H A⁻¹ Hᵀ)⁻¹R], A = K + λΩ⁻¹, R = h* − H A⁻¹ k*,
  * written out here with ml-matrix in the model's scaled coordinates.
  */
@@ -47,9 +47,9 @@ describe("standard error of the estimate (universal kriging variance; Rasmussen 
     for (let i = 0; i < n; i++) p.z[i] += 0.05 * g();
     return p;
   };
-  it("Gaussian kernel with constant drift matches the GP formula", () => {
+  it("Gaussian kernel with constant trend matches the GP formula", () => {
     const pts = noisy(3, 60);
-    const model = fitSurface(pts, { kernel: "gaussian", drift: "constant", shape: 3 });
+    const model = fitSurface(pts, { kernel: "gaussian", trend: "constant", shape: 3 });
     const se = makeErrorEstimator(model);
     const e2 = model.internal.epsilonScaled ** 2;
     for (const [x, y] of [[0.5, 0.5], [0.05, 0.9], [1.2, 1.1]]) {
@@ -57,9 +57,9 @@ describe("standard error of the estimate (universal kriging variance; Rasmussen 
       expect(Math.abs(se.at(x, y) - ref)).toBeLessThan(1e-7 * ref + 1e-12);
     }
   });
-  it("thin-plate spline with linear drift matches the same formula (power function with drift constraints)", () => {
+  it("thin-plate spline with linear trend matches the same formula (power function with trend constraints)", () => {
     const pts = noisy(4, 50);
-    const model = fitSurface(pts, { kernel: "thin-plate", drift: "linear" });
+    const model = fitSurface(pts, { kernel: "thin-plate", trend: "linear" });
     const se = makeErrorEstimator(model);
     for (const [x, y] of [[0.3, 0.6], [0.95, 0.05]]) {
       const ref = referenceStdError(model, (r2) => (r2 > 0 ? 0.5 * r2 * Math.log(r2) : 0), (u, v) => [1, u, v], x, y, se.processScale);
@@ -69,7 +69,7 @@ describe("standard error of the estimate (universal kriging variance; Rasmussen 
   it("weighted fit (noise variance σ²/ωᵢ) matches the formula with A = K + λΩ⁻¹", () => {
     const pts = noisy(5, 40);
     const weights = Float64Array.from({ length: 40 }, (_, i) => (i % 3 === 0 ? 4 : 1));
-    const model = fitSurface(pts, { kernel: "inverse-multiquadric", drift: "linear", shape: 2, weights });
+    const model = fitSurface(pts, { kernel: "inverse-multiquadric", trend: "linear", shape: 2, weights });
     const se = makeErrorEstimator(model);
     const e2 = model.internal.epsilonScaled ** 2;
     const ref = referenceStdError(model, (r2) => 1 / Math.sqrt(1 + e2 * r2), (u, v) => [1, u, v], 0.4, 0.4, se.processScale);
@@ -77,7 +77,7 @@ describe("standard error of the estimate (universal kriging variance; Rasmussen 
   });
   it("an interpolating fit has zero error at the data and more error far from it (kriging is exact at data points)", () => {
     const pts = makePoints(40, 6, franke);
-    const model = fitSurface(pts, { kernel: "thin-plate", drift: "linear", smoothing: 0 });
+    const model = fitSurface(pts, { kernel: "thin-plate", trend: "linear", smoothing: 0 });
     const se = makeErrorEstimator(model);
     const scale = Math.sqrt(se.processScale) * model.scaling.zs;
     for (let i = 0; i < 5; i++) expect(se.at(pts.x[i], pts.y[i])).toBeLessThan(1e-5 * scale);
@@ -92,17 +92,17 @@ describe("automatic kernel selection (--kernel auto)", () => {
     for (let i = 0; i < p.x.length; i++) p.z[i] += 0.02 * g();
     return p;
   })();
-  it("--select gcv ranks every kernel with the drifts it supports, best GCV first, and fits the winner", () => {
+  it("--select gcv ranks every kernel with the trends it supports, best GCV first, and fits the winner", () => {
     const model = fitSurface(pts, { kernel: "auto", select: "gcv" });
     const sel = model.diagnostics.selection!;
     expect(sel.by).toBe("gcv");
-    // 4 kernels × 2 drifts each (thin-plate linear/quadratic, the others constant/linear).
+    // 4 kernels × 2 trends each (thin-plate linear/quadratic, the others constant/linear).
     expect(sel.ranking).toHaveLength(8);
     const eligible = sel.ranking.filter((c) => !c.excluded);
     for (let i = 1; i < eligible.length; i++) expect(eligible[i].gcv).toBeGreaterThanOrEqual(eligible[i - 1].gcv);
     expect(sel.ranking[0].chosen).toBe(true);
     expect(model.kernel).toBe(sel.ranking[0].kernel);
-    expect(model.drift).toBe(sel.ranking[0].drift);
+    expect(model.trend).toBe(sel.ranking[0].trend);
     expect(model.diagnostics.gcv).toBeCloseTo(sel.ranking[0].gcv, 12);
     // The winner's GCV is no worse than the thin-plate spline fitted alone (an eligible candidate here).
     expect(model.diagnostics.gcv).toBeLessThanOrEqual(fitSurface(pts, { kernel: "thin-plate" }).diagnostics.gcv + 1e-15);
@@ -124,7 +124,7 @@ describe("automatic kernel selection (--kernel auto)", () => {
 });
 
 describe("log transform (--transform log)", () => {
-  it("z = exp(plane) is reproduced exactly: ln z is in the linear drift space and σ = 0 (analytic)", () => {
+  it("z = exp(plane) is reproduced exactly: ln z is in the linear trend space and σ = 0 (analytic)", () => {
     const f = (x: number, y: number) => Math.exp(1 + 0.5 * x - 0.8 * y);
     const pts = makePoints(40, 9, f);
     const model = fitSurface(pts, { transform: "log" });
@@ -137,7 +137,7 @@ describe("log transform (--transform log)", () => {
     const g = gaussNoise(10);
     const pts = makePoints(80, 10, (x, y) => Math.exp(2 + x));
     for (let i = 0; i < pts.z.length; i++) pts.z[i] *= Math.exp(0.3 * g());
-    const model = fitSurface(pts, { kernel: "thin-plate", transform: "log", smoothing: 1e6 }); // heavy smoothing: ln f ≈ the drift plane
+    const model = fitSurface(pts, { kernel: "thin-plate", transform: "log", smoothing: 1e6 }); // heavy smoothing: ln f ≈ the trend plane
     const sigma = model.diagnostics.sigma;
     const logModel = { ...model, transform: "none" as const };
     const e = evaluateModel(model, [0.5], [0.5])[0];
@@ -160,7 +160,7 @@ describe("observation weights (--weight)", () => {
     for (let i = 0; i < 30; i++) pts.z[i] += 0.1 * g();
     const omega = Float64Array.from({ length: 30 }, (_, i) => 0.5 + (i % 4));
     const lambda = 0.05;
-    const model = fitSurface(pts, { kernel: "gaussian", drift: "linear", shape: 2, smoothing: lambda, weights: omega });
+    const model = fitSurface(pts, { kernel: "gaussian", trend: "linear", shape: 2, smoothing: lambda, weights: omega });
     const mean = omega.reduce((a, b) => a + b) / 30;
     const n = 30, m = 3, eps2 = 4;
     const M = Matrix.zeros(n + m, n + m);
@@ -192,17 +192,17 @@ describe("observation weights (--weight)", () => {
   });
 });
 
-describe("anisotropy (--anisotropy AZ,RATIO)", () => {
+describe("stretch (--stretch AZIMUTH:FACTOR)", () => {
   it("equals an isotropic fit on coordinates rotated and stretched by hand (geometric anisotropy; common practice in geostatistics)", () => {
     const az = 30, ratio = 3;
     const pts = makePoints(60, 14, (x, y) => Math.sin(4 * (x * Math.sin(0.5236) + y * Math.cos(0.5236))));
-    const a = fitSurface(pts, { kernel: "gaussian", drift: "linear", shape: 1.5, smoothing: 1e-4, anisotropy: { azimuth: az, ratio } });
+    const a = fitSurface(pts, { kernel: "gaussian", trend: "linear", shape: 1.5, smoothing: 1e-4, stretch: { azimuth: az, factor: ratio } });
     // The same transform written independently: along = d·(sin θ, cos θ), across = ratio·d·(cos θ, −sin θ).
     const th = (az * Math.PI) / 180;
-    const cx = a.anisotropy!.x0, cy = a.anisotropy!.y0;
+    const cx = a.stretch!.x0, cy = a.stretch!.y0;
     const tr = (x: number, y: number) => [(x - cx) * Math.sin(th) + (y - cy) * Math.cos(th), ratio * ((x - cx) * Math.cos(th) - (y - cy) * Math.sin(th))];
     const t: CleanPoints = { ...pts, x: pts.x.map((x, i) => tr(x, pts.y[i])[0]), y: pts.x.map((x, i) => tr(x, pts.y[i])[1]) };
-    const b = fitSurface(t, { kernel: "gaussian", drift: "linear", shape: 1.5, smoothing: 1e-4 });
+    const b = fitSurface(t, { kernel: "gaussian", trend: "linear", shape: 1.5, smoothing: 1e-4 });
     for (const [x, y] of [[0.3, 0.3], [0.7, 0.2]]) {
       const [tx, ty] = tr(x, y);
       expect(evaluateModel(a, [x], [y])[0]).toBeCloseTo(evaluateModel(b, [tx], [ty])[0], 8);

@@ -23,7 +23,7 @@ export interface RbfieldRun {
   est: Float64Array;
   se: Float64Array;
   kernel: string;
-  drift: string;
+  trend: string;
   /** The fit or the error estimator threw. */
   error?: string;
 }
@@ -41,7 +41,7 @@ export interface MgcvRun {
 
 type FitOptions = NonNullable<Parameters<typeof fitSurface>[1]>;
 
-export const FIXED_TP: FitOptions = { kernel: "thin-plate", drift: "linear" };
+export const FIXED_TP: FitOptions = { kernel: "thin-plate", trend: "linear" };
 
 export function cleanPoints(t: FitCase["train"]): CleanPoints {
   const n = t.x.length;
@@ -59,9 +59,9 @@ export function runRbfield(c: FitCase, options: FitOptions): RbfieldRun {
       est[i] = ev.at(c.test.x[i], c.test.y[i]);
       se[i] = er.at(c.test.x[i], c.test.y[i]);
     }
-    return { est, se, kernel: model.kernel, drift: model.drift };
+    return { est, se, kernel: model.kernel, trend: model.trend };
   } catch (e) {
-    return { est, se, kernel: "-", drift: "-", error: String((e as Error).message ?? e) };
+    return { est, se, kernel: "-", trend: "-", error: String((e as Error).message ?? e) };
   }
 }
 
@@ -142,7 +142,7 @@ export interface CaseResult {
   ratioDefault: number;
   ratioTp: number;
   kernel: string;
-  drift: string;
+  trend: string;
   rbError?: string;
   mgcvStatus: string;
   mgcvMessage: string;
@@ -169,7 +169,7 @@ export interface SweepRun {
   rLog: string;
 }
 
-/** rbfield default (and, if asked, fixed thin-plate + linear drift) and mgcv (k = min(30, N)) on every case. */
+/** rbfield default (and, if asked, fixed thin-plate + linear trend) and mgcv (k = min(30, N)) on every case. */
 export async function runSweep(cases: SweepCase[], opts: { thinPlate: boolean; progress?: (s: string) => void }): Promise<SweepRun> {
   const mgcv = runMgcv(cases, (c) => Math.min(30, c.train.x.length));
   mgcv.catch(() => {}); // awaited below; avoids an unhandled rejection while rbfield runs
@@ -202,7 +202,7 @@ export async function runSweep(cases: SweepCase[], opts: { thinPlate: boolean; p
       ratioDefault: ratio(rmseDefault, rmseMgcv, truth),
       ratioTp: ratio(rmseTp, rmseMgcv, truth),
       kernel: def.kernel,
-      drift: def.drift,
+      trend: def.trend,
       rbError: def.error ?? tp?.error,
       mgcvStatus: mg.status,
       mgcvMessage: mg.message,
@@ -233,7 +233,7 @@ export interface Summary {
   /** Cases with a negative, non-finite or all-zero standard error, or an rbfield error. */
   seBad: number;
   rbErrors: number;
-  /** "kernel/drift" the default chose → number of cases. */
+  /** "kernel/trend" the default chose → number of cases. */
   chosen: Map<string, number>;
 }
 
@@ -253,7 +253,7 @@ export function summarise(rows: CaseResult[]): Summary {
     pts += r.c.test.truth.length;
   }
   const chosen = new Map<string, number>();
-  for (const r of rows) chosen.set(`${r.kernel}/${r.drift}`, (chosen.get(`${r.kernel}/${r.drift}`) ?? 0) + 1);
+  for (const r of rows) chosen.set(`${r.kernel}/${r.trend}`, (chosen.get(`${r.kernel}/${r.trend}`) ?? 0) + 1);
   return {
     cases: rows.length,
     compared: ok.length,

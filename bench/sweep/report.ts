@@ -79,7 +79,7 @@ export function worstCases(rows: CaseResult[], k = 10): string {
     .map((r) => {
       const c = r.c;
       return `${c.id.padEnd(40)} design=${c.design} surface=${c.surface} noise=${c.noise}${c.log ? " (log)" : ""} N=${c.n} ${c.coords}: ` +
-        `RMSE default ${g(r.rmseDefault)} (${r.kernel}/${r.drift}), ` +
+        `RMSE default ${g(r.rmseDefault)} (${r.kernel}/${r.trend}), ` +
         (Number.isNaN(r.rmseTp) ? "" : `thin-plate ${g(r.rmseTp)}, `) +
         `mgcv ${g(r.rmseMgcv)}; ratio ${r.ratioDefault.toFixed(2)}` + (Number.isNaN(r.ratioTp) ? "" : `, tp ratio ${f2(r.ratioTp)}`);
     })

@@ -1,4 +1,4 @@
-// deno task sweep [-- --size test|full]: rbfield's default fit and a fixed thin-plate + linear drift
+// deno task sweep [-- --size test|full]: rbfield's default fit and a fixed thin-plate + linear trend
 // fit against R's mgcv (gam, bs = "tp", k = min(30, N), GCV.Cp) on the seeded cases of
 // bench/sweep/cases.ts (default size "full"). Prints the grouped table, the Markdown version and
 // the 10 worst cases. A report, not a pass/fail test (test/sweep.test.ts asserts the targets).

@@ -1,6 +1,6 @@
 // Evaluate a fitted surface: f(x) = zc + zs·(Σᵢ wᵢ φ(‖u − uᵢ‖²) + Σⱼ cⱼ pⱼ(u)), u = (x − c)/s.
-import { driftRow, kernelOfSquared } from "../fit/kernels.ts";
-import { anisotropyMap } from "../geometry.ts";
+import { trendRow, kernelOfSquared } from "../fit/kernels.ts";
+import { stretchMap } from "../geometry.ts";
 import type { SurfaceModel } from "../model/model.ts";
 
 /** A model prepared for fast repeated evaluation (scaled centres as typed arrays). */
@@ -11,17 +11,17 @@ export interface Evaluator {
   many(x: ArrayLike<number>, y: ArrayLike<number>, out?: Float64Array): Float64Array;
 }
 
-/** Map coordinates → scaled model coordinates (anisotropy, then centring and scaling). */
+/** Map coordinates → scaled model coordinates (the stretch, then centring and scaling). */
 export function coordinateMapper(model: SurfaceModel): (x: number, y: number, out: Float64Array) => void {
   const { cx, cy, s } = model.scaling;
-  const an = model.anisotropy;
+  const an = model.stretch;
   if (!an) {
     return (x, y, out) => {
       out[0] = (x - cx) / s;
       out[1] = (y - cy) / s;
     };
   }
-  const rotate = anisotropyMap(an);
+  const rotate = stretchMap(an);
   return (x, y, out) => {
     rotate(x, y, out);
     out[0] = (out[0] - cx) / s;
@@ -53,7 +53,7 @@ export function makeEvaluator(model: SurfaceModel): Evaluator {
   // residual variance in log units (common practice; e.g. Aitchison & Brown 1957).
   const logBias = model.transform === "log" ? Math.exp(0.5 * model.diagnostics.sigma ** 2) : 1;
   const w = Float64Array.from(model.weights);
-  const c = Float64Array.from(model.driftCoefficients);
+  const c = Float64Array.from(model.trendCoefficients);
   const m = c.length;
   const row = new Float64Array(Math.max(m, 1));
   const eps = model.internal.epsilonScaled;
@@ -106,7 +106,7 @@ export function makeEvaluator(model: SurfaceModel): Evaluator {
     map(x, y, uv);
     const u = uv[0], v = uv[1];
     let f = radial(u, v);
-    driftRow(u, v, m, row);
+    trendRow(u, v, m, row);
     for (let j = 0; j < m; j++) f += c[j] * row[j];
     return zc + zs * f;
   };

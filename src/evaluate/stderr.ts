@@ -1,21 +1,21 @@
 // Standard error of the surface estimate, from the same linear algebra as the fit.
 //
-// View the fit as kriging with a generalised covariance b·φ, unknown drift coefficients (flat prior)
+// View the fit as kriging with a generalised covariance b·φ, unknown trend coefficients (flat prior)
 // and measurement noise of variance b·λ/ωᵢ (Wahba 1978, 1990 §5; Kimeldorf & Wahba 1970). The error
 // variance of the estimate f̂(x) of the true surface is the universal-kriging variance with the noise
 // as a nugget:
 //     Var[f(x) − f̂(x)] = b · (φ(0) − sᵀ M⁻¹ s),  s = [k(x); p(x)],  M = [K + λΩ⁻¹, P; Pᵀ, 0]
-// (Cressie 1993, §3.4; Rasmussen & Williams 2006, eq. 2.42 with a vague prior on the drift;
-// for conditionally positive definite kernels this is the power function with the drift
+// (Cressie 1993, §3.4; Rasmussen & Williams 2006, eq. 2.42 with a vague prior on the trend;
+// for conditionally positive definite kernels this is the power function with the trend
 // constraints, Wendland 2005 ch. 11, Fasshauer 2007 ch. 14). The scale b is estimated by maximum
-// likelihood of the drift-free contrasts, b̂ = ỹᵀw̃/(N − m) (processScale in fit.ts; b̂·λ is Wahba's
+// likelihood of the trend-free contrasts, b̂ = ỹᵀw̃/(N − m) (processScale in fit.ts; b̂·λ is Wahba's
 // 1985 GML variance). It is the same formula for every λ, so it does not vanish when the fit
 // interpolates (λ → 0), where the error is zero at the readings and grows between them.
 // Assumptions: the kernel describes the surface's spatial correlation, errors are independent with
-// the stated weights, and the model (kernel, shape, drift) is right. The figure is a model-based
+// the stated weights, and the model (kernel, shape, trend) is right. The figure is a model-based
 // error of the surface, not a survey tolerance; a new reading at x would scatter by a further σ.
 import { borderedInverse, borderedQuadratic, fitCore, processScale } from "../fit/fit.ts";
-import { driftRow, driftTerms, kernelOfSquared } from "../fit/kernels.ts";
+import { trendRow, trendTerms, kernelOfSquared } from "../fit/kernels.ts";
 import type { SurfaceModel } from "../model/model.ts";
 import type { GridValues } from "../types.ts";
 import { coordinateMapper, makeEvaluator, scaledCentres } from "./evaluate.ts";
@@ -37,14 +37,14 @@ export function makeErrorEstimator(model: SurfaceModel): ErrorEstimator {
   const lambda = model.internal.lambdaScaled;
   const fit = fitCore(u, v, y, zs, {
     kernel: model.kernel,
-    drift: model.drift,
+    trend: model.trend,
     epsilonScaled: model.internal.epsilonScaled,
     smoothing: lambda,
     lambdaToUser: 1,
     sqrtWeights: sqrtW,
   });
   const inv = borderedInverse(fit, u, v);
-  const m = driftTerms(model.drift);
+  const m = trendTerms(model.trend);
   const b = processScale(fit.state);
   const phi = kernelOfSquared(model.kernel, model.internal.epsilonScaled);
   const phi0 = phi(0);
@@ -59,7 +59,7 @@ export function makeErrorEstimator(model: SurfaceModel): ErrorEstimator {
       const du = uv[0] - u[i], dv = uv[1] - v[i];
       k[i] = phi(du * du + dv * dv) * (sqrtW ? sqrtW[i] : 1);
     }
-    driftRow(uv[0], uv[1], m, p);
+    trendRow(uv[0], uv[1], m, p);
     const q = borderedQuadratic(inv, k, p);
     const se = zs * Math.sqrt(Math.max(b * (phi0 - q), 0));
     if (!estimate) return se;

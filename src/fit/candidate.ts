@@ -1,8 +1,8 @@
-// One candidate model: a kernel and drift fitted with its shape and smoothing chosen by GCV, and
+// One candidate model: a kernel and trend fitted with its shape and smoothing chosen by GCV, and
 // scored by GCV and exact leave-one-out error for the selection.
 import { ExitCode, RbfieldError } from "../errors.ts";
 import type { RankedCandidate } from "../model/model.ts";
-import type { DriftName, KernelName } from "../types.ts";
+import type { TrendName, KernelName } from "../types.ts";
 import { fitCore, type KernelFit, leaveOneOutResiduals, type Scaling } from "./fit.ts";
 import { hasShape } from "./kernels.ts";
 import { goldenSection } from "./minimise.ts";
@@ -22,31 +22,31 @@ export interface FittedCandidate {
   lambdaToUser: number;
 }
 
-/** Fit one kernel and drift (choosing the shape when asked; on a subsample when N is large). */
+/** Fit one kernel and trend (choosing the shape when asked; on a subsample when N is large). */
 export function fitOne(
   prep: Prepared,
   kernel: KernelName,
-  drift: DriftName,
+  trend: TrendName,
   shapeOpt: "auto" | number,
   smoothing: "gcv" | number,
   progress?: (m: string) => void,
 ): FittedCandidate {
   const { n, values } = prep;
-  // Values are centred unless the drift is none (centring would act as a hidden constant drift).
+  // Values are centred unless the trend is none (centring would act as a hidden constant trend).
   let zc = 0;
-  if (drift !== "none") {
+  if (trend !== "none") {
     for (let i = 0; i < n; i++) zc += values[i] / n;
   }
   let ss = 0;
   for (let i = 0; i < n; i++) ss += (values[i] - zc) ** 2;
   const zs = Math.sqrt(ss / n) || 1;
   const yv = Float64Array.from(values, (z) => (z - zc) / zs);
-  // λ in map units: the thin-plate kernel scales as s² (the r² log s part lies in the drift's
+  // λ in map units: the thin-plate kernel scales as s² (the r² log s part lies in the trend's
   // null space); the shape kernels are unchanged when ε is scaled with the coordinates.
   const lambdaToUser = kernel === "thin-plate" ? prep.s * prep.s : 1;
   const smoothingScaled = smoothing === "gcv" ? "gcv" as const : smoothing / lambdaToUser;
   const run = (epsilonScaled: number, data: Prepared = prep, yy: Float64Array = yv) =>
-    fitCore(data.u, data.v, yy, zs, { kernel, drift, epsilonScaled, smoothing: smoothingScaled, lambdaToUser, sqrtWeights: data.sqrtW });
+    fitCore(data.u, data.v, yy, zs, { kernel, trend, epsilonScaled, smoothing: smoothingScaled, lambdaToUser, sqrtWeights: data.sqrtW });
   let fit: KernelFit;
   if (!hasShape(kernel)) fit = run(1);
   else if (shapeOpt !== "auto") fit = run(shapeOpt * prep.s);
@@ -132,27 +132,27 @@ export function looStatistics(loo: ArrayLike<number>): { rmse: number; se: numbe
 /** Candidates grouped by kernel, in candidate order (the shape search is shared within a group). */
 export interface KernelGroup {
   kernel: KernelName;
-  drifts: DriftName[];
+  trends: TrendName[];
 }
 
 /**
- * Score one kernel with each of its drifts: GCV, edf and exact leave-one-out RMSE. The shape is
- * searched once (with the first drift) and reused for the others: the GCV-best shape barely moves
- * with the drift, and the search is most of the cost. Candidates that cannot be fitted are left out.
+ * Score one kernel with each of its trends: GCV, edf and exact leave-one-out RMSE. The shape is
+ * searched once (with the first trend) and reused for the others: the GCV-best shape barely moves
+ * with the trend, and the search is most of the cost. Candidates that cannot be fitted are left out.
  */
 export function rankGroup(data: Prepared, group: KernelGroup, shapeOpt: "auto" | number, smoothing: "gcv" | number, progress?: (m: string) => void): CandidateScore[] {
   const rows: CandidateScore[] = [];
   let shape: "auto" | number = shapeOpt;
-  for (const drift of group.drifts) {
-    progress?.(`trying ${group.kernel} with ${drift} drift`);
+  for (const trend of group.trends) {
+    progress?.(`trying ${group.kernel} with ${trend} trend`);
     try {
-      const f = fitOne(data, group.kernel, drift, shape, smoothing, progress);
+      const f = fitOne(data, group.kernel, trend, shape, smoothing, progress);
       if (hasShape(group.kernel) && shapeOpt === "auto") shape = f.fit.epsilonScaled / data.s;
       const stats = looStatistics(leaveOneOutResiduals(f.fit, f.zs));
       if (stats.count === 0) continue; // no point can be left out: nothing to rank this candidate by
       rows.push({
         kernel: group.kernel,
-        drift,
+        trend,
         shape: hasShape(group.kernel) ? f.fit.epsilonScaled / data.s : null,
         lambda: f.fit.lambdaScaled * f.lambdaToUser,
         edf: f.fit.edf,

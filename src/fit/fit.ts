@@ -1,9 +1,9 @@
-// Fit and select: RBF regression with polynomial drift, smoothing chosen by GCV.
+// Fit and select: RBF regression with polynomial trend, smoothing chosen by GCV.
 //
 // Model (Wahba 1990, ch. 2; Fasshauer 2007, ch. 19):
 //   f(x) = Σᵢ wᵢ φ(‖x − xᵢ‖) + Σⱼ cⱼ pⱼ(x),   (K + λI) w + P c = y,   Pᵀ w = 0.
 // With P = Q [R; 0] and Q = [Q₁ Q₂], w = Q₂ (B + λI)⁻¹ Q₂ᵀ y where B = Q₂ᵀ K Q₂ (positive definite
-// for a kernel that is conditionally positive definite of the drift's order). B is reduced once to
+// for a kernel that is conditionally positive definite of the trend's order). B is reduced once to
 // tridiagonal form T = Hᵀ B H; then for every λ
 //   residual y − f = λ w,  ‖y − f‖² = λ² ‖(T + λI)⁻¹ h‖²,  h = Hᵀ Q₂ᵀ y,
 //   tr(I − A_λ) = Σₖ λ / (μₖ + λ)  (μₖ the eigenvalues of B),
@@ -12,9 +12,9 @@
 // Leave-one-out residuals: eᵢ = wᵢ / Gᵢᵢ with G = Q₂ (B + λI)⁻¹ Q₂ᵀ, the upper-left block of the
 // inverse of the bordered system (Rippa 1999 for λ = 0; the same identity eᵢ = rᵢ / (1 − Aᵢᵢ) for λ > 0).
 import { ExitCode, RbfieldError } from "../errors.ts";
-import type { DriftName, KernelName } from "../types.ts";
+import type { TrendName, KernelName } from "../types.ts";
 import { boundingBox } from "../geometry.ts";
-import { driftRow, driftTerms, hasShape, minimumDrift, weightedKernelMatrix } from "./kernels.ts";
+import { trendRow, trendTerms, hasShape, minimumTrend, weightedKernelMatrix } from "./kernels.ts";
 import { goldenSection } from "./minimise.ts";
 import {
   applyReflector,
@@ -82,8 +82,8 @@ export function computeScaling(x: Float64Array, y: Float64Array, z: Float64Array
   const cy = 0.5 * (ymin + ymax);
   // One scale for both axes keeps distances isotropic.
   const s = Math.max(0.5 * (xmax - xmin), 0.5 * (ymax - ymin)) || 1;
-  // With no drift the surface must fall to 0 away from the data (f = Σ wᵢ φ), so values are
-  // only scaled, not centred; centring would act as a hidden constant drift.
+  // With no trend the surface must fall to 0 away from the data (f = Σ wᵢ φ), so values are
+  // only scaled, not centred; centring would act as a hidden constant trend.
   const zc = centreValues ? zsum / n : 0;
   let ss = 0;
   for (let i = 0; i < n; i++) ss += (z[i] - zc) ** 2;
@@ -101,10 +101,10 @@ export interface GcvPoint {
   edf: number;
 }
 
-/** Everything the fit of one kernel/shape/drift produces, in scaled units unless stated. */
+/** Everything the fit of one kernel/shape/trend produces, in scaled units unless stated. */
 export interface KernelFit {
   kernel: KernelName;
-  drift: DriftName;
+  trend: TrendName;
   /** Shape ε in scaled units (1 for the thin-plate spline, which has none). */
   epsilonScaled: number;
   /** λ in scaled units (added to the diagonal of the scaled kernel matrix). */
@@ -116,7 +116,7 @@ export interface KernelFit {
   weights: Float64Array;
   /** Residuals y − f at the data (scaled value units). */
   residual: Float64Array;
-  driftCoefficients: Float64Array;
+  trendCoefficients: Float64Array;
   /** GCV score, in squared value units. */
   gcv: number;
   edf: number;
@@ -134,7 +134,7 @@ export interface KernelFit {
 /** Factorisation pieces reused after λ is chosen. */
 export interface FitState {
   n: number; // N points
-  m: number; // drift terms
+  m: number; // trend terms
   r: Float64Array; // m×m upper-triangular factor of (weighted) P
   sqrtW?: Float64Array;
   wTilde: Float64Array; // weights of the transformed system
@@ -151,7 +151,7 @@ export interface FitState {
 
 export interface CoreOptions {
   kernel: KernelName;
-  drift: DriftName;
+  trend: TrendName;
   epsilonScaled: number;
   /** "gcv" or λ in scaled units. */
   smoothing: "gcv" | number;
@@ -164,22 +164,22 @@ export interface CoreOptions {
   sqrtWeights?: Float64Array;
 }
 
-/** Fit one kernel, shape and drift to scaled coordinates (u, v) and scaled values y. */
+/** Fit one kernel, shape and trend to scaled coordinates (u, v) and scaled values y. */
 export function fitCore(u: Float64Array, v: Float64Array, y: Float64Array, zs: number, opts: CoreOptions): KernelFit {
   const n = u.length;
-  const m = driftTerms(opts.drift);
+  const m = trendTerms(opts.trend);
   if (n < m + 1) {
     throw new RbfieldError(
-      `${n} points are too few for ${opts.drift} drift (${m} terms): at least ${m + 1} are needed`,
+      `${n} points are too few for ${opts.trend} trend (${m} terms): at least ${m + 1} are needed`,
       ExitCode.input,
     );
   }
   const warnings: string[] = [];
-  // Drift basis and its QR factorisation.
+  // Trend basis and its QR factorisation.
   const p = new Float64Array(n * m);
   const row = new Float64Array(Math.max(m, 1));
   for (let i = 0; i < n; i++) {
-    driftRow(u[i], v[i], m, row);
+    trendRow(u[i], v[i], m, row);
     const di = opts.sqrtWeights ? opts.sqrtWeights[i] : 1;
     for (let j = 0; j < m; j++) p[i * m + j] = row[j] * di;
   }
@@ -189,8 +189,8 @@ export function fitCore(u: Float64Array, v: Float64Array, y: Float64Array, zs: n
   for (let j = 0; j < m; j++) {
     if (Math.abs(r[j * m + j]) <= 1e-10 * rmax * Math.sqrt(n)) {
       throw new RbfieldError(
-        `the points do not support ${opts.drift} drift (they lie on a line or on a conic, so the drift terms ` +
-          `are not independent); use --drift ${m > 3 ? "linear" : "constant"} or add points off the line`,
+        `the points do not support ${opts.trend} trend (they lie on a line or on a conic, so the trend terms ` +
+          `are not independent); use --trend ${m > 3 ? "linear" : "constant"} or add points off the line`,
         ExitCode.numerical,
       );
     }
@@ -203,7 +203,7 @@ export function fitCore(u: Float64Array, v: Float64Array, y: Float64Array, zs: n
   const nb = n - m;
   const b = new Float64Array(nb * nb);
   for (let i = 0; i < nb; i++) b.set(k.subarray((m + i) * n + m, (m + i) * n + n), i * nb);
-  // Top m rows of QᵀKQ (columns m…) are needed for the drift coefficients.
+  // Top m rows of QᵀKQ (columns m…) are needed for the trend coefficients.
   const top = new Float64Array(m * nb);
   for (let i = 0; i < m; i++) top.set(k.subarray(i * n + m, i * n + n), i * nb);
   const qty = Float64Array.from(y);
@@ -220,7 +220,7 @@ export function fitCore(u: Float64Array, v: Float64Array, y: Float64Array, zs: n
   for (let i = 0; i < nb; i++) kmax = Math.max(kmax, Math.abs(tri.d[i]), Math.abs(tri.e[i]));
   if (!(mu[nb - 1] > 1e-14 * Math.max(kmax, 1e-300)) || !(mu[nb - 1] > 0)) {
     throw new RbfieldError(
-      `the ${opts.kernel} kernel is flat at this shape over these points (no variation left after the drift); ` +
+      `the ${opts.kernel} kernel is flat at this shape over these points (no variation left after the trend); ` +
         "use a larger --shape, --shape auto, or another kernel",
       ExitCode.numerical,
     );
@@ -228,7 +228,7 @@ export function fitCore(u: Float64Array, v: Float64Array, y: Float64Array, zs: n
   const muMax = mu[nb - 1];
   if (!(muMax > TRUST_FACTOR * rounding)) {
     throw new RbfieldError(
-      `the ${opts.kernel} kernel is flat at this shape over these points (its variation after the drift is at rounding level); ` +
+      `the ${opts.kernel} kernel is flat at this shape over these points (its variation after the trend is at rounding level); ` +
         "use a larger --shape, --shape auto, or another kernel",
       ExitCode.numerical,
     );
@@ -319,7 +319,7 @@ export function fitCore(u: Float64Array, v: Float64Array, y: Float64Array, zs: n
     w[i] = wTilde[i] * di;
     residual[i] = (lambda * wTilde[i]) / di;
   }
-  // Drift: R c = (Qᵀ y)₁..ₘ − (QᵀKQ)₁..ₘ,ₘ.. · H t.
+  // Trend: R c = (Qᵀ y)₁..ₘ − (QᵀKQ)₁..ₘ,ₘ.. · H t.
   const rhs = new Float64Array(m);
   for (let i = 0; i < m; i++) {
     let s = qty[i];
@@ -337,14 +337,14 @@ export function fitCore(u: Float64Array, v: Float64Array, y: Float64Array, zs: n
   }
   return {
     kernel: opts.kernel,
-    drift: opts.drift,
+    trend: opts.trend,
     epsilonScaled: opts.epsilonScaled,
     lambdaScaled: lambda,
     smoothingChoice,
     heldAtFloor,
     weights: w,
     residual,
-    driftCoefficients: rhs,
+    trendCoefficients: rhs,
     gcv: g.gcv * zs * zs,
     edf: g.edf,
     rss: g.rssScaled * zs * zs,
@@ -457,7 +457,7 @@ export function leaveOneOutResiduals(fit: KernelFit, zs: number, gii: Float64Arr
   let gmax = 0;
   for (const g of gii) gmax = Math.max(gmax, Math.abs(g));
   for (let i = 0; i < e.length; i++) {
-    // Gᵢᵢ ≈ 0: without point i the others cannot carry the drift, so its leave-one-out
+    // Gᵢᵢ ≈ 0: without point i the others cannot carry the trend, so its leave-one-out
     // residual is undefined (NaN; left out of the RMSE and reported).
     e[i] = gii[i] > 1e-12 * gmax ? (fit.state.wTilde[i] / ((sw ? sw[i] : 1) * gii[i])) * zs : NaN;
   }
@@ -466,7 +466,7 @@ export function leaveOneOutResiduals(fit: KernelFit, zs: number, gii: Float64Arr
 
 /**
  * diag(G), G = Q₂(B+λI)⁻¹Q₂ᵀ, in about (2/3)n³ flops: Cholesky B + λI = LLᵀ, L⁻¹ explicitly, and the
- * compact WY form Q = I − V S Vᵀ of the drift's m reflectors (Schreiber & Van Loan 1989), so that
+ * compact WY form Q = I − V S Vᵀ of the trend's m reflectors (Schreiber & Van Loan 1989), so that
  * L⁻¹Q₂ᵀ = [0 | L⁻¹] − U Vᵀ with U = L⁻¹V₂Sᵀ (rank m). Then for column i (j = i − m):
  *   Gᵢᵢ = ‖L⁻¹eⱼ‖² − 2 (L⁻ᵀU)ⱼ·vᵢ + vᵢᵀ(UᵀU)vᵢ   (the first two terms only when i ≥ m).
  * Returns undefined when B + λI is not numerically positive definite (the caller falls back).
@@ -567,14 +567,14 @@ function fmtExp(v: number): string {
   return Number.isFinite(v) ? v.toExponential(2) : "infinite";
 }
 
-/** Check that the kernel can be used with the drift asked for; return a message if not. */
-export function driftProblem(kernel: KernelName, drift: DriftName): string | undefined {
-  const need = minimumDrift(kernel);
-  if (driftTerms(drift) < driftTerms(need)) {
+/** Check that the kernel can be used with the trend asked for; return a message if not. */
+export function trendProblem(kernel: KernelName, trend: TrendName): string | undefined {
+  const need = minimumTrend(kernel);
+  if (trendTerms(trend) < trendTerms(need)) {
     const why = kernel === "thin-plate"
       ? "the thin-plate spline is conditionally positive definite of order 2"
       : "the multiquadric is conditionally positive definite of order 1";
-    return `${kernel} needs at least ${need} drift (${why}); use --drift ${need} or a higher degree`;
+    return `${kernel} needs at least ${need} trend (${why}); use --trend ${need} or a higher degree`;
   }
   return undefined;
 }

@@ -1,18 +1,18 @@
-// Radial basis functions and polynomial drift. Kernels are written as functions of the squared
+// Radial basis functions and polynomial trend. Kernels are written as functions of the squared
 // distance ρ = r² (no square root in the hot loops) in centred and scaled coordinates.
-import type { DriftName, KernelName } from "../types.ts";
+import type { TrendName, KernelName } from "../types.ts";
 
 export const KERNELS: readonly KernelName[] = ["thin-plate", "gaussian", "multiquadric", "inverse-multiquadric"];
-export const DRIFTS: readonly DriftName[] = ["none", "constant", "linear", "quadratic"];
+export const TRENDS: readonly TrendName[] = ["none", "constant", "linear", "quadratic"];
 
-/** Degree of the drift polynomial: none −1, constant 0, linear 1, quadratic 2. */
-export function driftDegree(drift: DriftName): number {
-  return DRIFTS.indexOf(drift) - 1;
+/** Degree of the trend polynomial: none −1, constant 0, linear 1, quadratic 2. */
+export function trendDegree(trend: TrendName): number {
+  return TRENDS.indexOf(trend) - 1;
 }
 
-/** Number of drift terms in 2-D: degree d has (d+1)(d+2)/2 monomials. */
-export function driftTerms(drift: DriftName): number {
-  const d = driftDegree(drift);
+/** Number of trend terms in 2-D: degree d has (d+1)(d+2)/2 monomials. */
+export function trendTerms(trend: TrendName): number {
+  const d = trendDegree(trend);
   return d < 0 ? 0 : ((d + 1) * (d + 2)) / 2;
 }
 
@@ -22,12 +22,12 @@ export function hasShape(kernel: KernelName): boolean {
 }
 
 /**
- * Lowest drift a kernel needs to give a uniquely solvable, well-posed system: its order of
+ * Lowest trend a kernel needs to give a uniquely solvable, well-posed system: its order of
  * conditional positive definiteness (Micchelli 1986; Wendland 2005, ch. 8; Fasshauer 2007, ch. 8).
- * Thin-plate r² log r is CPD of order 2 → linear drift; the (negated) multiquadric is CPD of
- * order 1 → constant drift; Gaussian and inverse multiquadric are positive definite.
+ * Thin-plate r² log r is CPD of order 2 → linear trend; the (negated) multiquadric is CPD of
+ * order 1 → constant trend; Gaussian and inverse multiquadric are positive definite.
  */
-export function minimumDrift(kernel: KernelName): DriftName {
+export function minimumTrend(kernel: KernelName): TrendName {
   if (kernel === "thin-plate") return "linear";
   if (kernel === "multiquadric") return "constant";
   return "none";
@@ -55,8 +55,8 @@ export function kernelOfSquared(kernel: KernelName, epsilon: number): (rho: numb
   }
 }
 
-/** Monomials of the drift at scaled point (u, v): 1, u, v, u², uv, v² (first `terms` of them). */
-export function driftRow(u: number, v: number, terms: number, out: Float64Array, offset = 0): void {
+/** Monomials of the trend at scaled point (u, v): 1, u, v, u², uv, v² (first `terms` of them). */
+export function trendRow(u: number, v: number, terms: number, out: Float64Array, offset = 0): void {
   if (terms > 0) out[offset] = 1;
   if (terms > 1) {
     out[offset + 1] = u;

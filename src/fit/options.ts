@@ -1,8 +1,8 @@
 // The options of a fit, shared by every module of the fit stage.
-import type { Crs, DriftName, KernelName } from "../types.ts";
+import type { Crs, TrendName, KernelName } from "../types.ts";
 
 export type KernelChoice = KernelName | "auto";
-export type DriftChoice = DriftName | "auto";
+export type TrendChoice = TrendName | "auto";
 /**
  * How automatic selection picks among candidates: "one-se" (default) the simplest candidate whose
  * leave-one-out error is within one standard error of the best (Breiman et al. 1984); "loocv" the
@@ -16,16 +16,19 @@ export interface FitOptions {
   kernel?: KernelChoice;
   /** Shape ε in 1/map units (φ(ε r)), or "auto" to choose it by GCV; default auto. */
   shape?: "auto" | number;
-  /** Polynomial drift, or "auto" (with kernel auto: the degrees each kernel supports); default linear. */
-  drift?: DriftChoice;
+  /** Polynomial trend, or "auto" (with kernel auto: the degrees each kernel supports); default linear. */
+  trend?: TrendChoice;
   /** λ in map-unit convention (added to the kernel matrix diagonal), or "gcv"; default gcv. */
   smoothing?: "gcv" | number;
   /** How automatic selection picks the model; default "one-se". */
   select?: SelectRule;
   /** Observation weights ωᵢ > 0 (e.g. 1/variance), one per point; normalised to mean 1. */
   weights?: Float64Array;
-  /** Geometric anisotropy: azimuth of the long axis (degrees clockwise from grid north), ratio ≥ 1. */
-  anisotropy?: { azimuth: number; ratio: number };
+  /**
+   * Stretch (geometric anisotropy): the surface varies `factor` (≥ 1) times more slowly along the
+   * azimuth (degrees clockwise from grid north) than across it, e.g. along a valley.
+   */
+  stretch?: { azimuth: number; factor: number };
   /** "log" fits ln z (values must be positive) and back-transforms with a lognormal bias correction. */
   transform?: "none" | "log";
   /** Family-wise level α of the blunder test (Pope's tau, iterated); default 0.05. */

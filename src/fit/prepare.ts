@@ -1,7 +1,7 @@
-// Data prepared for fitting: values (or their logarithms), coordinates after the optional anisotropy,
+// Data prepared for fitting: values (or their logarithms), coordinates after the optional stretch,
 // centred and scaled by one isotropic scale, and normalised observation weights.
 import { ExitCode, RbfieldError } from "../errors.ts";
-import { anisotropyMap, boundingBox, medianSpacing } from "../geometry.ts";
+import { boundingBox, medianSpacing, stretchMap } from "../geometry.ts";
 import type { SurfaceModel } from "../model/model.ts";
 import { mulberry32 } from "../random.ts";
 import type { CleanPoints } from "../types.ts";
@@ -19,7 +19,7 @@ export interface Prepared {
   s: number;
   cx: number;
   cy: number;
-  anisotropy: SurfaceModel["anisotropy"];
+  stretch: SurfaceModel["stretch"];
 }
 
 /** A deterministic, spatially unbiased subsample (seeded shuffle; mulberry32 generator). */
@@ -83,16 +83,16 @@ export function prepareData(points: CleanPoints, options: FitOptions): Prepared 
   const n = points.x.length;
   const values = transformedValues(points, options.transform ?? "none");
   let ax = points.x, ay = points.y;
-  let anisotropy: SurfaceModel["anisotropy"] = null;
-  if (options.anisotropy) {
-    const { azimuth, ratio } = options.anisotropy;
-    if (!Number.isFinite(azimuth) || !(ratio >= 1) || !Number.isFinite(ratio)) {
-      throw new RbfieldError(`anisotropy needs an azimuth in degrees and a ratio ≥ 1, not ${azimuth}, ${ratio}`, ExitCode.usage);
+  let stretch: SurfaceModel["stretch"] = null;
+  if (options.stretch) {
+    const { azimuth, factor } = options.stretch;
+    if (!Number.isFinite(azimuth) || !(factor >= 1) || !Number.isFinite(factor)) {
+      throw new RbfieldError(`the stretch needs an azimuth in degrees and a factor ≥ 1, not ${azimuth}, ${factor}`, ExitCode.usage, undefined, "stretch");
     }
     // Rotate about the centre of the data's bounding box.
     const bb = boundingBox(points.x, points.y);
-    anisotropy = { azimuth, ratio, x0: 0.5 * (bb.xmin + bb.xmax), y0: 0.5 * (bb.ymin + bb.ymax) };
-    const map = anisotropyMap(anisotropy);
+    stretch = { azimuth, factor, x0: 0.5 * (bb.xmin + bb.xmax), y0: 0.5 * (bb.ymin + bb.ymax) };
+    const map = stretchMap(stretch);
     const out = new Float64Array(2);
     ax = new Float64Array(n);
     ay = new Float64Array(n);
@@ -116,5 +116,5 @@ export function prepareData(points: CleanPoints, options: FitOptions): Prepared 
     }
     sqrtW = normalisedSqrtWeights(w);
   }
-  return { n, u, v, values, sqrtW, spacingScaled: medianSpacing(u, v), s: geo.s, cx: geo.cx, cy: geo.cy, anisotropy };
+  return { n, u, v, values, sqrtW, spacingScaled: medianSpacing(u, v), s: geo.s, cx: geo.cx, cy: geo.cy, stretch };
 }

@@ -10,7 +10,7 @@
 // a surface that follows a blunder hides part of its ordinary residual.
 import { leaveOneOutResiduals } from "./fit.ts";
 import { type FittedCandidate, fitOne } from "./candidate.ts";
-import type { DriftName, KernelName } from "../types.ts";
+import type { TrendName, KernelName } from "../types.ts";
 import { normalisedSqrtWeights, type Prepared } from "./prepare.ts";
 
 const HUBER_K = 1.345;
@@ -29,7 +29,7 @@ export interface RobustResult {
   converged: boolean;
 }
 
-export function robustFit(prep: Prepared, kernel: KernelName, drift: DriftName, shape: "auto" | number, smoothing: "gcv" | number, progress?: (m: string) => void): RobustResult {
+export function robustFit(prep: Prepared, kernel: KernelName, trend: TrendName, shape: "auto" | number, smoothing: "gcv" | number, progress?: (m: string) => void): RobustResult {
   const n = prep.n;
   const userW = Float64Array.from({ length: n }, (_, i) => (prep.sqrtW ? prep.sqrtW[i] ** 2 : 1));
   const rho = new Float64Array(n).fill(1);
@@ -43,7 +43,7 @@ export function robustFit(prep: Prepared, kernel: KernelName, drift: DriftName, 
     progress?.(`robust fit, pass ${pass}`);
     used = rho.slice();
     sqrtW = normalisedSqrtWeights(Float64Array.from(rho, (r, i) => r * userW[i]));
-    fitted = fitOne({ ...prep, sqrtW }, kernel, drift, shape, smoothing);
+    fitted = fitOne({ ...prep, sqrtW }, kernel, trend, shape, smoothing);
     if (pass === 1 && shape === "auto") shape = fitted.fit.epsilonScaled / prep.s;
     const loo = leaveOneOutResiduals(fitted.fit, fitted.zs);
     const std = Float64Array.from(loo, (e, i) => (Number.isNaN(e) ? 0 : e * Math.sqrt(userW[i])));

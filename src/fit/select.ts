@@ -11,17 +11,17 @@
 //      Olshen & Stone 1984, §3.4.3; Hastie, Tibshirani & Friedman 2009, §7.10). Differences smaller
 //      than the noise of the error estimate do not buy a more complex model.
 //      "Simplest": fewest parameters chosen from the data (the thin-plate spline has λ only; the other
-//      kernels λ and a shape ε, unless the shape is given), then fewest drift terms; ties go to the
+//      kernels λ and a shape ε, unless the shape is given), then fewest trend terms; ties go to the
 //      smaller leave-one-out error.
 //   3. Rules "loocv" and "gcv": the raw minimum of that score (for "gcv", among the candidates the
 //      guard allows).
 //   4. Whatever the rule: below MIN_SELECTION_POINTS points the simplest candidate is taken, and a
 //      candidate whose λ is held at the numerical floor is not chosen while another is available.
-import type { DriftName, KernelName } from "../types.ts";
+import type { TrendName, KernelName } from "../types.ts";
 import type { CandidateScore, KernelGroup } from "./candidate.ts";
-import { driftProblem } from "./fit.ts";
-import { driftTerms, hasShape, KERNELS } from "./kernels.ts";
-import type { DriftChoice, KernelChoice, SelectRule } from "./options.ts";
+import { trendProblem } from "./fit.ts";
+import { trendTerms, hasShape, KERNELS } from "./kernels.ts";
+import type { TrendChoice, KernelChoice, SelectRule } from "./options.ts";
 
 /** With "gcv", a candidate whose leave-one-out RMSE exceeds this multiple of the best one's is not chosen. */
 export const GROSS_LOO_RATIO = 1.5;
@@ -34,30 +34,30 @@ export const GROSS_LOO_RATIO = 1.5;
  */
 export const MIN_SELECTION_POINTS = 20;
 
-/** Candidates of an automatic selection: each kernel with the drifts it supports (constant–quadratic). */
-export function candidateList(kernel: KernelChoice, drift: DriftChoice): { kernel: KernelName; drift: DriftName }[] {
+/** Candidates of an automatic selection: each kernel with the trends it supports (constant–quadratic). */
+export function candidateList(kernel: KernelChoice, trend: TrendChoice): { kernel: KernelName; trend: TrendName }[] {
   const kernels = kernel === "auto" ? KERNELS : [kernel];
-  const out: { kernel: KernelName; drift: DriftName }[] = [];
+  const out: { kernel: KernelName; trend: TrendName }[] = [];
   for (const k of kernels) {
-    const drifts: DriftName[] = drift !== "auto" ? [drift] : k === "thin-plate" ? ["linear", "quadratic"] : ["linear", "constant"];
-    for (const d of drifts) if (!driftProblem(k, d)) out.push({ kernel: k, drift: d });
+    const trends: TrendName[] = trend !== "auto" ? [trend] : k === "thin-plate" ? ["linear", "quadratic"] : ["linear", "constant"];
+    for (const d of trends) if (!trendProblem(k, d)) out.push({ kernel: k, trend: d });
   }
   return out;
 }
 
-export function kernelGroups(candidates: { kernel: KernelName; drift: DriftName }[]): KernelGroup[] {
+export function kernelGroups(candidates: { kernel: KernelName; trend: TrendName }[]): KernelGroup[] {
   const groups: KernelGroup[] = [];
   for (const c of candidates) {
     const g = groups.find((x) => x.kernel === c.kernel);
-    if (g) g.drifts.push(c.drift);
-    else groups.push({ kernel: c.kernel, drifts: [c.drift] });
+    if (g) g.trends.push(c.trend);
+    else groups.push({ kernel: c.kernel, trends: [c.trend] });
   }
   return groups;
 }
 
-/** Complexity of a candidate for the parsimony rule: [parameters chosen from the data, drift terms]. */
-export function complexity(kernel: KernelName, drift: DriftName, shapeGiven: boolean): [number, number] {
-  return [1 + (hasShape(kernel) && !shapeGiven ? 1 : 0), driftTerms(drift)];
+/** Complexity of a candidate for the parsimony rule: [parameters chosen from the data, trend terms]. */
+export function complexity(kernel: KernelName, trend: TrendName, shapeGiven: boolean): [number, number] {
+  return [1 + (hasShape(kernel) && !shapeGiven ? 1 : 0), trendTerms(trend)];
 }
 
 /** How the choice was made. */
@@ -93,7 +93,7 @@ export function chooseCandidate(rows: CandidateScore[], rule: SelectRule, shapeG
   // Every row sorted by the rule's score, ineligible rows last (stable sort: ties keep candidate order).
   const ranking = rows.slice().sort((a, b) => (a.excluded === null ? 0 : 1) - (b.excluded === null ? 0 : 1) || score(a) - score(b));
   const best = ranking[0];
-  const key = (r: CandidateScore) => complexity(r.kernel, r.drift, shapeGiven);
+  const key = (r: CandidateScore) => complexity(r.kernel, r.trend, shapeGiven);
   const simplestFirst = (list: CandidateScore[]) =>
     list.slice().sort((a, b) => key(a)[0] - key(b)[0] || key(a)[1] - key(b)[1] || a.loocvRmse - b.loocvRmse);
   let chosen = best;

@@ -4,10 +4,10 @@
 import { ExitCode, RbfieldError } from "../errors.ts";
 import { boundingBox, convexHullRing, medianSpacing } from "../geometry.ts";
 import { MODEL_FORMAT, MODEL_VERSION, type SurfaceModel } from "../model/model.ts";
-import type { CleanPoints, DriftName, KernelName } from "../types.ts";
+import type { CleanPoints, TrendName, KernelName } from "../types.ts";
 import { dataSnooping } from "./blunders.ts";
 import { type CandidateScore, type FittedCandidate, fitOne, type KernelGroup, rankGroup } from "./candidate.ts";
-import { driftProblem, influenceDiagonal, leaveOneOutResiduals } from "./fit.ts";
+import { trendProblem, influenceDiagonal, leaveOneOutResiduals } from "./fit.ts";
 import { hasShape } from "./kernels.ts";
 import type { FitOptions, SelectRule } from "./options.ts";
 import { prepareData, type Prepared, subsampleIndices, subsamplePrepared } from "./prepare.ts";
@@ -15,7 +15,7 @@ import { robustFit, type RobustResult } from "./robust.ts";
 import { candidateList, chooseCandidate, kernelGroups, type SelectionOutcome } from "./select.ts";
 
 export type { CandidateScore, KernelGroup } from "./candidate.ts";
-export type { DriftChoice, FitOptions, KernelChoice, SelectRule } from "./options.ts";
+export type { TrendChoice, FitOptions, KernelChoice, SelectRule } from "./options.ts";
 export type { Prepared } from "./prepare.ts";
 export { convexHullRing, medianSpacing };
 
@@ -31,7 +31,7 @@ interface FitPlan {
   points: CleanPoints;
   options: FitOptions;
   prep: Prepared;
-  candidates: { kernel: KernelName; drift: DriftName }[];
+  candidates: { kernel: KernelName; trend: TrendName }[];
   /** Data the ranking runs on (a subsample above RANK_SUBSAMPLE points). */
   rankData: Prepared;
   rankedOnSubsample: boolean;
@@ -56,7 +56,7 @@ export async function fitSurfaceParallel(points: CleanPoints, options: FitOption
   if (plan.candidates.length <= 1 || threads < 2 || typeof Worker === "undefined") return finishFit(plan, rankHere(plan));
   const groups = kernelGroups(plan.candidates);
   // Greedy split by cost (a shape search costs about three fixed-shape fits).
-  const cost = (g: KernelGroup) => (hasShape(g.kernel) && plan.shapeOpt === "auto" ? 3 : 1) + g.drifts.length - 1;
+  const cost = (g: KernelGroup) => (hasShape(g.kernel) && plan.shapeOpt === "auto" ? 3 : 1) + g.trends.length - 1;
   const order = groups.map((_g, i) => i).sort((a, b) => cost(groups[b]) - cost(groups[a]) || a - b);
   const bins: number[][] = Array.from({ length: Math.min(threads, groups.length) }, () => []);
   const load = bins.map(() => 0);
@@ -102,7 +102,7 @@ function rankHere(plan: FitPlan): SelectionOutcome | null {
 /** Validate the options and prepare the data. */
 function planFit(points: CleanPoints, options: FitOptions): FitPlan {
   const kernelOpt = options.kernel ?? "auto";
-  const driftOpt = options.drift ?? (kernelOpt === "auto" ? "auto" : "linear");
+  const trendOpt = options.trend ?? (kernelOpt === "auto" ? "auto" : "linear");
   const smoothing = options.smoothing ?? "gcv";
   const shapeOpt = options.shape ?? "auto";
   const select = options.select ?? "one-se";
@@ -116,8 +116,8 @@ function planFit(points: CleanPoints, options: FitOptions): FitPlan {
       ExitCode.numerical,
     );
   }
-  if (kernelOpt !== "auto" && driftOpt !== "auto") {
-    const problem = driftProblem(kernelOpt, driftOpt);
+  if (kernelOpt !== "auto" && trendOpt !== "auto") {
+    const problem = trendProblem(kernelOpt, trendOpt);
     if (problem) throw new RbfieldError(problem, ExitCode.usage);
   }
   if (shapeOpt !== "auto" && (!(shapeOpt > 0) || !Number.isFinite(shapeOpt))) {
@@ -125,8 +125,8 @@ function planFit(points: CleanPoints, options: FitOptions): FitPlan {
   }
   const level = options.flagLevel ?? 0.05;
   if (!(level > 0 && level < 1)) throw new RbfieldError(`the blunder test level must lie between 0 and 1, not ${level}`, ExitCode.usage);
-  const candidates = candidateList(kernelOpt, driftOpt);
-  if (candidates.length === 0) throw new RbfieldError(`no kernel supports ${driftOpt} drift here`, ExitCode.usage);
+  const candidates = candidateList(kernelOpt, trendOpt);
+  if (candidates.length === 0) throw new RbfieldError(`no kernel supports ${trendOpt} trend here`, ExitCode.usage);
   const prep = prepareData(points, { ...options, transform });
   const idx = candidates.length > 1 && n > RANK_SUBSAMPLE ? subsampleIndices(n, RANK_SUBSAMPLE) : null;
   const rankData = idx ? subsamplePrepared(prep, idx) : prep;
@@ -139,7 +139,7 @@ function rankAll(plan: FitPlan, score: (g: KernelGroup, index: number) => Candid
   if (!rows.some((r) => Number.isFinite(r.loocvRmse) && Number.isFinite(r.gcv))) {
     // Every candidate failed: fitting the first one again gives its own, specific reason.
     const first = plan.candidates[0];
-    fitOne(plan.rankData, first.kernel, first.drift, plan.shapeOpt, plan.smoothing);
+    fitOne(plan.rankData, first.kernel, first.trend, plan.shapeOpt, plan.smoothing);
     throw new RbfieldError("no candidate model could be fitted to these points", ExitCode.numerical);
   }
   return chooseCandidate(rows, plan.select, plan.shapeOpt !== "auto", plan.rankData.n);
@@ -148,20 +148,20 @@ function rankAll(plan: FitPlan, score: (g: KernelGroup, index: number) => Candid
 /** Fit the chosen candidate to all points and build the model record. */
 function finishFit(plan: FitPlan, outcome: SelectionOutcome | null): SurfaceModel {
   const { points, options, prep, shapeOpt, smoothing, transform, select } = plan;
-  const { n, values, anisotropy } = prep;
+  const { n, values, stretch } = prep;
   const ranking = outcome?.ranking ?? null;
   const winner = ranking?.find((r) => r.chosen);
-  const chosen = winner ? { kernel: winner.kernel, drift: winner.drift } : plan.candidates[0];
+  const chosen = winner ? { kernel: winner.kernel, trend: winner.trend } : plan.candidates[0];
   const shapeForFinal = shapeOpt !== "auto" ? shapeOpt : winner?.shape ?? "auto";
   let robust: RobustResult | null = null;
   let final: FittedCandidate;
   if (options.robust) {
-    options.progress?.(`fitting ${chosen.kernel} with ${chosen.drift} drift to ${n} points, robustly`);
-    robust = robustFit(prep, chosen.kernel, chosen.drift, shapeForFinal, smoothing, options.progress);
+    options.progress?.(`fitting ${chosen.kernel} with ${chosen.trend} trend to ${n} points, robustly`);
+    robust = robustFit(prep, chosen.kernel, chosen.trend, shapeForFinal, smoothing, options.progress);
     final = robust.fitted;
   } else {
-    options.progress?.(`fitting ${chosen.kernel} with ${chosen.drift} drift to ${n} points`);
-    final = fitOne(prep, chosen.kernel, chosen.drift, shapeForFinal, smoothing, options.progress);
+    options.progress?.(`fitting ${chosen.kernel} with ${chosen.trend} trend to ${n} points`);
+    final = fitOne(prep, chosen.kernel, chosen.trend, shapeForFinal, smoothing, options.progress);
   }
   const fit = final.fit;
   const sc = final.scaling;
@@ -202,7 +202,7 @@ function finishFit(plan: FitPlan, outcome: SelectionOutcome | null): SurfaceMode
   const warnings = [...fit.warnings];
   if (looN < n) {
     warnings.push(
-      `${n - looN} point${n - looN > 1 ? "s have" : " has"} no leave-one-out residual (without ${n - looN > 1 ? "each" : "it"} the other points cannot carry the ${chosen.drift} drift): ` +
+      `${n - looN} point${n - looN > 1 ? "s have" : " has"} no leave-one-out residual (without ${n - looN > 1 ? "each" : "it"} the other points cannot carry the ${chosen.trend} trend): ` +
         `lines ${points.lines.filter((_, i) => Number.isNaN(loo[i])).slice(0, 5).join(", ")}`,
     );
   }
@@ -219,12 +219,12 @@ function finishFit(plan: FitPlan, outcome: SelectionOutcome | null): SurfaceMode
     version: MODEL_VERSION,
     kernel: chosen.kernel,
     shape: hasShape(chosen.kernel) ? fit.epsilonScaled / sc.s : null,
-    drift: chosen.drift,
+    trend: chosen.trend,
     lambda: fit.lambdaScaled * final.lambdaToUser,
     crs: options.crs ?? { label: "local site grid (no EPSG code)" },
     source: options.source ?? { file: "", x: "x", y: "y", z: "z" },
     scaling: sc,
-    anisotropy,
+    stretch,
     transform,
     internal: { epsilonScaled: fit.epsilonScaled, lambdaScaled: fit.lambdaScaled },
     points: {
@@ -236,7 +236,7 @@ function finishFit(plan: FitPlan, outcome: SelectionOutcome | null): SurfaceMode
       robustWeight: robust ? Array.from(robust.weights) : null,
     },
     weights: Array.from(fit.weights),
-    driftCoefficients: Array.from(fit.driftCoefficients),
+    trendCoefficients: Array.from(fit.trendCoefficients),
     fitted: Array.from(fitted),
     // Undefined leave-one-out residuals are stored as null.
     loo: Array.from(loo, (e) => (Number.isNaN(e) ? null : e)) as number[],
@@ -258,7 +258,7 @@ function finishFit(plan: FitPlan, outcome: SelectionOutcome | null): SurfaceMode
           onSubsample: plan.rankedOnSubsample ? RANK_SUBSAMPLE : null,
           ranking,
           decision: outcome!.decision,
-          best: { kernel: outcome!.best.kernel, drift: outcome!.best.drift },
+          best: { kernel: outcome!.best.kernel, trend: outcome!.best.trend },
         }
         : null,
       flags: { test: "tau", level, critical: Number.isFinite(snoop.critical) ? snoop.critical : null, lines: snoop.flagged.map((i) => points.lines[i]), truncated: snoop.truncated },

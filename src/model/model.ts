@@ -1,8 +1,8 @@
 // The saved model: rbfield's own, versioned JSON format (documented in DEVELOPERS.md, "Model file").
 // It holds everything needed to evaluate the surface again without refitting.
 import { ExitCode, inputError, RbfieldError } from "../errors.ts";
-import { DRIFTS, driftTerms, KERNELS } from "../fit/kernels.ts";
-import type { Crs, DriftName, KernelName } from "../types.ts";
+import { TRENDS, trendTerms, KERNELS } from "../fit/kernels.ts";
+import type { Crs, TrendName, KernelName } from "../types.ts";
 
 export const MODEL_FORMAT = "rbfield-model";
 export const MODEL_VERSION = 2;
@@ -12,7 +12,7 @@ export const READABLE_VERSIONS: readonly number[] = [1, 2];
 /** One candidate of an automatic selection, with its scores (the fields marked optional are absent in version 1 files). */
 export interface RankedCandidate {
   kernel: KernelName;
-  drift: DriftName;
+  trend: TrendName;
   shape: number | null;
   lambda: number;
   edf: number;
@@ -56,7 +56,7 @@ export interface ModelDiagnostics {
      * choose, so the simplest candidate was taken.
      */
     decision?: "minimum" | "parsimony" | "few-points";
-    best?: { kernel: KernelName; drift: DriftName };
+    best?: { kernel: KernelName; trend: TrendName };
   } | null;
   /**
    * Possible blunders. Version 2: Pope's tau test at family-wise level `level`, iterated (`critical`
@@ -77,18 +77,19 @@ export interface SurfaceModel {
   kernel: KernelName;
   /** Shape ε in 1/map units (φ(ε r)); null for the thin-plate spline. */
   shape: number | null;
-  drift: DriftName;
+  trend: TrendName;
   /** λ added to the diagonal of the kernel matrix written in map units (scipy's "smoothing"). */
   lambda: number;
   crs: Crs;
   source: { file: string; x: string; y: string; z: string };
   scaling: { cx: number; cy: number; s: number; zc: number; zs: number };
   /**
-   * Optional anisotropy, applied before scaling: d = (x − x0, y − y0); along = d·(sin θ, cos θ),
-   * across = ratio·d·(cos θ, −sin θ), θ the azimuth of the long axis clockwise from grid north.
-   * Scaling then applies to (along, across).
+   * Optional stretch (geometric anisotropy), applied before scaling: d = (x − x0, y − y0);
+   * along = d·(sin θ, cos θ), across = factor·d·(cos θ, −sin θ), θ the azimuth of the long axis
+   * clockwise from grid north: the surface varies `factor` times more slowly along θ than across it.
+   * Scaling then applies to (along, across). (Version 1 files: `anisotropy` with `ratio`.)
    */
-  anisotropy: { azimuth: number; ratio: number; x0: number; y0: number } | null;
+  stretch: { azimuth: number; factor: number; x0: number; y0: number } | null;
   /** Value transform: "log" fits ln z and back-transforms with exp(f + σ²/2). */
   transform: "none" | "log";
   /** Shape in scaled units and λ in scaled units, as used by the evaluator. */
@@ -98,9 +99,9 @@ export interface SurfaceModel {
    * fitted (normalised to mean 1), `robustWeight` the robustness weights of a robust fit (else null).
    */
   points: { x: number[]; y: number[]; z: number[]; line: number[]; weight: number[] | null; robustWeight: number[] | null };
-  /** RBF weights and drift coefficients in scaled units. */
+  /** RBF weights and trend coefficients in scaled units. */
   weights: number[];
-  driftCoefficients: number[];
+  trendCoefficients: number[];
   /** Fitted value and leave-one-out residual z − f₍₋ᵢ₎(xᵢ) at every point, value units. */
   fitted: number[];
   loo: number[];
@@ -148,11 +149,12 @@ export function modelFromJson(text: string, file: string): SurfaceModel {
       { file },
     );
   }
+  if (m.version === 1) renameVersion1Keys(m);
   const bad = (what: string) => new RbfieldError(`the model file is damaged (${what}); refit the points`, ExitCode.input, { file });
   const finite = (v: unknown): v is number => typeof v === "number" && Number.isFinite(v);
   const finiteArray = (v: unknown, n?: number): v is number[] => Array.isArray(v) && (n === undefined || v.length === n) && v.every(finite);
   if (!KERNELS.includes(m.kernel as KernelName)) throw bad(`unknown kernel ${JSON.stringify(m.kernel)}`);
-  if (!DRIFTS.includes(m.drift as DriftName)) throw bad(`unknown drift ${JSON.stringify(m.drift)}`);
+  if (!TRENDS.includes(m.trend as TrendName)) throw bad(`unknown trend ${JSON.stringify(m.trend)}`);
   if (m.transform !== "none" && m.transform !== "log") throw bad(`unknown transform ${JSON.stringify(m.transform)}`);
   const pts = m.points as SurfaceModel["points"] | undefined;
   const n = Array.isArray(pts?.x) ? pts!.x.length : 0;
@@ -170,8 +172,8 @@ export function modelFromJson(text: string, file: string): SurfaceModel {
   // Magnitudes a fit can produce; anything larger is damage, not data.
   const sane = (v: unknown[]) => v.every((x) => finite(x) && Math.abs(x as number) < 1e200);
   if (!finiteArray(m.weights, n) || !sane(m.weights as number[])) throw bad("weights do not match the points");
-  const terms = driftTerms(m.drift as DriftName);
-  if (!finiteArray(m.driftCoefficients, terms) || !sane(m.driftCoefficients as number[])) throw bad("drift coefficients missing or not numbers");
+  const terms = trendTerms(m.trend as TrendName);
+  if (!finiteArray(m.trendCoefficients, terms) || !sane(m.trendCoefficients as number[])) throw bad("trend coefficients missing or not numbers");
   const sc = m.scaling as SurfaceModel["scaling"] | undefined;
   if (
     !sc || ![sc.cx, sc.cy, sc.zc].every((v) => finite(v) && Math.abs(v) <= 1e38) || !(finite(sc.s) && sc.s > 1e-300 && sc.s <= 1e16) ||
@@ -186,10 +188,10 @@ export function modelFromJson(text: string, file: string): SurfaceModel {
   ) {
     throw bad("shape or smoothing missing or not numbers");
   }
-  const an = m.anisotropy as SurfaceModel["anisotropy"] | undefined;
+  const an = m.stretch as SurfaceModel["stretch"] | undefined;
   if (an !== null && an !== undefined) {
-    if (typeof an !== "object" || ![an.azimuth, an.x0, an.y0].every((v) => finite(v) && Math.abs(v) <= 1e15) || !(finite(an.ratio) && an.ratio >= 1 && an.ratio <= 1e6)) {
-      throw bad("anisotropy not numbers");
+    if (typeof an !== "object" || ![an.azimuth, an.x0, an.y0].every((v) => finite(v) && Math.abs(v) <= 1e15) || !(finite(an.factor) && an.factor >= 1 && an.factor <= 1e6)) {
+      throw bad("stretch not numbers");
     }
   }
   const d = m.diagnostics as SurfaceModel["diagnostics"] | undefined;
@@ -206,6 +208,24 @@ export function modelFromJson(text: string, file: string): SurfaceModel {
   if (!crs || typeof crs.label !== "string" || (crs.epsg !== undefined && !(Number.isInteger(crs.epsg) && crs.epsg > 0))) throw bad("CRS missing");
   if (m.version === 1) upgradeVersion1(m);
   return m as unknown as SurfaceModel;
+}
+
+/** Version 1 keys under their version 2 names: drift → trend, anisotropy {ratio} → stretch {factor}. */
+function renameVersion1Keys(m: Record<string, unknown>): void {
+  const rename = (o: Record<string, unknown>, from: string, to: string) => {
+    if (from in o) {
+      o[to] = o[from];
+      delete o[from];
+    }
+  };
+  rename(m, "drift", "trend");
+  rename(m, "driftCoefficients", "trendCoefficients");
+  rename(m, "anisotropy", "stretch");
+  const st = m.stretch as Record<string, unknown> | null | undefined;
+  if (st && typeof st === "object") rename(st, "ratio", "factor");
+  const d = m.diagnostics as { selection?: { ranking?: unknown } } | undefined;
+  const ranking = d?.selection?.ranking;
+  if (Array.isArray(ranking)) for (const r of ranking) if (r && typeof r === "object") rename(r as Record<string, unknown>, "drift", "trend");
 }
 
 /** Version 1 → 2 in memory: the blunder flags' description, the robust fields, the floor marker. */

@@ -112,7 +112,7 @@ export function parsePointTable(text: string, file: string, options: ReadOptions
   const headerLine = firstContentLine(lines);
   if (headerLine < 0) {
     throw inputError(
-      "file is empty (only blank and comment lines); give a header row (e.g. x,y,z) and one row per point",
+      "file is empty (only empty and comment lines); give a header row (e.g. x,y,z) and one row per point",
       { file, line: 1 },
     );
   }
@@ -215,7 +215,7 @@ function detectDelimiter(header: string): Delimiter {
     else if (c === "\t") tabs++;
   }
   if (tabs > 0 && tabs >= commas && tabs >= semis) {
-    // Tabs next to other blanks are alignment, not a TSV delimiter.
+    // Tabs next to other spaces are alignment, not a TSV delimiter.
     return /\t[ \t]|[ \t]\t/.test(header.trim()) ? "whitespace" : "\t";
   }
   if (semis > 0 && semis >= commas) return ";";
@@ -224,7 +224,7 @@ function detectDelimiter(header: string): Delimiter {
   return ",";
 }
 
-/** Collects header and data rows, skipping blank rows and checking cell counts. */
+/** Collects header and data rows, skipping empty rows and checking cell counts. */
 class RowCollector {
   header: string[] = [];
   headerLine = 0;

@@ -38,35 +38,35 @@ export function modelSummaryLines(model: SurfaceModel): string[] {
       `Selection: ${sel.ranking.length} candidate models ranked by ${byText}` +
         (sel.onSubsample ? ` on a ${sel.onSubsample}-point subsample` : "") + " (best first):",
     );
-    lines.push("  kernel                drift      shape ε     λ           edf      GCV         LOO RMSE ± SE         note");
+    lines.push("  kernel                trend      shape ε     λ           edf      GCV         LOO RMSE ± SE         note");
     for (const c of sel.ranking) {
       const note = c.excluded ? `not eligible: ${c.excluded}` : c.heldAtFloor ? "λ held at the numerical floor" : "";
       const loo = `${fmt(c.loocvRmse)}${c.loocvSe === undefined ? "" : ` ± ${fmt(c.loocvSe, 2)}`}`;
       lines.push(
-        `${c.chosen ? "* " : "  "}${c.kernel.padEnd(22)}${c.drift.padEnd(11)}${(c.shape === null ? "—" : fmt(c.shape)).padEnd(12)}` +
+        `${c.chosen ? "* " : "  "}${c.kernel.padEnd(22)}${c.trend.padEnd(11)}${(c.shape === null ? "—" : fmt(c.shape)).padEnd(12)}` +
           `${fmt(c.lambda).padEnd(12)}${fmt(c.edf).padEnd(9)}${fmt(c.gcv).padEnd(12)}${loo.padEnd(22)}${note}`.trimEnd(),
       );
     }
     const chosen = sel.ranking.find((c) => c.chosen);
     if (sel.decision === "parsimony" && chosen && sel.best) {
       lines.push(
-        `  parsimony decided: ${chosen.kernel} with ${chosen.drift} drift is the simplest candidate within one standard error of the ` +
-          `best leave-one-out error (${sel.best.kernel} with ${sel.best.drift} drift); --select loocv takes the raw minimum`,
+        `  parsimony decided: ${chosen.kernel} with ${chosen.trend} trend is the simplest candidate within one standard error of the ` +
+          `best leave-one-out error (${sel.best.kernel} with ${sel.best.trend} trend); --select loocv takes the raw minimum`,
       );
     } else if (sel.decision === "few-points" && chosen) {
       lines.push(
         `  with fewer than ${MIN_SELECTION_POINTS} points the leave-one-out errors differ mostly by chance, so the simplest candidate ` +
-          `(${chosen.kernel} with ${chosen.drift} drift) was taken; name a kernel to use another`,
+          `(${chosen.kernel} with ${chosen.trend} trend) was taken; name a kernel to use another`,
       );
     }
   }
-  lines.push(`Model: ${KERNEL_TEXT[model.kernel]}, ${model.drift} drift, ${d.n} points`);
+  lines.push(`Model: ${KERNEL_TEXT[model.kernel]}, ${model.trend} trend, ${d.n} points`);
   if (model.transform === "log") {
     lines.push("  values fitted as ln z; estimates back-transformed as exp(f + σ²/2) (lognormal bias correction); σ, GCV and residuals are in log units");
   }
   if (model.points.weight) lines.push("  weighted least squares with the given observation weights");
-  if (model.anisotropy) {
-    lines.push(`  anisotropy: long axis at azimuth ${fmt(model.anisotropy.azimuth)}°, ratio ${fmt(model.anisotropy.ratio)}`);
+  if (model.stretch) {
+    lines.push(`  stretched ${fmt(model.stretch.factor)}× along ${fmt(model.stretch.azimuth)}° (the surface varies that many times more slowly along that azimuth than across it)`);
   }
   const shape = model.shape === null ? "none (scale-free kernel)" : `ε = ${fmt(model.shape)} per map unit (${d.shapeChoice === "auto" ? "chosen by GCV" : "given"})`;
   lines.push(`  shape: ${shape}`);

@@ -11,7 +11,7 @@
 # regression spline is not truncated: its basis is the full thin plate spline (Wood 2003;
 # ?tprs, ?smooth.construct.tp.smooth.spec), i.e. the exact TPS with the linear polynomial null space
 # (m = 2 for d = 2), and the penalty is the usual TPS energy. That is the same family of smoothers
-# as rbfield's thin-plate kernel with linear drift (only the scale of lambda differs: mgcv's kernel
+# as rbfield's thin-plate kernel with linear trend (only the scale of lambda differs: mgcv's kernel
 # is r^2 log r / (8 pi)), so the GCV criterion n * RSS / (n - edf)^2 has the same minimiser.
 suppressPackageStartupMessages(library(mgcv))
 

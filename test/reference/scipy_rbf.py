@@ -13,7 +13,7 @@ solves (K + smoothing*I) a + P b = d, P^T a = 0 with K_ij = phi(epsilon * |y_i -
   gaussian exp(-r^2), multiquadric -sqrt(1 + r^2), inverse_multiquadric 1/sqrt(1 + r^2),
   thin_plate_spline r^2 log r (epsilon left at its default 1, so r is in map units);
 `degree` is the total degree of the polynomial P (-1 for none). That is rbfield's convention with
-shape = epsilon, smoothing = lambda and drift none/constant/linear/quadratic = degree -1/0/1/2.
+shape = epsilon, smoothing = lambda and trend none/constant/linear/quadratic = degree -1/0/1/2.
 
 For every case the script also solves the same system a second way (numpy: null-space
 reduction with eigh, no scipy) and records the largest difference between the two, relative to
@@ -37,7 +37,7 @@ SCIPY_KERNEL = {
     "multiquadric": "multiquadric",
     "inverse-multiquadric": "inverse_multiquadric",
 }
-DRIFT_DEGREE = {"none": -1, "constant": 0, "linear": 1, "quadratic": 2}
+TREND_DEGREE = {"none": -1, "constant": 0, "linear": 1, "quadratic": 2}
 
 
 def franke(x, y):
@@ -131,21 +131,21 @@ def run_dataset(ds, cases):
     h = median_spacing(x, y)
     zrange = float(np.ptp(z))
     out_cases = []
-    for kernel, eps_times_h, drift, lam in cases:
+    for kernel, eps_times_h, trend, lam in cases:
         eps = None if kernel == "thin-plate" else eps_times_h / h
-        degree = DRIFT_DEGREE[drift]
+        degree = TREND_DEGREE[trend]
         interp = RBFInterpolator(np.column_stack([x, y]), z, kernel=SCIPY_KERNEL[kernel],
                                  epsilon=1.0 if eps is None else eps, degree=degree, smoothing=lam)
         est = interp(np.column_stack([xt, yt]))
         chk, edf, cond = nullspace_solve(x, y, z, kernel, 1.0 if eps is None else eps, degree, lam, xt, yt)
         self_check = float(np.max(np.abs(est - chk)) / zrange)
-        label = f"{kernel} eps={'-' if eps is None else f'{eps:.6g}'} drift={drift} smoothing={lam:g}"
+        label = f"{kernel} eps={'-' if eps is None else f'{eps:.6g}'} trend={trend} smoothing={lam:g}"
         print(f"  {ds['name']:>12} {label:<64} edf={edf:8.3f} cond={cond:9.2e} selfCheck={self_check:.1e}")
         extra = {}
         if degree < 0:
             # No polynomial: scipy's surface tends to 0 away from the data. Also record the surface
             # of the same scipy call on the mean-removed values, plus the mean (a fixed constant
-            # drift equal to the sample mean), and the trace of that smoother, A + (I - A) 11'/n.
+            # trend equal to the sample mean), and the trace of that smoother, A + (I - A) 11'/n.
             zm = float(np.mean(z))
             centred = RBFInterpolator(np.column_stack([x, y]), z - zm, kernel=SCIPY_KERNEL[kernel],
                                       epsilon=eps, degree=-1, smoothing=lam)
@@ -161,7 +161,7 @@ def run_dataset(ds, cases):
             "kernel": kernel,
             "scipyKernel": SCIPY_KERNEL[kernel],
             "shape": eps,
-            "drift": drift,
+            "trend": trend,
             "degree": degree,
             "smoothing": lam,
             "estimates": est.tolist(),
@@ -188,7 +188,7 @@ def main():
     os.makedirs(OUT, exist_ok=True)
     unit = make_dataset("unit-square", 19820101, 100, 0.0, 0.0, 1.0, 0.0, 1.0, 0.05, 50)
     proj = make_dataset("projected", 28355, 120, 500000.0, 6000000.0, 20000.0, 250.0, 100.0, 3.0, 50)
-    # (kernel, epsilon * median spacing, drift, smoothing lambda in map units)
+    # (kernel, epsilon * median spacing, trend, smoothing lambda in map units)
     unit_cases = [
         ("thin-plate", None, "linear", 0.0),
         ("thin-plate", None, "linear", 1e-3),
