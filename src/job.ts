@@ -9,7 +9,7 @@ import { extrapolationNote, FAR_SPACINGS, makeExtrapolationCheck } from "./evalu
 import { gridModelParallel } from "./evaluate/parallel.ts";
 import { type ErrorEstimator, gridStandardError, makeErrorEstimator } from "./evaluate/stderr.ts";
 import { type GridOptions, niceFloor, polygonsFromGeoJson, type PolygonRings } from "./evaluate/grid.ts";
-import { type FitOptions, fitSurfaceParallel } from "./fit/surface.ts";
+import { type FitOptions, type FittedModel, fitSurfaceParallelWithFactors } from "./fit/surface.ts";
 import { modelFromJson, modelToJson, type SurfaceModel } from "./model/model.ts";
 import { decodeGeoTiff } from "./read/geotiff.ts";
 import { parseNumber, readPointTable } from "./read/points.ts";
@@ -120,12 +120,12 @@ export async function loadPoints(src: PointsSource): Promise<LoadedPoints> {
 }
 
 /** Read, clean and fit. */
-export async function fitPointsFile(src: PointsSource, fit: FitOptions = {}): Promise<LoadedPoints & { model: SurfaceModel }> {
+export async function fitPointsFile(src: PointsSource, fit: FitOptions = {}): Promise<LoadedPoints & FittedModel> {
   const loaded = await loadPoints(src);
   const t = loaded.table;
-  let model: SurfaceModel;
+  let fitted: FittedModel;
   try {
-    model = await fitSurfaceParallel(loaded.points, {
+    fitted = await fitSurfaceParallelWithFactors(loaded.points, {
       ...fit,
       weights: loaded.weights,
       crs: loaded.crs,
@@ -136,7 +136,7 @@ export async function fitPointsFile(src: PointsSource, fit: FitOptions = {}): Pr
     if (e instanceof RbfieldError && !e.place) throw new RbfieldError(e.message, e.exitCode, { file: src.file });
     throw e;
   }
-  return { ...loaded, model };
+  return { ...loaded, ...fitted };
 }
 
 /** Read a model file. */
@@ -430,7 +430,7 @@ async function runInto(opts: RunOptions, files: Record<string, string>, inputs: 
   const bands = contourGeoJson(grid, interval, opts.base ?? 0, true);
   opts.progress?.("standard errors");
   // One error estimator (an O(N³) setup) serves the estimates table and the error grid.
-  const errorEstimator = makeErrorEstimator(model);
+  const errorEstimator = makeErrorEstimator(model, fitted.factors);
   const est = estimateTable(model, locTable, errorEstimator);
   const errors = gridStandardError(model, grid, opts.progress, errorEstimator);
   const seRange = valueRange(errors.grid.values);

@@ -842,8 +842,8 @@ describe("messy data that is handled, not refused", () => {
     // JSON turns NaN and Infinity into null: the numbers DEVELOPERS.md lists must all be finite numbers.
     const model = JSON.parse(fs.readFileSync(path.join(out, "model.rbfield.json"), "utf8"));
     const d = model.diagnostics;
-    const numbers = [model.lambda, d.edf, d.gcv, d.loocvRmse, d.rmse, d.sigma, d.condition, ...model.weights,
-      ...model.trendCoefficients, ...model.fitted, ...model.loo];
+    const numbers = [model.lambda, d.edf, d.gcv, d.loocvRmse, d.rmse, d.sigma, d.condition, ...model.global.weights,
+      ...model.global.trendCoefficients, ...model.fitted, ...model.loo];
     expect(numbers.every((v) => typeof v === "number" && Number.isFinite(v))).toBe(true);
     for (const name of ["contours.geojson", "bands.geojson"]) {
       expect(fs.readFileSync(path.join(out, name), "utf8"), name).not.toMatch(/null|NaN/);

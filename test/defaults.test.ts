@@ -37,13 +37,13 @@ function site(n: number, seed: number, f: (u: number, v: number) => number, nois
 
 /** The model's bordered system in its own scaled units, built with ml-matrix: M, [K P] and the scaled values. */
 function borderedSystem(model: SurfaceModel) {
-  const { cx, cy, s, zc, zs } = model.scaling;
+  const { cx, cy, s, zc, zs } = model.global.scaling;
   const n = model.points.x.length;
   const u = model.points.x.map((v) => (v - cx) / s), v = model.points.y.map((w) => (w - cy) / s);
-  const phi = kernelOfSquared(model.kernel, model.internal.epsilonScaled);
-  const basis = (a: number, b: number) => [1, a, b, a * a, a * b, b * b].slice(0, model.trendCoefficients.length);
-  const m = model.trendCoefficients.length;
-  const lam = model.internal.lambdaScaled;
+  const phi = kernelOfSquared(model.kernel, model.global.internal.epsilonScaled);
+  const basis = (a: number, b: number) => [1, a, b, a * a, a * b, b * b].slice(0, model.global.trendCoefficients.length);
+  const m = model.global.trendCoefficients.length;
+  const lam = model.global.internal.lambdaScaled;
   const M = Matrix.zeros(n + m, n + m);
   const KP = Matrix.zeros(n, n + m);
   for (let i = 0; i < n; i++) {
@@ -87,7 +87,7 @@ describe("numerical trust: scores that an independent computation reproduces", (
       const d = model.diagnostics;
       worst = Math.max(worst, Math.abs(gcv - d.gcv) / d.gcv);
       expect(Math.abs(n - lam * tr - d.edf), `seed ${seed}`).toBeLessThan(1e-6 * n);
-      expect(d.edf).toBeGreaterThanOrEqual(model.trendCoefficients.length - 1e-6);
+      expect(d.edf).toBeGreaterThanOrEqual(model.global.trendCoefficients.length - 1e-6);
       expect(d.edf).toBeLessThanOrEqual(n + 1e-6);
     }
     expect(worst).toBeLessThan(1e-6);

@@ -6,7 +6,8 @@ import { describe, expect, it } from "vitest";
 import { EigenvalueDecomposition, Matrix, solve } from "ml-matrix";
 import { tridiagonalEigenvalues, tridiagonalize } from "../src/fit/linalg.ts";
 import { fitSurface } from "../src/fit/surface.ts";
-import { fitCore, influenceComplementDiagonal, influenceComplementDiagonalCholesky, rotatedBasis } from "../src/fit/fit.ts";
+import { fitCore } from "../src/fit/core.ts";
+import { influenceComplementDiagonal, influenceComplementDiagonalCholesky, rotatedBasis } from "../src/fit/influence.ts";
 import { evaluateModel } from "../src/evaluate/evaluate.ts";
 import type { CleanPoints, TrendName, KernelName } from "../src/types.ts";
 import { franke, makePoints, mulberry32 } from "./helpers.ts";
@@ -72,8 +73,8 @@ describe("GCV and leave-one-out against brute force", () => {
     const model = fitSurface(pts, { kernel: "thin-plate", trend: "linear" });
     expect(model.diagnostics.edf).toBeLessThan(n - 5); // a real smoothing fit, not interpolation
     // Build the bordered system in the model's scaled coordinates with ml-matrix and get A column by column.
-    const { cx, cy, s } = model.scaling;
-    const lam = model.internal.lambdaScaled;
+    const { cx, cy, s } = model.global.scaling;
+    const lam = model.global.internal.lambdaScaled;
     const u = Array.from(pts.x, (v) => (v - cx) / s), v = Array.from(pts.y, (w) => (w - cy) / s);
     const m = 3;
     const M = Matrix.zeros(n + m, n + m);

@@ -14,11 +14,14 @@
 // Assumptions: the kernel describes the surface's spatial correlation, errors are independent with
 // the stated weights, and the model (kernel, shape, trend) is right. The figure is a model-based
 // error of the surface, not a survey tolerance; a new reading at x would scatter by a further σ.
-import { borderedInverse, borderedQuadratic, fitCore, processScale } from "../fit/fit.ts";
-import { trendRow, trendTerms, kernelOfSquared } from "../fit/kernels.ts";
-import type { SurfaceModel } from "../model/model.ts";
+import { fitCore, type GlobalFactors } from "../fit/core.ts";
+import { borderedInverse, borderedQuadratic, processScale } from "../fit/influence.ts";
+import { kernelOfSquared, trendRow, trendTerms } from "../fit/kernels.ts";
+import { transformedValues } from "../fit/prepare.ts";
+import type { GlobalModel, SurfaceModel } from "../model/model.ts";
 import type { GridValues } from "../types.ts";
-import { coordinateMapper, makeEvaluator, scaledCentres } from "./evaluate.ts";
+import { makeEvaluator } from "./evaluate.ts";
+import { coordinateMapper, scaledCentres } from "./global.ts";
 
 export interface ErrorEstimator {
   /** Standard error of the estimate at a map coordinate (value units; back-transformed for log fits). */
@@ -27,28 +30,47 @@ export interface ErrorEstimator {
   processScale: number;
 }
 
-export function makeErrorEstimator(model: SurfaceModel): ErrorEstimator {
-  const { zc, zs } = model.scaling;
-  const n = model.points.x.length;
+/**
+ * The error estimator of a model, through the method that made it. `factors` are those the fit of
+ * this run already has (fitSurfaceWithFactors); without them (a model read from a file) the system
+ * is factorised once more at the model's own λ (O(N³), no search).
+ */
+export function makeErrorEstimator(model: SurfaceModel, factors?: GlobalFactors): ErrorEstimator {
+  switch (model.method) {
+    case "global":
+      return globalErrorEstimator(model, factors);
+  }
+}
+
+/** The global fit's factors, recomputed from a model file at the model's own shape and λ. */
+function refactorise(model: GlobalModel): GlobalFactors {
+  const { zc, zs } = model.global.scaling;
   const { u, v } = scaledCentres(model);
-  const values = Float64Array.from(model.points.z, (z) => (model.transform === "log" ? Math.log(z) : z));
+  const values = transformedValues({ z: Float64Array.from(model.points.z), lines: model.points.line }, model.transform);
   const y = Float64Array.from(values, (z) => (z - zc) / zs);
   const sqrtW = model.points.weight ? Float64Array.from(model.points.weight, Math.sqrt) : undefined;
-  const lambda = model.internal.lambdaScaled;
   const fit = fitCore(u, v, y, zs, {
     kernel: model.kernel,
     trend: model.trend,
-    epsilonScaled: model.internal.epsilonScaled,
-    smoothing: lambda,
+    epsilonScaled: model.global.internal.epsilonScaled,
+    smoothing: model.global.internal.lambdaScaled,
     lambdaToUser: 1,
     sqrtWeights: sqrtW,
   });
+  return { fit, u, v };
+}
+
+function globalErrorEstimator(model: GlobalModel, factors: GlobalFactors = refactorise(model)): ErrorEstimator {
+  const { zs } = model.global.scaling;
+  const n = model.points.x.length;
+  const { fit, u, v } = factors;
+  const sqrtW = fit.state.sqrtW;
   const inv = borderedInverse(fit, u, v);
   const m = trendTerms(model.trend);
   const b = processScale(fit.state);
-  const phi = kernelOfSquared(model.kernel, model.internal.epsilonScaled);
+  const phi = kernelOfSquared(model.kernel, fit.epsilonScaled);
   const phi0 = phi(0);
-  const map = coordinateMapper(model);
+  const map = coordinateMapper({ scaling: model.global.scaling, stretch: model.stretch });
   const uv = new Float64Array(2);
   const k = new Float64Array(n);
   const p = new Float64Array(Math.max(m, 1));
@@ -70,7 +92,6 @@ export function makeErrorEstimator(model: SurfaceModel): ErrorEstimator {
   };
   return { at, processScale: b };
 }
-
 
 /** Work (cells × N²) above which the error grid is computed on a coarser lattice and interpolated. */
 export const STDERR_FULL_WORK = 4e9;

@@ -13,7 +13,8 @@
 // of a principal submatrix gives, for j outside D,
 //   G̃'ⱼⱼ = G̃ⱼⱼ − cⱼᵀ G̃_DD⁻¹ cⱼ,   w̃'ⱼ = w̃ⱼ − cⱼᵀ G̃_DD⁻¹ w̃_D,   cⱼ = G̃_{D,j},
 // so each round costs one column of G̃ (O(N²)) and no refit. The model itself keeps every point.
-import { type FitState, influenceComplementColumn } from "./fit.ts";
+import type { FitState } from "./core.ts";
+import { influenceComplementColumn } from "./influence.ts";
 import { perTestLevel, tauCritical } from "./tau.ts";
 
 export interface SnoopingResult {

@@ -3,7 +3,8 @@
 import { ExitCode, RbfieldError } from "../errors.ts";
 import type { RankedCandidate } from "../model/model.ts";
 import type { TrendName, KernelName } from "../types.ts";
-import { fitCore, type KernelFit, leaveOneOutResiduals, type Scaling } from "./fit.ts";
+import { fitCore, type KernelFit, type Scaling } from "./core.ts";
+import { leaveOneOutResiduals } from "./influence.ts";
 import { hasShape } from "./kernels.ts";
 import { goldenSection } from "./minimise.ts";
 import { type Prepared, subsampleIndices, subsamplePrepared } from "./prepare.ts";

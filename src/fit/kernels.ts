@@ -1,8 +1,64 @@
-// Radial basis functions and polynomial trend. Kernels are written as functions of the squared
-// distance ρ = r² (no square root in the hot loops) in centred and scaled coordinates.
-import type { TrendName, KernelName } from "../types.ts";
+// Radial basis functions and the polynomial trend: the facts about each kernel in one table, and the
+// kernel matrix. Kernels are written as functions of the squared distance ρ = r² (no square root in
+// the hot loops) in centred and scaled coordinates. The evaluator (evaluate/global.ts) unrolls one
+// loop per kernel for speed; test/fit.test.ts checks those loops against this table.
+import type { KernelName, TrendName } from "../types.ts";
 
-export const KERNELS: readonly KernelName[] = ["thin-plate", "gaussian", "multiquadric", "inverse-multiquadric"];
+export interface KernelFacts {
+  /** φ(ρ) for ρ = r² and ε² = e2 (scaled units). */
+  phi: (rho: number, e2: number) => number;
+  /** Does the kernel take a shape parameter ε? */
+  hasShape: boolean;
+  /**
+   * Lowest trend that gives a uniquely solvable, well-posed system: the order of conditional positive
+   * definiteness (Micchelli 1986; Wendland 2005, ch. 8; Fasshauer 2007, ch. 8).
+   */
+  minimumTrend: TrendName;
+  /** Why that trend is needed, for messages. */
+  why: string;
+  /** The formula, for people. */
+  text: string;
+}
+
+/**
+ *   thin-plate  r² log r = ½ ρ log ρ (Duchon 1977), 0 at r = 0; CPD of order 2 → linear trend
+ *   gaussian    exp(−ε² r²); positive definite
+ *   multiquadric −√(1 + ε² r²) (Hardy 1971; negated so that the kernel is CPD of order 1 with
+ *               positive sign, the same sign convention as scipy's RBFInterpolator) → constant trend
+ *   inverse-multiquadric 1/√(1 + ε² r²); positive definite
+ */
+export const KERNEL_TABLE: Readonly<Record<KernelName, KernelFacts>> = {
+  "thin-plate": {
+    phi: (rho) => (rho > 0 ? 0.5 * rho * Math.log(rho) : 0),
+    hasShape: false,
+    minimumTrend: "linear",
+    why: "the thin-plate spline is conditionally positive definite of order 2",
+    text: "thin-plate spline r² log r",
+  },
+  gaussian: {
+    phi: (rho, e2) => Math.exp(-e2 * rho),
+    hasShape: true,
+    minimumTrend: "none",
+    why: "the Gaussian is positive definite",
+    text: "Gaussian exp(−(εr)²)",
+  },
+  multiquadric: {
+    phi: (rho, e2) => -Math.sqrt(1 + e2 * rho),
+    hasShape: true,
+    minimumTrend: "constant",
+    why: "the multiquadric is conditionally positive definite of order 1",
+    text: "multiquadric −√(1+(εr)²)",
+  },
+  "inverse-multiquadric": {
+    phi: (rho, e2) => 1 / Math.sqrt(1 + e2 * rho),
+    hasShape: true,
+    minimumTrend: "none",
+    why: "the inverse multiquadric is positive definite",
+    text: "inverse multiquadric 1/√(1+(εr)²)",
+  },
+};
+
+export const KERNELS: readonly KernelName[] = Object.keys(KERNEL_TABLE) as KernelName[];
 export const TRENDS: readonly TrendName[] = ["none", "constant", "linear", "quadratic"];
 
 /** Degree of the trend polynomial: none −1, constant 0, linear 1, quadratic 2. */
@@ -18,41 +74,19 @@ export function trendTerms(trend: TrendName): number {
 
 /** Does the kernel take a shape parameter ε? The thin-plate spline is scale-free. */
 export function hasShape(kernel: KernelName): boolean {
-  return kernel !== "thin-plate";
+  return KERNEL_TABLE[kernel].hasShape;
 }
 
-/**
- * Lowest trend a kernel needs to give a uniquely solvable, well-posed system: its order of
- * conditional positive definiteness (Micchelli 1986; Wendland 2005, ch. 8; Fasshauer 2007, ch. 8).
- * Thin-plate r² log r is CPD of order 2 → linear trend; the (negated) multiquadric is CPD of
- * order 1 → constant trend; Gaussian and inverse multiquadric are positive definite.
- */
+/** Lowest trend the kernel needs (see KernelFacts.minimumTrend). */
 export function minimumTrend(kernel: KernelName): TrendName {
-  if (kernel === "thin-plate") return "linear";
-  if (kernel === "multiquadric") return "constant";
-  return "none";
+  return KERNEL_TABLE[kernel].minimumTrend;
 }
 
-/**
- * φ as a function of ρ = r² with shape ε (both in scaled units):
- *   thin-plate  r² log r = ½ ρ log ρ (Duchon 1977), 0 at r = 0
- *   gaussian    exp(−ε² r²)
- *   multiquadric −√(1 + ε² r²) (Hardy 1971; negated so that the kernel is CPD of order 1
- *               with positive sign, the same sign convention as scipy's RBFInterpolator)
- *   inverse-multiquadric 1/√(1 + ε² r²)
- */
+/** φ as a function of ρ = r² with shape ε (both in scaled units). */
 export function kernelOfSquared(kernel: KernelName, epsilon: number): (rho: number) => number {
   const e2 = epsilon * epsilon;
-  switch (kernel) {
-    case "thin-plate":
-      return (rho) => (rho > 0 ? 0.5 * rho * Math.log(rho) : 0);
-    case "gaussian":
-      return (rho) => Math.exp(-e2 * rho);
-    case "multiquadric":
-      return (rho) => -Math.sqrt(1 + e2 * rho);
-    case "inverse-multiquadric":
-      return (rho) => 1 / Math.sqrt(1 + e2 * rho);
-  }
+  const phi = KERNEL_TABLE[kernel].phi;
+  return (rho) => phi(rho, e2);
 }
 
 /** Monomials of the trend at scaled point (u, v): 1, u, v, u², uv, v² (first `terms` of them). */

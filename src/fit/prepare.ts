@@ -5,7 +5,7 @@ import { boundingBox, medianSpacing, stretchMap } from "../geometry.ts";
 import type { SurfaceModel } from "../model/model.ts";
 import { mulberry32 } from "../random.ts";
 import type { CleanPoints } from "../types.ts";
-import { computeScaling } from "./fit.ts";
+import { computeScaling } from "./core.ts";
 import type { FitOptions } from "./options.ts";
 
 export interface Prepared {
@@ -60,7 +60,7 @@ export function normalisedSqrtWeights(w: ArrayLike<number>): Float64Array {
 }
 
 /** Values to fit: z, or ln z for the log transform (every value must then be positive). */
-export function transformedValues(points: CleanPoints, transform: "none" | "log"): Float64Array {
+export function transformedValues(points: { z: ArrayLike<number>; lines: number[] }, transform: "none" | "log"): Float64Array {
   const values = Float64Array.from(points.z);
   if (transform !== "log") return values;
   const bad: number[] = [];

@@ -8,7 +8,7 @@
 // normal errors; Huber 1981; Beaton & Tukey 1974). Starting a redescending estimator from a Huber fit
 // is common practice (Maronna, Martin & Yohai 2006, §4.4). Leave-one-out residuals are used because
 // a surface that follows a blunder hides part of its ordinary residual.
-import { leaveOneOutResiduals } from "./fit.ts";
+import { leaveOneOutResiduals } from "./influence.ts";
 import { type FittedCandidate, fitOne } from "./candidate.ts";
 import type { TrendName, KernelName } from "../types.ts";
 import { normalisedSqrtWeights, type Prepared } from "./prepare.ts";

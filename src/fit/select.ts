@@ -19,7 +19,7 @@
 //      candidate whose λ is held at the numerical floor is not chosen while another is available.
 import type { TrendName, KernelName } from "../types.ts";
 import type { CandidateScore, KernelGroup } from "./candidate.ts";
-import { trendProblem } from "./fit.ts";
+import { trendProblem } from "./core.ts";
 import { trendTerms, hasShape, KERNELS } from "./kernels.ts";
 import type { TrendChoice, KernelChoice, SelectRule } from "./options.ts";
 

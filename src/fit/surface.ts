@@ -2,12 +2,14 @@
 // models (select.ts), fits the chosen one to every point (robustly when asked), computes leave-one-out
 // residuals and the blunder test, and records the data's extent and hull.
 import { ExitCode, RbfieldError } from "../errors.ts";
+import { runWorker, workersAvailable } from "../workers.ts";
 import { boundingBox, convexHullRing, medianSpacing } from "../geometry.ts";
 import { MODEL_FORMAT, MODEL_VERSION, type SurfaceModel } from "../model/model.ts";
 import type { CleanPoints, TrendName, KernelName } from "../types.ts";
 import { dataSnooping } from "./blunders.ts";
 import { type CandidateScore, type FittedCandidate, fitOne, type KernelGroup, rankGroup } from "./candidate.ts";
-import { trendProblem, influenceDiagonal, leaveOneOutResiduals } from "./fit.ts";
+import { type GlobalFactors, trendProblem } from "./core.ts";
+import { influenceDiagonal, leaveOneOutResiduals } from "./influence.ts";
 import { hasShape } from "./kernels.ts";
 import type { FitOptions, SelectRule } from "./options.ts";
 import { prepareData, type Prepared, subsampleIndices, subsamplePrepared } from "./prepare.ts";
@@ -41,8 +43,22 @@ interface FitPlan {
   transform: "none" | "log";
 }
 
+/**
+ * A fitted model with the factors of its system, handed on so that later stages (standard errors)
+ * need not factorise again. Models read from a file have no factors.
+ */
+export interface FittedModel {
+  model: SurfaceModel;
+  factors: GlobalFactors;
+}
+
 /** Fit the surface and build the model record. */
 export function fitSurface(points: CleanPoints, options: FitOptions = {}): SurfaceModel {
+  return fitSurfaceWithFactors(points, options).model;
+}
+
+/** fitSurface, also returning the factors of the final fit. */
+export function fitSurfaceWithFactors(points: CleanPoints, options: FitOptions = {}): FittedModel {
   const plan = planFit(points, options);
   return finishFit(plan, rankHere(plan));
 }
@@ -52,8 +68,13 @@ export function fitSurface(points: CleanPoints, options: FitOptions = {}): Surfa
  * per task). Every candidate is computed by the same code as in fitSurface, so the result is identical.
  */
 export async function fitSurfaceParallel(points: CleanPoints, options: FitOptions = {}, threads = navigator.hardwareConcurrency || 1): Promise<SurfaceModel> {
+  return (await fitSurfaceParallelWithFactors(points, options, threads)).model;
+}
+
+/** fitSurfaceParallel, also returning the factors of the final fit. */
+export async function fitSurfaceParallelWithFactors(points: CleanPoints, options: FitOptions = {}, threads = navigator.hardwareConcurrency || 1): Promise<FittedModel> {
   const plan = planFit(points, options);
-  if (plan.candidates.length <= 1 || threads < 2 || typeof Worker === "undefined") return finishFit(plan, rankHere(plan));
+  if (plan.candidates.length <= 1 || !workersAvailable(threads)) return finishFit(plan, rankHere(plan));
   const groups = kernelGroups(plan.candidates);
   // Greedy split by cost (a shape search costs about three fixed-shape fits).
   const cost = (g: KernelGroup) => (hasShape(g.kernel) && plan.shapeOpt === "auto" ? 3 : 1) + g.trends.length - 1;
@@ -67,24 +88,13 @@ export async function fitSurfaceParallel(points: CleanPoints, options: FitOption
   }
   plan.options.progress?.(`ranking ${plan.candidates.length} candidate models on ${bins.length} threads`);
   const results = new Map<number, CandidateScore[]>();
+  const url = new URL("./rank_worker.ts", import.meta.url);
   try {
-    await Promise.all(bins.map((bin) =>
-      new Promise<void>((resolve, reject) => {
-        const worker = new Worker(new URL("./rank_worker.ts", import.meta.url).href, { type: "module" });
-        worker.onmessage = (e: MessageEvent<{ rows?: CandidateScore[][]; error?: string }>) => {
-          worker.terminate();
-          if (e.data.error || !e.data.rows) return reject(new Error(e.data.error ?? "no result"));
-          bin.forEach((gi, j) => results.set(gi, e.data.rows![j]));
-          resolve();
-        };
-        worker.onerror = (e) => {
-          worker.terminate();
-          e.preventDefault();
-          reject(new Error(e.message));
-        };
-        worker.postMessage({ data: plan.rankData, groups: bin.map((i) => groups[i]), shapeOpt: plan.shapeOpt, smoothing: plan.smoothing });
-      })
-    ));
+    await Promise.all(bins.map(async (bin) => {
+      const message = { data: plan.rankData, groups: bin.map((i) => groups[i]), shapeOpt: plan.shapeOpt, smoothing: plan.smoothing };
+      const reply = await runWorker<{ rows: CandidateScore[][] }>(url, message);
+      bin.forEach((gi, j) => results.set(gi, reply.rows[j]));
+    }));
   } catch (e) {
     // Workers unavailable here: rank in this thread.
     plan.options.progress?.(`worker threads unavailable (${(e as Error).message}); ranking in one thread`);
@@ -146,7 +156,7 @@ function rankAll(plan: FitPlan, score: (g: KernelGroup, index: number) => Candid
 }
 
 /** Fit the chosen candidate to all points and build the model record. */
-function finishFit(plan: FitPlan, outcome: SelectionOutcome | null): SurfaceModel {
+function finishFit(plan: FitPlan, outcome: SelectionOutcome | null): FittedModel {
   const { points, options, prep, shapeOpt, smoothing, transform, select } = plan;
   const { n, values, stretch } = prep;
   const ranking = outcome?.ranking ?? null;
@@ -217,16 +227,15 @@ function finishFit(plan: FitPlan, outcome: SelectionOutcome | null): SurfaceMode
   const model: SurfaceModel = {
     format: MODEL_FORMAT,
     version: MODEL_VERSION,
+    method: "global",
     kernel: chosen.kernel,
     shape: hasShape(chosen.kernel) ? fit.epsilonScaled / sc.s : null,
     trend: chosen.trend,
     lambda: fit.lambdaScaled * final.lambdaToUser,
     crs: options.crs ?? { label: "local site grid (no EPSG code)" },
     source: options.source ?? { file: "", x: "x", y: "y", z: "z" },
-    scaling: sc,
     stretch,
     transform,
-    internal: { epsilonScaled: fit.epsilonScaled, lambdaScaled: fit.lambdaScaled },
     points: {
       x: Array.from(points.x),
       y: Array.from(points.y),
@@ -235,8 +244,6 @@ function finishFit(plan: FitPlan, outcome: SelectionOutcome | null): SurfaceMode
       weight: sqrtW ? Array.from(sqrtW, (d) => d * d) : null,
       robustWeight: robust ? Array.from(robust.weights) : null,
     },
-    weights: Array.from(fit.weights),
-    trendCoefficients: Array.from(fit.trendCoefficients),
     fitted: Array.from(fitted),
     // Undefined leave-one-out residuals are stored as null.
     loo: Array.from(loo, (e) => (Number.isNaN(e) ? null : e)) as number[],
@@ -276,6 +283,12 @@ function finishFit(plan: FitPlan, outcome: SelectionOutcome | null): SurfaceMode
     extent,
     hull,
     spacing: medianSpacing(points.x, points.y),
+    global: {
+      scaling: sc,
+      internal: { epsilonScaled: fit.epsilonScaled, lambdaScaled: fit.lambdaScaled },
+      weights: Array.from(fit.weights),
+      trendCoefficients: Array.from(fit.trendCoefficients),
+    },
   };
-  return model;
+  return { model, factors: { fit, u: prep.u, v: prep.v } };
 }

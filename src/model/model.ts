@@ -1,7 +1,8 @@
 // The saved model: rbfield's own, versioned JSON format (documented in DEVELOPERS.md, "Model file").
 // It holds everything needed to evaluate the surface again without refitting.
 import { ExitCode, inputError, RbfieldError } from "../errors.ts";
-import { TRENDS, trendTerms, KERNELS } from "../fit/kernels.ts";
+import { KERNELS, TRENDS } from "../fit/kernels.ts";
+import { checkGlobalPart, type GlobalPart } from "./global.ts";
 import type { Crs, TrendName, KernelName } from "../types.ts";
 
 export const MODEL_FORMAT = "rbfield-model";
@@ -71,9 +72,16 @@ export interface ModelDiagnostics {
   gcvCurve: { lambda: number; gcv: number; edf: number }[];
 }
 
-export interface SurfaceModel {
+/** Fitting methods a model can come from; each stores its own part (see DEVELOPERS.md, "Model file"). */
+export type MethodName = "global";
+export const METHODS: readonly MethodName[] = ["global"];
+
+/** What every model holds, whatever the method that made it. */
+export interface ModelBase {
   format: typeof MODEL_FORMAT;
   version: typeof MODEL_VERSION;
+  /** The method that made the surface; its own data are under the key of that name. */
+  method: MethodName;
   kernel: KernelName;
   /** Shape ε in 1/map units (φ(ε r)); null for the thin-plate spline. */
   shape: number | null;
@@ -82,7 +90,6 @@ export interface SurfaceModel {
   lambda: number;
   crs: Crs;
   source: { file: string; x: string; y: string; z: string };
-  scaling: { cx: number; cy: number; s: number; zc: number; zs: number };
   /**
    * Optional stretch (geometric anisotropy), applied before scaling: d = (x − x0, y − y0);
    * along = d·(sin θ, cos θ), across = factor·d·(cos θ, −sin θ), θ the azimuth of the long axis
@@ -92,16 +99,11 @@ export interface SurfaceModel {
   stretch: { azimuth: number; factor: number; x0: number; y0: number } | null;
   /** Value transform: "log" fits ln z and back-transforms with exp(f + σ²/2). */
   transform: "none" | "log";
-  /** Shape in scaled units and λ in scaled units, as used by the evaluator. */
-  internal: { epsilonScaled: number; lambdaScaled: number };
   /**
    * Data after cleaning, in map units, with the input line of each point; `weight` the weights as
    * fitted (normalised to mean 1), `robustWeight` the robustness weights of a robust fit (else null).
    */
   points: { x: number[]; y: number[]; z: number[]; line: number[]; weight: number[] | null; robustWeight: number[] | null };
-  /** RBF weights and trend coefficients in scaled units. */
-  weights: number[];
-  trendCoefficients: number[];
   /** Fitted value and leave-one-out residual z − f₍₋ᵢ₎(xᵢ) at every point, value units. */
   fitted: number[];
   loo: number[];
@@ -113,6 +115,15 @@ export interface SurfaceModel {
   hull: [number, number][];
   spacing: number;
 }
+
+/** A model made by the global (dense) method. */
+export interface GlobalModel extends ModelBase {
+  method: "global";
+  global: GlobalPart;
+}
+
+/** A saved surface, whatever method made it (only "global" so far). */
+export type SurfaceModel = GlobalModel;
 
 /** Serialise a model as pretty JSON (deterministic key order: as built). */
 export function modelToJson(model: SurfaceModel): string {
@@ -169,25 +180,8 @@ export function modelFromJson(text: string, file: string): SurfaceModel {
   if (m.version !== 1 && pts.robustWeight !== null && !(finiteArray(pts.robustWeight, n) && pts.robustWeight.every((w) => w > 0 && w <= 1))) {
     throw bad("robustness weights are not numbers between 0 and 1");
   }
-  // Magnitudes a fit can produce; anything larger is damage, not data.
-  const sane = (v: unknown[]) => v.every((x) => finite(x) && Math.abs(x as number) < 1e200);
-  if (!finiteArray(m.weights, n) || !sane(m.weights as number[])) throw bad("weights do not match the points");
-  const terms = trendTerms(m.trend as TrendName);
-  if (!finiteArray(m.trendCoefficients, terms) || !sane(m.trendCoefficients as number[])) throw bad("trend coefficients missing or not numbers");
-  const sc = m.scaling as SurfaceModel["scaling"] | undefined;
-  if (
-    !sc || ![sc.cx, sc.cy, sc.zc].every((v) => finite(v) && Math.abs(v) <= 1e38) || !(finite(sc.s) && sc.s > 1e-300 && sc.s <= 1e16) ||
-    !(finite(sc.zs) && sc.zs > 1e-300 && sc.zs <= 1e38)
-  ) {
-    throw bad("scaling missing, zero or not numbers");
-  }
-  const internal = m.internal as SurfaceModel["internal"] | undefined;
-  if (
-    !internal || !(finite(internal.epsilonScaled) && internal.epsilonScaled > 0 && internal.epsilonScaled < 1e100) ||
-    !(finite(internal.lambdaScaled) && internal.lambdaScaled >= 0 && internal.lambdaScaled < 1e200)
-  ) {
-    throw bad("shape or smoothing missing or not numbers");
-  }
+  if (!METHODS.includes(m.method as MethodName)) throw bad(`unknown method ${JSON.stringify(m.method)}`);
+  checkGlobalPart(m.global, n, m.trend as TrendName, bad);
   const an = m.stretch as SurfaceModel["stretch"] | undefined;
   if (an !== null && an !== undefined) {
     if (typeof an !== "object" || ![an.azimuth, an.x0, an.y0].every((v) => finite(v) && Math.abs(v) <= 1e15) || !(finite(an.factor) && an.factor >= 1 && an.factor <= 1e6)) {
@@ -221,6 +215,14 @@ function renameVersion1Keys(m: Record<string, unknown>): void {
   rename(m, "drift", "trend");
   rename(m, "driftCoefficients", "trendCoefficients");
   rename(m, "anisotropy", "stretch");
+  // The global method's own fields move under "global".
+  m.method = "global";
+  const global: Record<string, unknown> = {};
+  for (const key of ["scaling", "internal", "weights", "trendCoefficients"]) {
+    global[key] = m[key];
+    delete m[key];
+  }
+  m.global = global;
   const st = m.stretch as Record<string, unknown> | null | undefined;
   if (st && typeof st === "object") rename(st, "ratio", "factor");
   const d = m.diagnostics as { selection?: { ranking?: unknown } } | undefined;

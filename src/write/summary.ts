@@ -4,6 +4,10 @@ import { CAUTION } from "../caution.ts";
 import { printable } from "../errors.ts";
 import type { SurfaceModel } from "../model/model.ts";
 import { MIN_SELECTION_POINTS } from "../fit/select.ts";
+import { KERNEL_TABLE } from "../fit/kernels.ts";
+
+/** Kernel formulas for people (from the kernel table). */
+export const KERNEL_TEXT: Record<string, string> = Object.fromEntries(Object.entries(KERNEL_TABLE).map(([k, f]) => [k, f.text]));
 
 /** Replace control characters (terminal escapes, newlines) in text that came from an input. */
 export const printableText = printable;
@@ -16,12 +20,6 @@ export function fmt(v: number, digits = 4): string {
   return String(Number(v.toPrecision(digits)));
 }
 
-export const KERNEL_TEXT: Record<string, string> = {
-  "thin-plate": "thin-plate spline r² log r",
-  gaussian: "Gaussian exp(−(εr)²)",
-  multiquadric: "multiquadric −√(1+(εr)²)",
-  "inverse-multiquadric": "inverse multiquadric 1/√(1+(εr)²)",
-};
 
 /** Lines describing the model and its diagnostics. */
 export function modelSummaryLines(model: SurfaceModel): string[] {
@@ -60,7 +58,7 @@ export function modelSummaryLines(model: SurfaceModel): string[] {
       );
     }
   }
-  lines.push(`Model: ${KERNEL_TEXT[model.kernel]}, ${model.trend} trend, ${d.n} points`);
+  lines.push(`Model: ${KERNEL_TABLE[model.kernel].text}, ${model.trend} trend, ${d.n} points`);
   if (model.transform === "log") {
     lines.push("  values fitted as ln z; estimates back-transformed as exp(f + σ²/2) (lognormal bias correction); σ, GCV and residuals are in log units");
   }
