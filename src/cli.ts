@@ -6,27 +6,11 @@ import { ExitCode, RbfieldError } from "./errors.ts";
 import type { GridOptions } from "./evaluate/grid.ts";
 import { KERNELS, TRENDS } from "./fit/kernels.ts";
 import type { FitOptions } from "./fit/surface.ts";
-import { gridModelParallel } from "./evaluate/parallel.ts";
-import { gridStandardError } from "./evaluate/stderr.ts";
-import {
-  contourGeoJson,
-  estimateColumns,
-  estimateSummaryLines,
-  estimateTable,
-  estimateWarnings,
-  fitPointsFile,
-  readGrid,
-  readMask,
-  readModel,
-  runJob,
-} from "./job.ts";
-import { MODEL_VERSION, modelToJson, type SurfaceModel } from "./model/model.ts";
-import { readPointTable } from "./read/points.ts";
-import type { TrendName, KernelName } from "./types.ts";
-import { checkWritableFolder, refuseInputAsOutput, writeFileAtomic } from "./write/atomic.ts";
-import { estimatesCsv } from "./write/csv.ts";
-import { encodeGeoTiff } from "./write/geotiff.ts";
-import { fmt, modelSummaryLines } from "./write/summary.ts";
+import { readMask } from "./job.ts";
+import { MODEL_VERSION } from "./model/model.ts";
+import type { KernelName, TrendName } from "./types.ts";
+import { contourVerb, fitVerb, gridVerb, predictVerb, runVerb, type VerbResult } from "./verbs.ts";
+import { outputNamesText } from "./write/outputs.ts";
 
 type Spec = Record<string, { type: "string" | "boolean" }>;
 
@@ -154,8 +138,7 @@ ${COMMON_HELP}
   run: `Usage: deno task rbfield run POINTS --out DIR [options]
 
 The whole job: fit, grid, contours and bands, estimates and a summary, written into DIR as
-model.rbfield.json, surface.tif, stderr.tif, contours.geojson, bands.geojson, estimates.csv,
-residuals.csv (leave-one-out residuals and blunder flags per point) and run-summary.txt.
+${outputNamesText()}.
 
 ${POINTS_HELP}
 ${MODEL_HELP}
@@ -173,6 +156,12 @@ const RENAMED: Record<string, string> = {
   anisotropy: "--stretch AZIMUTH:FACTOR (e.g. 45:3)",
   "flag-threshold": "--flag-level ALPHA (the blunder test's false-alarm rate, e.g. 0.05)",
 };
+
+/** The command-line flag of a library option (camelCase → --kebab-case; a few differ). */
+function flagOf(option: string): string {
+  const special: Record<string, string> = { weights: "--weight", shapeOpt: "--shape" };
+  return special[option] ?? `--${option.replace(/[A-Z]/g, (c) => `-${c.toLowerCase()}`)}`;
+}
 
 function usage(message: string): RbfieldError {
   return new RbfieldError(message, ExitCode.usage);
@@ -251,34 +240,6 @@ function pointsSource(file: string, v: Record<string, unknown>) {
   };
 }
 
-function modelJson(model: SurfaceModel): Record<string, unknown> {
-  const d = model.diagnostics;
-  return {
-    kernel: model.kernel,
-    shape: model.shape,
-    trend: model.trend,
-    lambda: model.lambda,
-    edf: d.edf,
-    gcv: d.gcv,
-    loocvRmse: d.loocvRmse,
-    rmse: d.rmse,
-    sigma: d.sigma,
-    condition: d.condition,
-    n: d.n,
-    smoothingChoice: d.smoothingChoice,
-    shapeChoice: d.shapeChoice,
-    transform: model.transform,
-    stretch: model.stretch,
-    selection: d.selection,
-    flaggedLines: d.flags.lines,
-    flagTest: { test: d.flags.test, level: d.flags.level, critical: d.flags.critical },
-    robust: d.robust,
-    crs: model.crs,
-    warnings: d.warnings,
-    caution: CAUTION,
-  };
-}
-
 interface Io {
   out: (s: string) => void;
   err: (s: string) => void;
@@ -336,96 +297,43 @@ export async function main(args: string[], io: Io): Promise<number> {
     const out = v.out as string | undefined;
     if (!out) throw usage(`${verb} needs --out (see 'deno task rbfield ${verb} --help')`);
     const maskFile = typeof v.mask === "string" && v.mask !== "hull" && v.mask !== "none" ? [v.mask] : [];
-    if (verb !== "run") {
-      refuseInputAsOutput(out, [...pos, ...maskFile]);
-      checkWritableFolder(out);
-    }
-
-    if (verb === "fit") {
-      const fit = fitOptions(v);
-      const r = await fitPointsFile(pointsSource(pos[0], v), { ...fit, progress });
-      writeFileAtomic(out, modelToJson(r.model));
-      if (v.json) io.out(JSON.stringify({ ...modelJson(r.model), model: out }, null, 2) + "\n");
-      else io.out([...r.notes, ...modelSummaryLines(r.model), `Model written to ${out}`, "", CAUTION, ""].join("\n"));
-      return 0;
-    }
-    if (verb === "grid") {
-      const model = readModel(pos[0]);
-      const seOut = v.stderr as string | undefined;
-      if (seOut) {
-        refuseInputAsOutput(seOut, [...pos, ...maskFile, out]);
-        checkWritableFolder(seOut);
-      }
-      const grid = await gridModelParallel(model, { ...gridOptions(v), progress });
-      const se = seOut ? gridStandardError(model, grid, progress) : undefined;
-      writeFileAtomic(out, encodeGeoTiff(grid));
-      if (seOut && se) writeFileAtomic(seOut, encodeGeoTiff(se.grid));
-      const s = grid.spec;
-      const info = { cols: s.cols, rows: s.rows, cell: s.cell, extent: [s.xmin, s.ymin, s.xmax, s.ymax], crs: grid.crs, file: out, stderrFile: seOut ?? null, stderrStride: se?.stride ?? null };
-      if (v.json) io.out(JSON.stringify({ ...info, caution: CAUTION }, null, 2) + "\n");
-      else {
-        const seLine = seOut && se
-          ? `Standard error of the estimate written to ${seOut}${se.stride > 1 ? ` (computed every ${se.stride} cells and interpolated)` : ""}; ` +
-            "a model-based figure, not a survey tolerance\n"
-          : "";
-        io.out(`Grid ${s.cols} × ${s.rows} cells of ${fmt(s.cell)} written to ${out} (extent ${s.xmin}, ${s.ymin} to ${s.xmax}, ${s.ymax}; CRS ${grid.crs.label})\n${seLine}\n${CAUTION}\n`);
-      }
-      return 0;
-    }
-    if (verb === "contour") {
+    let result: VerbResult;
+    if (verb === "fit") result = await fitVerb(pointsSource(pos[0], v), { ...fitOptions(v), progress }, out);
+    else if (verb === "grid") {
+      result = await gridVerb({ model: pos[0], out, stderr: v.stderr as string | undefined, grid: { ...gridOptions(v), progress }, otherInputs: maskFile });
+    } else if (verb === "contour") {
       const interval = num(v.interval as string | undefined, "interval");
       if (interval === undefined) throw usage("contour needs --interval DZ");
-      const input = pos[0];
-      const isTiff = /\.tiff?$/i.test(input);
-      const grid = isTiff ? await readGrid(input) : await gridModelParallel(readModel(input), { ...gridOptions(v), progress });
-      const r = contourGeoJson(grid, interval, num(v.base as string | undefined, "base") ?? 0, Boolean(v.bands));
-      writeFileAtomic(out, r.text);
-      if (v.json) io.out(JSON.stringify({ levels: r.levels, bands: Boolean(v.bands), file: out, caution: CAUTION }, null, 2) + "\n");
-      else {
-        const what = v.bands ? `${r.features} filled bands` : `contour lines at ${r.features} levels`;
-        io.out(`${what[0].toUpperCase()}${what.slice(1)} (interval ${fmt(interval)}) written to ${out}; coordinates in the grid's CRS (${grid.crs.label})\n\n${CAUTION}\n`);
-      }
-      return 0;
+      result = await contourVerb({
+        input: pos[0],
+        out,
+        interval,
+        base: num(v.base as string | undefined, "base") ?? 0,
+        bands: Boolean(v.bands),
+        grid: { ...gridOptions(v), progress },
+        otherInputs: maskFile,
+      });
+    } else if (verb === "predict") {
+      result = await predictVerb({ model: pos[0], locations: pos[1], out, x: v.x as string | undefined, y: v.y as string | undefined });
+    } else {
+      result = await runVerb({
+        ...pointsSource(pos[0], v),
+        outDir: out,
+        fit: fitOptions(v),
+        grid: gridOptions(v),
+        interval: num(v.interval as string | undefined, "interval"),
+        base: num(v.base as string | undefined, "base"),
+        locations: v.locations as string | undefined,
+        otherInputs: maskFile,
+        progress,
+      });
     }
-    if (verb === "predict") {
-      const model = readModel(pos[0]);
-      const table = await readPointTable(pos[1], { x: v.x as string | undefined, y: v.y as string | undefined, needValue: false });
-      const est = estimateTable(model, table);
-      writeFileAtomic(out, estimatesCsv(table, estimateColumns(est)));
-      // Empty or all-zero standard errors never pass without a reason on stderr.
-      for (const w of estimateWarnings(est)) io.err(`rbfield: warning: ${w}`);
-      if (v.json) {
-        const info = {
-          rows: table.rows.length,
-          unusableLines: est.unusable,
-          outsideHullLines: est.outsideHull,
-          farFromDataLines: est.farFromData,
-          outOfRangeLines: est.outOfRange,
-          file: out,
-          caution: CAUTION,
-        };
-        io.out(JSON.stringify(info, null, 2) + "\n");
-      } else io.out([...estimateSummaryLines(est, model), `Written to ${out}`, "", CAUTION, ""].join("\n"));
-      return 0;
-    }
-    // run
-    const r = await runJob({
-      ...pointsSource(pos[0], v),
-      outDir: out,
-      fit: fitOptions(v),
-      grid: gridOptions(v),
-      interval: num(v.interval as string | undefined, "interval"),
-      base: num(v.base as string | undefined, "base"),
-      locations: v.locations as string | undefined,
-      otherInputs: maskFile,
-      progress,
-    });
-    if (v.json) io.out(JSON.stringify({ ...modelJson(r.model), files: r.files }, null, 2) + "\n");
-    else io.out(r.summary);
+    for (const w of result.warnings) io.err(`rbfield: warning: ${w}`);
+    io.out(v.json ? JSON.stringify(result.json, null, 2) + "\n" : result.text);
     return 0;
   } catch (e) {
     if (e instanceof RbfieldError) {
-      io.err(`rbfield: ${e.message.split("\n")[0]}`);
+      io.err(`rbfield: ${e.messageFor(flagOf).split("\n")[0]}`);
       return e.exitCode;
     }
     io.err(`rbfield: internal error: ${(e as Error)?.message ?? String(e)}${debug ? "" : " (run with --debug for details)"}`);

@@ -17,17 +17,45 @@ export const ExitCode = {
 } as const;
 export type ExitCodeValue = (typeof ExitCode)[keyof typeof ExitCode];
 
+/**
+ * A reference to a library option inside a message, e.g. `choose a larger cell size (${opt("cell")})`.
+ * The library's message says "option cell"; the CLI says "--cell" (see RbfieldError.messageFor).
+ */
+export function opt(name: string): string {
+  return `{${name}}`;
+}
+
+const OPTION_TOKEN = /\{([a-zA-Z][a-zA-Z0-9]*)\}/g;
+
 export class RbfieldError extends Error {
   readonly exitCode: ExitCodeValue;
   readonly place?: SourcePlace;
-  /** The library option the problem concerns (e.g. "trend"), which the CLI names as its flag. */
-  readonly option?: string;
+  /** The library options the message refers to (e.g. "trend"), which the CLI names as its flags. */
+  readonly options: string[];
+  /** The message with its option references unrendered. */
+  readonly template: string;
   constructor(message: string, exitCode: ExitCodeValue = ExitCode.input, place?: SourcePlace, option?: string) {
-    super(place ? `${formatPlace(place)}: ${message}` : message);
+    super(RbfieldError.render(message, place, (n) => `option ${n}`));
     this.name = "RbfieldError";
     this.exitCode = exitCode;
     this.place = place;
-    this.option = option;
+    this.template = message;
+    this.options = [...new Set([...message.matchAll(OPTION_TOKEN)].map((m) => m[1]).concat(option ? [option] : []))];
+  }
+
+  /** The first option the message refers to, if any. */
+  get option(): string | undefined {
+    return this.options[0];
+  }
+
+  /** The message with each option reference written by `name` (the CLI passes its flag names). */
+  messageFor(name: (option: string) => string): string {
+    return RbfieldError.render(this.template, this.place, name);
+  }
+
+  private static render(message: string, place: SourcePlace | undefined, name: (option: string) => string): string {
+    const text = message.replace(OPTION_TOKEN, (_m, n: string) => name(n));
+    return place ? `${formatPlace(place)}: ${text}` : text;
   }
 }
 

@@ -3,21 +3,21 @@
 import * as fs from "node:fs";
 import * as path from "node:path";
 import { cleanPoints, describeCleaning } from "./clean/clean.ts";
-import { ExitCode, inputError, RbfieldError } from "./errors.ts";
+import { ExitCode, inputError, opt, RbfieldError } from "./errors.ts";
 import { makeEvaluator } from "./evaluate/evaluate.ts";
 import { extrapolationNote, FAR_SPACINGS, makeExtrapolationCheck } from "./evaluate/extrapolation.ts";
 import { gridModelParallel } from "./evaluate/parallel.ts";
 import { type ErrorEstimator, gridStandardError, makeErrorEstimator } from "./evaluate/stderr.ts";
-import { type GridOptions, niceFloor, polygonsFromGeoJson, type PolygonRings } from "./evaluate/grid.ts";
+import { type GridOptions, polygonsFromGeoJson, type PolygonRings } from "./evaluate/grid.ts";
+import { valueRange } from "./numbers.ts";
+import { contourGeoJson, defaultInterval } from "./write/contours.ts";
+import { fileListLines, type RunProducts, RUN_OUTPUTS } from "./write/outputs.ts";
 import { type FitOptions, type FittedModel, fitSurfaceParallelWithFactors } from "./fit/surface.ts";
-import { modelFromJson, modelToJson, type SurfaceModel } from "./model/model.ts";
+import { modelFromJson, type SurfaceModel } from "./model/model.ts";
 import { decodeGeoTiff } from "./read/geotiff.ts";
 import { parseNumber, readPointTable } from "./read/points.ts";
 import type { CleanPoints, Crs, GridValues, PointTable } from "./types.ts";
 import { checkWritableFolder, ensureFolder, refuseFolderAsOutput, refuseInputAsOutput, writeFilesAtomic } from "./write/atomic.ts";
-import { contourBands, contourLevels, contourLines } from "./write/contours.ts";
-import { estimatesCsv } from "./write/csv.ts";
-import { encodeGeoTiff } from "./write/geotiff.ts";
 import { fmt, modelSummaryLines, printableText, summaryText } from "./write/summary.ts";
 
 /** Parse "EPSG:28355" (or "epsg:28355", "28355") or "local". */
@@ -25,7 +25,7 @@ export function parseCrs(text: string): Crs {
   const t = text.trim();
   if (/^local$/i.test(t)) return { label: "local site grid (no EPSG code)" };
   const m = /^(?:epsg:)?(\d{4,6})$/i.exec(t);
-  if (!m) throw new RbfieldError(`--crs must look like EPSG:28355 or be "local", not "${t}"`, ExitCode.usage);
+  if (!m) throw new RbfieldError(`${opt("crs")} must look like EPSG:28355 or be "local", not "${t}"`, ExitCode.usage);
   const epsg = Number(m[1]);
   return { epsg, label: `EPSG:${epsg}` };
 }
@@ -59,7 +59,7 @@ function readWeights(src: PointsSource, table: PointTable, points: CleanPoints):
   const lower = name.toLowerCase();
   const col = table.columns.findIndex((c) => c.toLowerCase() === lower);
   if (col < 0) {
-    throw inputError(`no column named "${printableText(name)}" for --weight; columns are ${table.columns.map(printableText).join(", ")}`, {
+    throw inputError(`no column named "${printableText(name)}" for ${opt("weight")}; columns are ${table.columns.map(printableText).join(", ")}`, {
       file: src.file,
       line: 1,
     });
@@ -77,7 +77,7 @@ function readWeights(src: PointsSource, table: PointTable, points: CleanPoints):
       const w = byLine.get(l)!;
       if (!(w > 0) || !Number.isFinite(w)) {
         const cell = printableText(String(table.rows[table.lines.indexOf(l)][col] ?? "")).slice(0, 40);
-        throw inputError(`weight "${cell}" in column "${printableText(name)}" must be a positive number; correct it or drop --weight`, {
+        throw inputError(`weight "${cell}" in column "${printableText(name)}" must be a positive number; correct it or drop ${opt("weight")}`, {
           file: src.file,
           line: l,
         });
@@ -101,8 +101,8 @@ export async function loadPoints(src: PointsSource): Promise<LoadedPoints> {
     if (bad) {
       throw inputError(
         `coincident points on lines ${bad.lines.join(", ")} have values that differ by ${fmt(bad.spread)}, more than the ` +
-          `${src.maxSpread === undefined ? "default limit (5% of the value range)" : "--max-spread limit"} ${fmt(limit)}; ` +
-          "correct or remove the wrong one, or use --merge-conflicts to average them",
+          `${src.maxSpread === undefined ? "default limit (5% of the value range)" : `${opt("maxSpread")} limit`} ${fmt(limit)}; ` +
+          `correct or remove the wrong one, or use ${opt("mergeConflicts")} to average them`,
         { file: src.file, line: bad.lines[0] },
       );
     }
@@ -133,7 +133,7 @@ export async function fitPointsFile(src: PointsSource, fit: FitOptions = {}): Pr
     });
   } catch (e) {
     // Fit-stage problems concern the points file: name it.
-    if (e instanceof RbfieldError && !e.place) throw new RbfieldError(e.message, e.exitCode, { file: src.file });
+    if (e instanceof RbfieldError && !e.place) throw new RbfieldError(e.template, e.exitCode, { file: src.file }, e.option);
     throw e;
   }
   return { ...loaded, ...fitted };
@@ -165,37 +165,6 @@ export function readMask(file: string): PolygonRings[] {
     throw new RbfieldError("the mask file is not valid GeoJSON; give Polygon or MultiPolygon features", ExitCode.input, { file });
   }
   return polygonsFromGeoJson(data, file);
-}
-
-/** Smallest and largest value, NaN (masked cells) left out; lo > hi when there is none. */
-export function valueRange(values: ArrayLike<number>): { lo: number; hi: number } {
-  let lo = Infinity, hi = -Infinity;
-  for (let i = 0; i < values.length; i++) {
-    const v = values[i];
-    if (Number.isNaN(v)) continue;
-    if (v < lo) lo = v;
-    if (v > hi) hi = v;
-  }
-  return { lo, hi };
-}
-
-/** A sensible contour interval: a nice number giving about ten levels over the range. */
-export function defaultInterval(grid: GridValues): number {
-  const { lo, hi } = valueRange(grid.values);
-  return hi > lo ? niceFloor((hi - lo) / 10) : 1;
-}
-
-/** Contour a grid into a GeoJSON text. */
-export function contourGeoJson(grid: GridValues, interval: number, base = 0, bands = false): { text: string; levels: number[]; features: number } {
-  if (!(interval > 0) || !Number.isFinite(interval)) throw new RbfieldError(`--interval must be a positive number, not ${interval}`, ExitCode.usage);
-  const { lo, hi } = valueRange(grid.values);
-  if (!(hi >= lo)) throw new RbfieldError("the grid has no unmasked cells to contour", ExitCode.input);
-  const levels = contourLevels(lo, hi, interval, base);
-  const fc = bands ? contourBands(grid, contourLevels(lo - interval, hi + interval, interval, base)) : contourLines(grid, levels);
-  // RFC 7946 dropped the "crs" member and assumes WGS 84; rbfield keeps the points' CRS (see README),
-  // so it names that CRS the way GDAL and most GIS still read it (the 2008 GeoJSON "crs" member).
-  const out = grid.crs.epsg === undefined ? fc : { type: fc.type, crs: { type: "name", properties: { name: `urn:ogc:def:crs:EPSG::${grid.crs.epsg}` } }, features: fc.features };
-  return { text: JSON.stringify(out) + "\n", levels, features: fc.features.length };
 }
 
 /** Read a GeoTIFF grid file. */
@@ -325,43 +294,6 @@ export function estimateSummaryLines(est: EstimateTable, model: SurfaceModel): s
   return out;
 }
 
-/**
- * Per-point residual table (CSV): input line, position, value, fitted value, residual, leave-one-out
- * residual, its studentised value (Pope's tau), the blunder flag and, for a robust fit, the
- * robustness weight. For log fits, residuals are in log units.
- */
-export function residualsCsv(model: SurfaceModel): string {
-  const log = model.transform === "log";
-  const rw = model.points.robustWeight;
-  const tau = model.diagnostics.flags.test === "tau";
-  const header = [
-    "line", "x", "y", "value", `fitted${log ? "_log" : ""}`, `residual${log ? "_log" : ""}`, `loo_residual${log ? "_log" : ""}`,
-    tau ? "loo_studentised" : "loo_standardised", "flag", ...(rw ? ["robust_weight"] : []),
-  ];
-  const lines = [header.join(",")];
-  const p = model.points;
-  const flagged = new Set(model.diagnostics.flags.lines);
-  for (let i = 0; i < p.x.length; i++) {
-    const v = log ? Math.log(p.z[i]) : p.z[i];
-    const zst = model.looStandardised[i];
-    lines.push(
-      [
-        p.line[i],
-        p.x[i],
-        p.y[i],
-        p.z[i],
-        fmt(model.fitted[i], 10),
-        fmt(v - model.fitted[i], 6),
-        model.loo[i] === null ? "" : fmt(model.loo[i], 6),
-        model.loo[i] === null || zst === null ? "" : fmt(zst, 4),
-        flagged.has(p.line[i]) ? "possible blunder" : "",
-        ...(rw ? [fmt(rw[i], 4)] : []),
-      ].join(","),
-    );
-  }
-  return lines.join("\r\n") + "\r\n";
-}
-
 export interface RunOptions extends PointsSource {
   outDir: string;
   fit?: FitOptions;
@@ -378,24 +310,17 @@ export interface RunOptions extends PointsSource {
 
 export interface RunResult {
   model: SurfaceModel;
+  /** Output key → path (see RUN_OUTPUTS). */
   files: Record<string, string>;
   summary: string;
+  /** Warnings for stderr (rows left empty, standard errors that are all zero, wild estimates). */
+  warnings: string[];
 }
 
-/** The whole job on a points file into an output folder. */
+/** The whole job on a points file into an output folder (files: RUN_OUTPUTS). */
 export async function runJob(opts: RunOptions): Promise<RunResult> {
   const out = opts.outDir;
-  const files = {
-    model: path.join(out, "model.rbfield.json"),
-    surface: path.join(out, "surface.tif"),
-    stderr: path.join(out, "stderr.tif"),
-    contours: path.join(out, "contours.geojson"),
-    bands: path.join(out, "bands.geojson"),
-    estimates: path.join(out, "estimates.csv"),
-    residuals: path.join(out, "residuals.csv"),
-    // Not "summary.txt": GDAL reads a file of that name beside a GeoTIFF as satellite (ALOS) metadata.
-    summary: path.join(out, "run-summary.txt"),
-  };
+  const files = Object.fromEntries(RUN_OUTPUTS.map((o) => [o.key, path.join(out, o.file)]));
   const inputs = [opts.file, ...(opts.locations ? [opts.locations] : []), ...(opts.otherInputs ?? [])];
   const created = !fs.existsSync(out);
   ensureFolder(out);
@@ -429,7 +354,7 @@ async function runInto(opts: RunOptions, files: Record<string, string>, inputs: 
   const lines = contourGeoJson(grid, interval, opts.base ?? 0, false);
   const bands = contourGeoJson(grid, interval, opts.base ?? 0, true);
   opts.progress?.("standard errors");
-  // One error estimator (an O(N³) setup) serves the estimates table and the error grid.
+  // One error estimator serves the estimates table and the error grid, from the fit's own factors.
   const errorEstimator = makeErrorEstimator(model, fitted.factors);
   const est = estimateTable(model, locTable, errorEstimator);
   const errors = gridStandardError(model, grid, opts.progress, errorEstimator);
@@ -453,28 +378,18 @@ async function runInto(opts: RunOptions, files: Record<string, string>, inputs: 
       `Contours: interval ${fmt(interval)}, ${lines.levels.length} levels; bands between them`,
       ...estimateSummaryLines(est, model),
     ],
-    [
-      "Files:",
-      `  model      ${files.model}`,
-      `  grid       ${files.surface}`,
-      `  std error  ${files.stderr}`,
-      `  contours   ${files.contours}`,
-      `  bands      ${files.bands}`,
-      `  estimates  ${files.estimates}`,
-      `  residuals  ${files.residuals}`,
-      `  summary    ${files.summary}`,
-    ],
+    fileListLines(files),
   ]);
+  const products: RunProducts = {
+    model,
+    grid,
+    stderrGrid: errors.grid,
+    contours: lines.text,
+    bands: bands.text,
+    estimates: { table: locTable, columns: estimateColumns(est) },
+    summary,
+  };
   // Everything is computed; write all files as one step (temporary files, then renames).
-  writeFilesAtomic([
-    [files.model, modelToJson(model)],
-    [files.surface, encodeGeoTiff(grid)],
-    [files.stderr, encodeGeoTiff(errors.grid)],
-    [files.contours, lines.text],
-    [files.bands, bands.text],
-    [files.estimates, estimatesCsv(locTable, estimateColumns(est))],
-    [files.residuals, residualsCsv(model)],
-    [files.summary, summary],
-  ]);
-  return { model, files, summary };
+  writeFilesAtomic(RUN_OUTPUTS.map((o) => [files[o.key], o.render(products)]));
+  return { model, files, summary, warnings: estimateWarnings(est) };
 }

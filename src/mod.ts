@@ -9,19 +9,24 @@ export { decodeGeoTiff } from "./read/geotiff.ts";
 // clean
 export { cleanPoints, type CleanOptions, describeCleaning } from "./clean/clean.ts";
 // fit and select
-export { fitSurface, fitSurfaceParallel, type FitOptions, medianSpacing } from "./fit/surface.ts";
-export { TRENDS, KERNELS, minimumTrend } from "./fit/kernels.ts";
+export { fitSurface, fitSurfaceParallel, fitSurfaceWithFactors, type FitOptions, type FittedModel } from "./fit/surface.ts";
+export { KERNEL_TABLE, KERNELS, minimumTrend, TRENDS } from "./fit/kernels.ts";
 export { MODEL_FORMAT, MODEL_VERSION, modelFromJson, modelToJson, type SurfaceModel } from "./model/model.ts";
-// evaluate
-export { evaluateModel, makeEvaluator, type Evaluator } from "./evaluate/evaluate.ts";
+// evaluate: one surface interface whatever the method
+export { evaluateModel, evaluatorOf, makeEvaluator, packSurface, type Evaluator, type PackedSurface } from "./evaluate/evaluate.ts";
 export { gridLayout, gridModel, type GridOptions, MAX_CELLS, polygonMask } from "./evaluate/grid.ts";
 export { gridModelParallel } from "./evaluate/parallel.ts";
 export { gridStandardError, makeErrorEstimator, type ErrorEstimator } from "./evaluate/stderr.ts";
+export { makeExtrapolationCheck } from "./evaluate/extrapolation.ts";
 // write
 export { encodeGeoTiff } from "./write/geotiff.ts";
-export { contourBands, contourLevels, contourLines } from "./write/contours.ts";
+export { contourBands, contourGeoJson, contourLevels, contourLines } from "./write/contours.ts";
 export { estimatesCsv, formatNumber } from "./write/csv.ts";
+export { residualsCsv } from "./write/residuals.ts";
+export { RUN_OUTPUTS } from "./write/outputs.ts";
 export { writeFileAtomic } from "./write/atomic.ts";
 export { modelSummaryLines, summaryText } from "./write/summary.ts";
-// the whole job
+export { medianSpacing, convexHullRing } from "./geometry.ts";
+// the whole job and the verbs
 export { fitPointsFile, loadPoints, parseCrs, readGrid, readModel, runJob, type RunOptions } from "./job.ts";
+export { contourVerb, fitVerb, gridVerb, predictVerb, runVerb, type VerbResult } from "./verbs.ts";

@@ -9,6 +9,7 @@
 // advice, exit codes), RFC 4180 (CSV quoting and record structure), RFC 7946 (GeoJSON Point features),
 // IEEE 754 (the double and Float32 ranges), RFC 8259 (JSON syntax) and common practice for atomic
 // replacement of files (write a new temporary file, then rename).
+import { RUN_OUTPUTS } from "../src/write/outputs.ts";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
 import { errorOf } from "./helpers.ts";
 import { spawnSync } from "node:child_process";
@@ -27,7 +28,7 @@ import type { GridValues } from "../src/types.ts";
 
 const FIXTURES = fileURLToPath(new URL("./fixtures/bad/", import.meta.url));
 const ROOT = fileURLToPath(new URL("../", import.meta.url));
-const RUN_OUTPUTS = ["model.rbfield.json", "surface.tif", "contours.geojson", "bands.geojson", "estimates.csv", "residuals.csv", "run-summary.txt"];
+const RUN_FILES = RUN_OUTPUTS.map((o) => o.file);
 /** Stands for a model fitted (in beforeAll) from good-points.csv, copied into the case's folder. */
 const GOOD_MODEL = "good.rbfield.json";
 
@@ -764,7 +765,7 @@ describe("bad inputs: one line, the right exit code, no output, inputs unchanged
         if (!c.outIsInput && !fs.existsSync(p.out)) {
           if (c.out === "dir") {
             fs.mkdirSync(p.out);
-            for (const name of RUN_OUTPUTS) fs.writeFileSync(path.join(p.out, name), `earlier ${name}\n`);
+            for (const name of RUN_FILES) fs.writeFileSync(path.join(p.out, name), `earlier ${name}\n`);
           } else if (fs.existsSync(path.dirname(p.out))) {
             fs.writeFileSync(p.out, "earlier output\n");
           }

@@ -1,5 +1,6 @@
 // End-to-end checks of the command-line tool on small files made here; outputs are read back with
 // independent tools where one exists (GDAL's gdalinfo, Debian package gdal-bin).
+import { RUN_OUTPUTS } from "../src/write/outputs.ts";
 import { afterAll, describe, expect, it } from "vitest";
 import { execFileSync } from "node:child_process";
 import * as fs from "node:fs";
@@ -114,9 +115,8 @@ describe("rbfield CLI", () => {
     const dir = path.join(tmp, "job");
     const r = await cli(["run", pointsFile, "--out", dir, "--quiet"]);
     expect(r.code).toBe(0);
-    for (const f of ["model.rbfield.json", "surface.tif", "contours.geojson", "bands.geojson", "estimates.csv", "residuals.csv", "run-summary.txt"]) {
-      expect(fs.existsSync(path.join(dir, f))).toBe(true);
-    }
+    // Every file of the one list of outputs, and nothing else.
+    expect(fs.readdirSync(dir).sort()).toEqual(RUN_OUTPUTS.map((o) => o.file).sort());
     expect(r.out).toMatch(/does not replace a survey by a licensed surveyor/);
     if (hasGdal()) {
       // GDAL takes a "summary.txt" beside a GeoTIFF for satellite (ALOS) metadata; the run folder must

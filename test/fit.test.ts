@@ -9,6 +9,8 @@ import { fitSurface } from "../src/fit/surface.ts";
 import { fitCore } from "../src/fit/core.ts";
 import { influenceComplementDiagonal, influenceComplementDiagonalCholesky, rotatedBasis } from "../src/fit/influence.ts";
 import { evaluateModel } from "../src/evaluate/evaluate.ts";
+import { globalEvaluator } from "../src/evaluate/global.ts";
+import { KERNEL_TABLE, KERNELS } from "../src/fit/kernels.ts";
 import type { CleanPoints, TrendName, KernelName } from "../src/types.ts";
 import { franke, makePoints, mulberry32 } from "./helpers.ts";
 
@@ -227,5 +229,28 @@ describe("degenerate data is refused with a clear message", () => {
   });
   it("too few points for the trend", () => {
     expect(() => fitSurface(makePoints(5, 1, franke), { kernel: "gaussian", trend: "quadratic", shape: 1 })).toThrow(/too few/);
+  });
+});
+
+describe("the kernel table and the evaluator's unrolled loops agree", () => {
+  // The evaluator writes one loop per kernel for speed (evaluate/global.ts); the kernel table
+  // (fit/kernels.ts) is the one statement of each formula, itself checked against scipy in
+  // test/reference.test.ts. Random centres, weights and trend coefficients.
+  it("for every kernel of KERNEL_TABLE", () => {
+    const r = mulberry32(77);
+    const n = 25;
+    const u = Float64Array.from({ length: n }, () => r() * 2 - 1), v = Float64Array.from({ length: n }, () => r() * 2 - 1);
+    const w = Float64Array.from({ length: n }, () => r() - 0.5), c = Float64Array.from([0.3, -0.2, 0.7]);
+    for (const kernel of KERNELS) {
+      const eps = 1.7;
+      const ev = globalEvaluator({
+        method: "global", kernel, epsilonScaled: eps, scaling: { cx: 0, cy: 0, s: 1, zc: 0, zs: 1 }, stretch: null, logBias: 0, u, v, w, c,
+      });
+      for (const [x, y] of [[0.1, -0.3], [0.77, 0.5], [u[3], v[3]]]) {
+        let f = c[0] + c[1] * x + c[2] * y;
+        for (let i = 0; i < n; i++) f += w[i] * KERNEL_TABLE[kernel].phi((x - u[i]) ** 2 + (y - v[i]) ** 2, eps * eps);
+        expect(Math.abs(ev.at(x, y) - f), kernel).toBeLessThan(1e-12);
+      }
+    }
   });
 });

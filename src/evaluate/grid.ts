@@ -1,21 +1,13 @@
 // Grid layout, masks and gridding. Cells are areas (PixelIsArea in OGC GeoTIFF 1.1 terms): the
 // extent is the outer edge of the outer cells; cell centres sit half a cell inside.
-import { ExitCode, RbfieldError } from "../errors.ts";
+import { ExitCode, opt, RbfieldError } from "../errors.ts";
 import type { SurfaceModel } from "../model/model.ts";
 import type { GridSpec, GridValues } from "../types.ts";
+import { niceFloor } from "../numbers.ts";
 import { type Evaluator, makeEvaluator } from "./evaluate.ts";
 
 /** Grids with more cells than this are refused unless forced (100 M cells ≈ 400 MB as Float32). */
 export const MAX_CELLS = 100_000_000;
-
-/** Largest "nice" number (1, 2, 2.5 or 5 × 10ᵏ) not above v. */
-export function niceFloor(v: number): number {
-  const k = Math.floor(Math.log10(v));
-  const base = Math.pow(10, k);
-  const f = v / base;
-  const step = f >= 5 ? 5 : f >= 2.5 ? 2.5 : f >= 2 ? 2 : 1;
-  return step * base;
-}
 
 /** Default cell: half the median point spacing, and at least 200 cells along the longer side. */
 export function defaultCell(model: SurfaceModel): number {
@@ -71,14 +63,14 @@ export function gridLayout(model: SurfaceModel, options: GridLayoutOptions = {})
   // A cell far smaller than the coordinates (e.g. 1e-320) makes the edges or the counts overflow.
   if (![xmin, ymin, xmax, ymax, cols, rows].every(Number.isFinite) || cols * rows > Number.MAX_SAFE_INTEGER) {
     throw new RbfieldError(
-      `a cell of ${cell} map units gives a grid too large to count over this extent; choose a larger --cell`,
+      `a cell of ${cell} map units gives a grid too large to count over this extent; choose a larger ${opt("cell")}`,
       ExitCode.usage,
     );
   }
   if (cols * rows > MAX_CELLS && !options.force) {
     throw new RbfieldError(
       `a ${cols} × ${rows} grid (${(cols * rows).toLocaleString("en")} cells) is larger than the ${MAX_CELLS.toLocaleString("en")}-cell limit; ` +
-        "choose a larger --cell or pass --force",
+        `choose a larger ${opt("cell")} or pass ${opt("force")}`,
       ExitCode.usage,
     );
   }
@@ -138,7 +130,7 @@ export function polygonsFromGeoJson(data: unknown, file: string): PolygonRings[]
   if (!ok) {
     throw new RbfieldError(
       "the mask file holds no valid Polygon or MultiPolygon (RFC 7946 §3.1.6: closed rings of at least four [x, y] positions); " +
-        "give polygons in the points' coordinates, or use --mask hull or none",
+        `give polygons in the points' coordinates, or use ${opt("mask")} hull or none`,
       ExitCode.input,
       { file },
     );
@@ -166,7 +158,7 @@ export function startGrid(model: SurfaceModel, options: GridOptions = {}): { spe
   } catch (e) {
     if (!(e instanceof RangeError)) throw e;
     throw new RbfieldError(
-      `not enough memory for a ${spec.cols} × ${spec.rows} grid; choose a larger --cell or a smaller --extent`,
+      `not enough memory for a ${spec.cols} × ${spec.rows} grid; choose a larger ${opt("cell")} or a smaller ${opt("extent")}`,
       ExitCode.usage,
     );
   }

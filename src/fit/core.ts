@@ -11,7 +11,7 @@
 // costs O(N) per λ after one O(N³) reduction.
 // Leave-one-out residuals: eᵢ = wᵢ / Gᵢᵢ with G = Q₂ (B + λI)⁻¹ Q₂ᵀ, the upper-left block of the
 // inverse of the bordered system (Rippa 1999 for λ = 0; the same identity eᵢ = rᵢ / (1 − Aᵢᵢ) for λ > 0).
-import { ExitCode, RbfieldError } from "../errors.ts";
+import { ExitCode, opt, RbfieldError } from "../errors.ts";
 import type { KernelName, TrendName } from "../types.ts";
 import { boundingBox } from "../geometry.ts";
 import { KERNEL_TABLE, minimumTrend, trendRow, trendTerms, weightedKernelMatrix } from "./kernels.ts";
@@ -196,7 +196,7 @@ export function fitCore(u: Float64Array, v: Float64Array, y: Float64Array, zs: n
     if (Math.abs(r[j * m + j]) <= 1e-10 * rmax * Math.sqrt(n)) {
       throw new RbfieldError(
         `the points do not support ${opts.trend} trend (they lie on a line or on a conic, so the trend terms ` +
-          `are not independent); use --trend ${m > 3 ? "linear" : "constant"} or add points off the line`,
+          `are not independent); use ${opt("trend")} ${m > 3 ? "linear" : "constant"} or add points off the line`,
         ExitCode.numerical,
       );
     }
@@ -227,7 +227,7 @@ export function fitCore(u: Float64Array, v: Float64Array, y: Float64Array, zs: n
   if (!(mu[nb - 1] > 1e-14 * Math.max(kmax, 1e-300)) || !(mu[nb - 1] > 0)) {
     throw new RbfieldError(
       `the ${opts.kernel} kernel is flat at this shape over these points (no variation left after the trend); ` +
-        "use a larger --shape, --shape auto, or another kernel",
+        `use a larger ${opt("shape")}, ${opt("shape")} auto, or another kernel`,
       ExitCode.numerical,
     );
   }
@@ -235,7 +235,7 @@ export function fitCore(u: Float64Array, v: Float64Array, y: Float64Array, zs: n
   if (!(muMax > TRUST_FACTOR * rounding)) {
     throw new RbfieldError(
       `the ${opts.kernel} kernel is flat at this shape over these points (its variation after the trend is at rounding level); ` +
-        "use a larger --shape, --shape auto, or another kernel",
+        `use a larger ${opt("shape")}, ${opt("shape")} auto, or another kernel`,
       ExitCode.numerical,
     );
   }
@@ -369,7 +369,7 @@ function fmtExp(v: number): string {
 export function trendProblem(kernel: KernelName, trend: TrendName): string | undefined {
   const need = minimumTrend(kernel);
   if (trendTerms(trend) < trendTerms(need)) {
-    return `${kernel} needs at least ${need} trend (${KERNEL_TABLE[kernel].why}); use --trend ${need} or a higher degree`;
+    return `${kernel} needs at least ${need} trend (${KERNEL_TABLE[kernel].why}); use ${opt("trend")} ${need} or a higher degree`;
   }
   return undefined;
 }

@@ -1,6 +1,6 @@
 // Data prepared for fitting: values (or their logarithms), coordinates after the optional stretch,
 // centred and scaled by one isotropic scale, and normalised observation weights.
-import { ExitCode, RbfieldError } from "../errors.ts";
+import { ExitCode, opt, RbfieldError } from "../errors.ts";
 import { boundingBox, medianSpacing, stretchMap } from "../geometry.ts";
 import type { SurfaceModel } from "../model/model.ts";
 import { mulberry32 } from "../random.ts";
@@ -70,7 +70,7 @@ export function transformedValues(points: { z: ArrayLike<number>; lines: number[
   }
   if (bad.length) {
     throw new RbfieldError(
-      `--transform log needs positive values; ${bad.length} are zero or negative (lines ${bad.slice(0, 5).join(", ")}${bad.length > 5 ? ", …" : ""}); ` +
+      `${opt("transform")} log needs positive values; ${bad.length} are zero or negative (lines ${bad.slice(0, 5).join(", ")}${bad.length > 5 ? ", …" : ""}); ` +
         "correct them or fit without the log transform",
       ExitCode.input,
     );

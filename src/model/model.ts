@@ -3,6 +3,7 @@
 import { ExitCode, inputError, RbfieldError } from "../errors.ts";
 import { KERNELS, TRENDS } from "../fit/kernels.ts";
 import { checkGlobalPart, type GlobalPart } from "./global.ts";
+import { COORDINATE_LIMIT, VALUE_LIMIT } from "../numbers.ts";
 import type { Crs, TrendName, KernelName } from "../types.ts";
 
 export const MODEL_FORMAT = "rbfield-model";
@@ -170,9 +171,9 @@ export function modelFromJson(text: string, file: string): SurfaceModel {
   const pts = m.points as SurfaceModel["points"] | undefined;
   const n = Array.isArray(pts?.x) ? pts!.x.length : 0;
   if (!pts || !(n > 0) || !finiteArray(pts.x, n) || !finiteArray(pts.y, n) || !finiteArray(pts.z, n)) throw bad("points missing or not numbers");
-  // The limits the cleaning stage applies to input (coordinates within ±1e15, values within Float32 range).
+  // The limits the cleaning stage applies to input.
   const within = (a: number[], limit: number) => a.every((x) => Math.abs(x) <= limit);
-  if (!within(pts.x, 1e15) || !within(pts.y, 1e15) || !within(pts.z, 3.4e38)) throw bad("point coordinates or values out of range");
+  if (!within(pts.x, COORDINATE_LIMIT) || !within(pts.y, COORDINATE_LIMIT) || !within(pts.z, VALUE_LIMIT)) throw bad("point coordinates or values out of range");
   if (pts.weight !== null && pts.weight !== undefined && !(finiteArray(pts.weight, n) && pts.weight.every((w) => w > 0))) {
     throw bad("point weights are not positive numbers");
   }
@@ -184,7 +185,7 @@ export function modelFromJson(text: string, file: string): SurfaceModel {
   checkGlobalPart(m.global, n, m.trend as TrendName, bad);
   const an = m.stretch as SurfaceModel["stretch"] | undefined;
   if (an !== null && an !== undefined) {
-    if (typeof an !== "object" || ![an.azimuth, an.x0, an.y0].every((v) => finite(v) && Math.abs(v) <= 1e15) || !(finite(an.factor) && an.factor >= 1 && an.factor <= 1e6)) {
+    if (typeof an !== "object" || ![an.azimuth, an.x0, an.y0].every((v) => finite(v) && Math.abs(v) <= COORDINATE_LIMIT) || !(finite(an.factor) && an.factor >= 1 && an.factor <= 1e6)) {
       throw bad("stretch not numbers");
     }
   }
@@ -194,7 +195,7 @@ export function modelFromJson(text: string, file: string): SurfaceModel {
     throw bad("blunder flags missing");
   }
   const e = m.extent as SurfaceModel["extent"] | undefined;
-  if (!e || ![e.xmin, e.ymin, e.xmax, e.ymax].every((v) => finite(v) && Math.abs(v) <= 1e15)) throw bad("extent missing or not numbers");
+  if (!e || ![e.xmin, e.ymin, e.xmax, e.ymax].every((v) => finite(v) && Math.abs(v) <= COORDINATE_LIMIT)) throw bad("extent missing or not numbers");
   const hull = m.hull;
   if (!Array.isArray(hull) || hull.length < 4 || !hull.every((p) => Array.isArray(p) && finite(p[0]) && finite(p[1]))) throw bad("hull missing");
   if (!(finite(m.spacing) && (m.spacing as number) >= 0)) throw bad("spacing missing");

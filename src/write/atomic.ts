@@ -1,6 +1,6 @@
 // Safe output: write to a temporary file beside the target, then rename over it, so an
 // interrupted run never leaves a partial file and an existing output is replaced only on success.
-import { ExitCode, RbfieldError } from "../errors.ts";
+import { ExitCode, opt, RbfieldError } from "../errors.ts";
 import * as fs from "node:fs";
 import * as path from "node:path";
 
@@ -123,10 +123,10 @@ export function ensureFolder(dir: string): void {
   } catch (e) {
     const code = (e as { code?: string })?.code;
     const why = code === "EEXIST" || code === "ENOTDIR" ? "a file has that name" : reason(e, "folders cannot be created there");
-    throw new RbfieldError(`cannot create the output folder (${why}); choose another --out`, ExitCode.io, { file: dir });
+    throw new RbfieldError(`cannot create the output folder (${why}); choose another ${opt("out")}`, ExitCode.io, { file: dir });
   }
   if (!fs.statSync(dir).isDirectory()) {
-    throw new RbfieldError("cannot create the output folder (a file has that name); choose another --out", ExitCode.io, { file: dir });
+    throw new RbfieldError(`cannot create the output folder (a file has that name); choose another ${opt("out")}`, ExitCode.io, { file: dir });
   }
 }
 

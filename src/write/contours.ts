@@ -9,8 +9,9 @@
 //   three valid centres. Masked cell areas are never inside a band.
 import { contours as d3Contours } from "d3-contour";
 import { difference, featureCollection, multiPolygon, polygon, rewind } from "@turf/turf";
-import { ExitCode, RbfieldError } from "../errors.ts";
+import { ExitCode, opt, RbfieldError } from "../errors.ts";
 import { ringArea } from "../geometry.ts";
+import { niceFloor, valueRange } from "../numbers.ts";
 import type { GridSpec, GridValues } from "../types.ts";
 
 // Minimal GeoJSON types (RFC 7946) for what this module writes.
@@ -363,4 +364,23 @@ function cleanPolygons(polygons: Position[][][], round: (v: number) => number): 
     if (rings.length > 0) out.push(rings);
   }
   return out;
+}
+
+/** A sensible contour interval: a nice number giving about ten levels over the range. */
+export function defaultInterval(grid: GridValues): number {
+  const { lo, hi } = valueRange(grid.values);
+  return hi > lo ? niceFloor((hi - lo) / 10) : 1;
+}
+
+/** Contour a grid into a GeoJSON text. */
+export function contourGeoJson(grid: GridValues, interval: number, base = 0, bands = false): { text: string; levels: number[]; features: number } {
+  if (!(interval > 0) || !Number.isFinite(interval)) throw new RbfieldError(`${opt("interval")} must be a positive number, not ${interval}`, ExitCode.usage);
+  const { lo, hi } = valueRange(grid.values);
+  if (!(hi >= lo)) throw new RbfieldError("the grid has no unmasked cells to contour", ExitCode.input);
+  const levels = contourLevels(lo, hi, interval, base);
+  const fc = bands ? contourBands(grid, contourLevels(lo - interval, hi + interval, interval, base)) : contourLines(grid, levels);
+  // RFC 7946 dropped the "crs" member and assumes WGS 84; rbfield keeps the points' CRS (see README),
+  // so it names that CRS the way GDAL and most GIS still read it (the 2008 GeoJSON "crs" member).
+  const out = grid.crs.epsg === undefined ? fc : { type: fc.type, crs: { type: "name", properties: { name: `urn:ogc:def:crs:EPSG::${grid.crs.epsg}` } }, features: fc.features };
+  return { text: JSON.stringify(out) + "\n", levels, features: fc.features.length };
 }

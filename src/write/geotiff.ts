@@ -2,7 +2,7 @@
 // (OGC GeoTIFF 1.1). Masked cells (NaN) are written as the nodata value and tagged GDAL_NODATA.
 import { writeArrayBuffer } from "geotiff";
 import type { GeotiffWriterMetadata } from "geotiff";
-import { ExitCode, RbfieldError } from "../errors.ts";
+import { ExitCode, opt, RbfieldError } from "../errors.ts";
 import type { GridValues } from "../types.ts";
 
 /** Nodata value written for masked cells unless another is asked for. */
@@ -54,7 +54,7 @@ export function encodeGeoTiff(grid: GridValues, options: { nodata?: number } = {
   if (n * 4 > MAX_TIFF_DATA_BYTES) {
     throw new RbfieldError(
       `a ${spec.cols} × ${spec.rows} Float32 grid needs ${Math.ceil((n * 4) / 2 ** 30)} GiB, more than a classic TIFF file can hold (4 GiB); ` +
-        "choose a larger --cell or a smaller --extent",
+        `choose a larger ${opt("cell")} or a smaller ${opt("extent")}`,
       ExitCode.usage,
     );
   }

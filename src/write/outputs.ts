@@ -1,0 +1,53 @@
+// The files of a run, in one list: each output has its file name, a label for people and a render
+// function over the products of the run. `run`, its --help, the summary's file list and the tests
+// all read this list; a new output (a map, a report) is one more entry.
+import { modelToJson, type SurfaceModel } from "../model/model.ts";
+import type { GridValues, PointTable } from "../types.ts";
+import { estimatesCsv } from "./csv.ts";
+import { encodeGeoTiff } from "./geotiff.ts";
+import { residualsCsv } from "./residuals.ts";
+
+/** Everything a run has computed, which the outputs render. */
+export interface RunProducts {
+  model: SurfaceModel;
+  grid: GridValues;
+  stderrGrid: GridValues;
+  contours: string;
+  bands: string;
+  /** The locations table and the columns added to it. */
+  estimates: { table: PointTable; columns: { name: string; values: Float64Array | number[] | string[]; digits?: number }[] };
+  summary: string;
+}
+
+export interface OutputWriter {
+  /** Key in the run's file list (and in --json). */
+  key: string;
+  /** File name inside the output folder. */
+  file: string;
+  /** Label in the summary's file list. */
+  label: string;
+  render(p: RunProducts): string | Uint8Array;
+}
+
+export const RUN_OUTPUTS: readonly OutputWriter[] = [
+  { key: "model", file: "model.rbfield.json", label: "model", render: (p) => modelToJson(p.model) },
+  { key: "surface", file: "surface.tif", label: "grid", render: (p) => encodeGeoTiff(p.grid) },
+  { key: "stderr", file: "stderr.tif", label: "std error", render: (p) => encodeGeoTiff(p.stderrGrid) },
+  { key: "contours", file: "contours.geojson", label: "contours", render: (p) => p.contours },
+  { key: "bands", file: "bands.geojson", label: "bands", render: (p) => p.bands },
+  { key: "estimates", file: "estimates.csv", label: "estimates", render: (p) => estimatesCsv(p.estimates.table, p.estimates.columns) },
+  { key: "residuals", file: "residuals.csv", label: "residuals", render: (p) => residualsCsv(p.model) },
+  // Not "summary.txt": GDAL reads a file of that name beside a GeoTIFF as satellite (ALOS) metadata.
+  { key: "summary", file: "run-summary.txt", label: "summary", render: (p) => p.summary },
+];
+
+/** The summary's list of files: "Files:" and one line per output, label padded to a column. */
+export function fileListLines(files: Record<string, string>): string[] {
+  return ["Files:", ...RUN_OUTPUTS.map((o) => `  ${o.label.padEnd(11)}${files[o.key]}`)];
+}
+
+/** The output file names joined for help texts: "a, b, … and z". */
+export function outputNamesText(): string {
+  const names = RUN_OUTPUTS.map((o) => o.file);
+  return `${names.slice(0, -1).join(", ")} and ${names.at(-1)}`;
+}
