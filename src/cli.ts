@@ -23,6 +23,7 @@ const POINTS: Spec = {
   "max-spread": { type: "string" },
   "merge-conflicts": { type: "boolean" },
   weight: { type: "string" },
+  header: { type: "string" },
 };
 const MODEL: Spec = {
   kernel: { type: "string" },
@@ -39,8 +40,10 @@ const GRID: Spec = { cell: { type: "string" }, extent: { type: "string" }, mask:
 const STDERR: Spec = { stderr: { type: "string" } };
 const CONTOUR: Spec = { interval: { type: "string" }, base: { type: "string" }, bands: { type: "boolean" } };
 
-const POINTS_HELP = `  --x COL --y COL --z COL   columns to use (default: detected from header names such as
-                            x/easting/e, y/northing/n, z/elevation/level/value)
+const POINTS_HELP = `  --x COL --y COL --z COL   columns to use, by name or 1-based position (default: detected from
+                            header names such as x/easting/e, y/northing/n, z/elevation/level/value)
+  --header auto|none        auto (default): a first row of numbers only is data, not a header;
+                            none: the first row is data (columns are then named 1, 2, …)
   --crs EPSG:NNNN|local     coordinate reference system of the points (default: the file's own,
                             else a local site grid with no EPSG code)
   --max-spread DZ           refuse coincident points whose values differ by more than DZ
@@ -132,7 +135,9 @@ Keeps every column of LOCATIONS and adds the columns "estimate" and "std_error" 
 standard error of the estimate; RFC 4180 CSV). Rows without usable coordinates get empty cells
 and are reported.
 
-  --x COL --y COL           coordinate columns (default: detected from the header)
+  --x COL --y COL           coordinate columns, by name or 1-based position (default: detected
+                            from the header)
+  --header auto|none        auto (default): a first row of numbers only is data; none: no header
 ${COMMON_HELP}
 `,
   run: `Usage: deno task rbfield run POINTS --out DIR [options]
@@ -156,6 +161,12 @@ const RENAMED: Record<string, string> = {
   anisotropy: "--stretch AZIMUTH:FACTOR (e.g. 45:3)",
   "flag-threshold": "--flag-level ALPHA (the blunder test's false-alarm rate, e.g. 0.05)",
 };
+
+function headerOption(v: Record<string, unknown>): "auto" | "none" | undefined {
+  const h = v.header as string | undefined;
+  if (h !== undefined && h !== "auto" && h !== "none") throw usage(`--header must be auto or none, not "${h}"`);
+  return h as "auto" | "none" | undefined;
+}
 
 /** The command-line flag of a library option (camelCase → --kebab-case; a few differ). */
 function flagOf(option: string): string {
@@ -237,6 +248,7 @@ function pointsSource(file: string, v: Record<string, unknown>) {
     maxSpread: num(v["max-spread"] as string | undefined, "max-spread"),
     mergeConflicts: Boolean(v["merge-conflicts"]),
     weight: v.weight as string | undefined,
+    header: headerOption(v),
   };
 }
 
@@ -259,7 +271,7 @@ export async function main(args: string[], io: Io): Promise<number> {
       fit: { ...COMMON, ...POINTS, ...MODEL, out: { type: "string" } },
       grid: { ...COMMON, ...GRID, ...STDERR, out: { type: "string" } },
       contour: { ...COMMON, ...GRID, ...CONTOUR, out: { type: "string" } },
-      predict: { ...COMMON, x: { type: "string" }, y: { type: "string" }, out: { type: "string" } },
+      predict: { ...COMMON, x: { type: "string" }, y: { type: "string" }, header: { type: "string" }, out: { type: "string" } },
       run: { ...COMMON, ...POINTS, ...MODEL, ...GRID, ...CONTOUR, out: { type: "string" }, locations: { type: "string" } },
     };
     // "--base -5": join a value option with a following negative number so it is not read as an option.
@@ -314,7 +326,7 @@ export async function main(args: string[], io: Io): Promise<number> {
         otherInputs: maskFile,
       });
     } else if (verb === "predict") {
-      result = await predictVerb({ model: pos[0], locations: pos[1], out, x: v.x as string | undefined, y: v.y as string | undefined });
+      result = await predictVerb({ model: pos[0], locations: pos[1], out, x: v.x as string | undefined, y: v.y as string | undefined, header: headerOption(v) });
     } else {
       result = await runVerb({
         ...pointsSource(pos[0], v),

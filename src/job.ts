@@ -40,8 +40,10 @@ export interface PointsSource {
   /** Refuse coincident points whose values differ by more than this (default: 5% of the value range). */
   maxSpread?: number;
   mergeConflicts?: boolean;
-  /** Column of observation weights (e.g. 1/variance from instrument precision). */
+  /** Column of observation weights (e.g. 1/variance from instrument precision), by name or 1-based position. */
   weight?: string;
+  /** "auto" (default: a first row of numbers only is data) or "none" (the first row is data). */
+  header?: "auto" | "none";
 }
 
 export interface LoadedPoints {
@@ -57,7 +59,9 @@ export interface LoadedPoints {
 function readWeights(src: PointsSource, table: PointTable, points: CleanPoints): Float64Array {
   const name = src.weight!;
   const lower = name.toLowerCase();
-  const col = table.columns.findIndex((c) => c.toLowerCase() === lower);
+  // By name, or by 1-based position when no column has that exact name (the readers' rule).
+  let col = table.columns.findIndex((c) => c.toLowerCase() === lower);
+  if (col < 0 && /^[1-9]\d*$/.test(name) && Number(name) <= table.columns.length) col = Number(name) - 1;
   if (col < 0) {
     throw inputError(`no column named "${printableText(name)}" for ${opt("weight")}; columns are ${table.columns.map(printableText).join(", ")}`, {
       file: src.file,
@@ -90,7 +94,7 @@ function readWeights(src: PointsSource, table: PointTable, points: CleanPoints):
 
 /** Read and clean a points file. */
 export async function loadPoints(src: PointsSource): Promise<LoadedPoints> {
-  const table = await readPointTable(src.file, { x: src.x, y: src.y, z: src.z });
+  const table = await readPointTable(src.file, { x: src.x, y: src.y, z: src.z, header: src.header });
   // Merge first, then judge conflicts against the limit: given, or 5% of the value range (common practice
   // for "the same shot twice": small differences are instrument noise, large ones a blunder).
   const points = cleanPoints(table, { mergeConflicts: true, minPoints: 3 });
@@ -109,8 +113,10 @@ export async function loadPoints(src: PointsSource): Promise<LoadedPoints> {
   }
   const crs = src.crs ? parseCrs(src.crs) : table.crs ?? { label: "local site grid (no EPSG code)" };
   const notes = [
-    `Columns: x = ${printableText(table.columns[table.xColumn])}, y = ${printableText(table.columns[table.yColumn])}, ` +
-    `value = ${printableText(table.columns[table.zColumn])} (${table.columnChoice === "detected" ? "detected from the header; name them with --x --y --z" : "as named"})`,
+    table.hasHeader === false
+      ? `Columns: x = column ${table.xColumn + 1}, y = column ${table.yColumn + 1}, value = column ${table.zColumn + 1} (the file has no header row; named by position)`
+      : `Columns: x = ${printableText(table.columns[table.xColumn])}, y = ${printableText(table.columns[table.yColumn])}, ` +
+        `value = ${printableText(table.columns[table.zColumn])} (${table.columnChoice === "detected" ? "detected from the header; name them with --x --y --z" : "as named"})`,
     `Points: ${points.rowsRead} rows read, ${points.x.length} used`,
     ...describeCleaning(points),
   ];
@@ -347,7 +353,7 @@ async function runInto(opts: RunOptions, files: Record<string, string>, inputs: 
   opts.progress?.(`reading ${opts.file}`);
   const fitted = await fitPointsFile(opts, { ...opts.fit, progress: opts.progress });
   const model = fitted.model;
-  const locTable = opts.locations ? await readPointTable(opts.locations, { x: opts.x, y: opts.y, needValue: false }) : fitted.table;
+  const locTable = opts.locations ? await readPointTable(opts.locations, { x: opts.x, y: opts.y, needValue: false, header: opts.header }) : fitted.table;
   opts.progress?.("gridding");
   const grid = await gridModelParallel(model, { ...opts.grid, progress: opts.progress });
   const interval = opts.interval ?? defaultInterval(grid);

@@ -16,6 +16,56 @@ export interface Crs {
   label: string;
 }
 
+/** One column of a read table: numbers (NaN where a cell is not a number) or text carried through. */
+export type TableColumn =
+  | { name: string; kind: "number"; values: Float64Array }
+  | { name: string; kind: "text"; values: string[] };
+
+/**
+ * How a chosen column was found: "named" (an option matched a column name), "position" (an option
+ * gave its 1-based position), "detected" (a recognised header name), "first numeric" (the first
+ * numeric column, for the value), "coordinate" (a GeoJSON Point's third coordinate), "none".
+ */
+export type ColumnFound = "named" | "position" | "detected" | "first numeric" | "coordinate" | "none";
+
+/** A row that cannot be used as a point: its x, y or value is not a number. */
+export interface UnusableRow extends SkippedRow {
+  /** 0-based index of the row in the table. */
+  row: number;
+  /** 0-based index of the column whose cell is not a number. */
+  column: number;
+}
+
+/**
+ * Points as any reader returns them (src/read/): typed columns, the source line of each row, the
+ * rows that cannot be used, the x, y and value columns chosen, and the CRS the file declares.
+ */
+export interface TypedTable {
+  file: string;
+  /** What was read: "csv", "semicolon", "tsv", "whitespace" or "geojson". */
+  format: string;
+  /** Column names in file order; "1", "2", … (1-based positions) when the file has no header row. */
+  columns: string[];
+  /** The columns' contents, in the same order. */
+  data: TableColumn[];
+  /** False when the first row was data, not names. */
+  hasHeader: boolean;
+  /** 1-based line (GeoJSON: line of the feature) where each row starts. */
+  lines: number[];
+  /** Rows whose x, y or value (when a value column is chosen) is not a number, in row order. */
+  unusable: UnusableRow[];
+  xColumn: number;
+  yColumn: number;
+  /** -1 when no value column was chosen (prediction locations). */
+  zColumn: number;
+  /** "named" when any of x, y, value was named by an option, else "detected". */
+  columnChoice: "named" | "detected";
+  /** How each of the x, y and value columns was found. */
+  chosenBy: { x: ColumnFound; y: ColumnFound; z: ColumnFound };
+  /** CRS declared inside the file, if any (GeoJSON "crs" member). */
+  crs?: Crs;
+}
+
 /** Raw measured points as read from a file, before cleaning. */
 export interface PointTable {
   file: string;
@@ -37,7 +87,16 @@ export interface PointTable {
   decimalComma: boolean;
   /** CRS declared inside the file, if any (GeoJSON "crs" member). */
   crs?: Crs;
+  // The typed parts (TypedTable); the readers always fill them, hand-made tables may leave them out.
+  format?: string;
+  data?: TableColumn[];
+  hasHeader?: boolean;
+  unusable?: UnusableRow[];
+  chosenBy?: TypedTable["chosenBy"];
 }
+
+/** What the text readers return: the typed table and every cell's text as read. */
+export type TextTable = PointTable & TypedTable;
 
 /** A row that could not be used, with the reason. */
 export interface SkippedRow {
@@ -68,6 +127,11 @@ export interface CleanPoints {
   merged: MergedGroup[];
   /** Number of data rows read before cleaning. */
   rowsRead: number;
+  /**
+   * The table's text columns (point ids, codes), one value per kept point; a merged point keeps the
+   * texts of its first row.
+   */
+  texts?: { name: string; values: string[] }[];
 }
 
 export type KernelName = "thin-plate" | "gaussian" | "multiquadric" | "inverse-multiquadric";

@@ -154,12 +154,13 @@ export interface PredictVerbOptions {
   out: string;
   x?: string;
   y?: string;
+  header?: "auto" | "none";
 }
 
 export async function predictVerb(o: PredictVerbOptions): Promise<VerbResult> {
   prepareOutput(o.out, [o.model, o.locations]);
   const model = readModel(o.model);
-  const table = await readPointTable(o.locations, { x: o.x, y: o.y, needValue: false });
+  const table = await readPointTable(o.locations, { x: o.x, y: o.y, needValue: false, header: o.header });
   const est = estimateTable(model, table);
   writeFileAtomic(o.out, estimatesCsv(table, estimateColumns(est)));
   return {

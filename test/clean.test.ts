@@ -2,11 +2,12 @@ import { describe, expect, it } from "vitest";
 import { errorOf } from "./helpers.ts";
 import { cleanPoints, describeCleaning } from "../src/clean/clean.ts";
 import { ExitCode, RbfieldError } from "../src/errors.ts";
-import type { CleanPoints, PointTable } from "../src/types.ts";
+import type { CleanPoints, PointTable, TextTable } from "../src/types.ts";
+import { typeCells } from "../src/read/cells.ts";
 
-/** A table with columns x, y, z; data rows start at line 2 unless lines are given. */
-function table(rows: string[][], extra: Partial<PointTable> = {}): PointTable {
-  return {
+/** A table with columns x, y, z; data rows start at line 2 unless lines are given; typed as the readers type it. */
+function table(rows: string[][], extra: Partial<PointTable> = {}): TextTable {
+  return typeCells({
     file: "pts.csv",
     columns: ["x", "y", "z"],
     rows,
@@ -18,7 +19,7 @@ function table(rows: string[][], extra: Partial<PointTable> = {}): PointTable {
     delimiter: ",",
     decimalComma: false,
     ...extra,
-  };
+  });
 }
 
 

@@ -1,20 +1,10 @@
-// Clean stage: drop rows without usable numbers and merge coincident points.
+// Clean stage: drop rows without usable numbers and merge coincident points. It works on the typed
+// table a reader returns (numbers only; the reader has said why a cell is not a number).
 import { ExitCode, inputError, RbfieldError } from "../errors.ts";
-import { messageText, parseNumber } from "../read/points.ts";
-import { formatNumber } from "../write/csv.ts";
-import type { CleanPoints, MergedGroup, PointTable, SkippedRow } from "../types.ts";
+import { formatNumber, messageText } from "../text.ts";
+import { COORDINATE_LIMIT, VALUE_LIMIT } from "../numbers.ts";
+import type { CleanPoints, MergedGroup, PointTable, SkippedRow, TypedTable } from "../types.ts";
 
-/**
- * Largest coordinate magnitude accepted, in map units. At 1e15 a double resolves only 0.125 units
- * (IEEE 754 binary64 has 53 significant bits) and no survey coordinate system comes near it (the
- * Earth's circumference is 4e7 m); such numbers are a wrong column or wrong units.
- */
-export const MAX_COORDINATE = 1e15;
-/**
- * Largest value magnitude accepted: grids are written as Float32 GeoTIFFs, whose largest finite
- * number is about 3.4e38 (IEEE 754 binary32), and sums of squares of values must stay finite.
- */
-export const MAX_VALUE = 1e38;
 /** The points must span at least this many map units (below it the units are surely wrong)... */
 export const MIN_SPAN = 1e-9;
 /**
@@ -36,7 +26,10 @@ export interface CleanOptions {
   minPoints?: number;
 }
 
-export function cleanPoints(table: PointTable, options: CleanOptions = {}): CleanPoints {
+/** What cleaning reads of a table: a TypedTable, or a PointTable as the readers return it (typed parts filled). */
+export type CleanInput = TypedTable | PointTable;
+
+export function cleanPoints(table: CleanInput, options: CleanOptions = {}): CleanPoints {
   const tol = options.tolerance ?? 0;
   const maxSpread = options.maxSpread ?? 0;
   if (!(tol >= 0) || !Number.isFinite(tol)) {
@@ -49,27 +42,30 @@ export function cleanPoints(table: PointTable, options: CleanOptions = {}): Clea
     throw inputError("no value column was chosen; name it with --z", { file: table.file, line: 1 });
   }
 
-  // 1. Parse numbers; rows that fail go to `skipped`.
-  const n = table.rows.length;
+  // 1. Keep rows whose x, y and value are numbers within range; the others go to `skipped`.
+  const { data, unusable } = typedParts(table);
+  const n = table.lines.length;
   const px = new Float64Array(n);
   const py = new Float64Array(n);
   const pz = new Float64Array(n);
   const pline: number[] = [];
+  const prow: number[] = [];
   const skipped: SkippedRow[] = [];
   const cols = [table.xColumn, table.yColumn, table.zColumn];
+  const columns = cols.map((j) => numberColumn(data, j));
+  const reasons = new Map(unusable.map((u) => [u.row, u.reason]));
   const vals = [0, 0, 0];
   let m = 0;
   rows: for (let i = 0; i < n; i++) {
-    const row = table.rows[i];
     for (let k = 0; k < 3; k++) {
-      const cell = row[cols[k]] ?? "";
-      const v = parseNumber(cell, table.decimalComma);
+      const v = columns[k][i];
+      const name = table.columns[cols[k]];
       if (Number.isNaN(v)) {
-        skipped.push({ line: table.lines[i], reason: badCellReason(cell, table.columns[cols[k]], table.decimalComma) });
+        skipped.push({ line: table.lines[i], reason: reasons.get(i) ?? `value in column '${messageText(name, 40)}' is not a number` });
         continue rows;
       }
-      if (Math.abs(v) > (k < 2 ? MAX_COORDINATE : MAX_VALUE)) {
-        skipped.push({ line: table.lines[i], reason: outOfRangeReason(cell, table.columns[cols[k]], k < 2) });
+      if (Math.abs(v) > (k < 2 ? COORDINATE_LIMIT : VALUE_LIMIT)) {
+        skipped.push({ line: table.lines[i], reason: outOfRangeReason(v, name, k < 2) });
         continue rows;
       }
       vals[k] = v;
@@ -78,6 +74,7 @@ export function cleanPoints(table: PointTable, options: CleanOptions = {}): Clea
     py[m] = vals[1];
     pz[m] = vals[2];
     pline.push(table.lines[i]);
+    prow.push(i);
     m++;
   }
 
@@ -187,14 +184,37 @@ export function cleanPoints(table: PointTable, options: CleanOptions = {}): Clea
       merged.push({ x: x[g], y: y[g], lines: groupLines, spread, value: z[g] });
     }
   }
-  const result = { x, y, z, lines, skipped, merged, rowsRead: n };
+  const texts = data.flatMap((col) =>
+    col.kind === "text" ? [{ name: col.name, values: firstOf.map((p) => col.values[prow[p]]) }] : []
+  );
+  const result = { x, y, z, lines, skipped, merged, rowsRead: n, texts };
   if (G < (options.minPoints ?? 0)) throw tooFewPoints(table, result, options.minPoints!);
   checkSpan(table, result);
   return result;
 }
 
+/** The typed columns and unusable rows; a hand-made PointTable without them is a programming error. */
+function typedParts(table: CleanInput): Pick<TypedTable, "data" | "unusable"> {
+  if (!table.data || !table.unusable) {
+    throw new RbfieldError(
+      "cleanPoints needs a typed table (from readPointTable, parsePointTable or a reader), not cells alone",
+      ExitCode.internal,
+    );
+  }
+  return { data: table.data, unusable: table.unusable };
+}
+
+/** The numbers of column j. */
+function numberColumn(data: TypedTable["data"], j: number): Float64Array {
+  const col = data[j];
+  if (col?.kind !== "number") {
+    throw new RbfieldError(`column ${j + 1} was chosen as x, y or value but is not a number column`, ExitCode.internal);
+  }
+  return col.values;
+}
+
 /** Refuse points whose positions differ by too little to compute with (see MIN_SPAN). */
-function checkSpan(table: PointTable, p: CleanPoints): void {
+function checkSpan(table: CleanInput, p: CleanPoints): void {
   const n = p.x.length;
   if (n < 2) return;
   let xmin = Infinity, xmax = -Infinity, ymin = Infinity, ymax = -Infinity, big = 0;
@@ -220,7 +240,7 @@ function shortNumber(v: number): string {
   return a !== 0 && (a >= 1e6 || a < 1e-3) ? v.toExponential(2).replace(/\.?0+e/, "e").replace("e+", "e") : formatNumber(v, 6);
 }
 
-function tooFewPoints(table: PointTable, p: CleanPoints, minPoints: number): RbfieldError {
+function tooFewPoints(table: CleanInput, p: CleanPoints, minPoints: number): RbfieldError {
   const n = p.x.length;
   const rows = p.rowsRead;
   let message: string;
@@ -261,28 +281,20 @@ function hashPair(a: number, b: number): number {
   return (h ^ (h >>> 13)) >>> 0;
 }
 
-function outOfRangeReason(cell: string, column: string, coordinate: boolean): string {
-  const t = messageText(cell.trim(), 40);
+function outOfRangeReason(v: number, column: string, coordinate: boolean): string {
+  const t = exponentText(v);
   const c = messageText(column, 40);
   return coordinate
-    ? `coordinate ${t} in column '${c}' is beyond ±${MAX_COORDINATE.toExponential()} map units (check the column and the units)`
-    : `value ${t} in column '${c}' is beyond ±${MAX_VALUE.toExponential()}, more than a 32-bit float grid holds (rescale the values)`;
+    ? `coordinate ${t} in column '${c}' is beyond ±${COORDINATE_LIMIT.toExponential()} map units (check the column and the units)`
+    : `value ${t} in column '${c}' is beyond ±${VALUE_LIMIT.toExponential()}, more than a 32-bit float grid holds (rescale the values)`;
+}
+
+/** A large number as it is usually written: "1e300", "-2.5e16". */
+function exponentText(v: number): string {
+  return v.toExponential().replace("e+", "e");
 }
 
 const OUT_OF_RANGE = / is beyond ±/;
-
-function badCellReason(rawCell: string, rawColumn: string, decimalComma: boolean): string {
-  const cell = messageText(rawCell, 40);
-  const column = messageText(rawColumn, 40);
-  const t = cell.trim();
-  if (t === "") return `missing value in column '${column}'`;
-  const asNumber = Number(decimalComma ? rawCell.trim().replace(",", ".") : rawCell.trim());
-  if (/^[+-]?(nan|inf|infinity)$/i.test(t) || asNumber === Infinity || asNumber === -Infinity) {
-    return `value '${t}' in column '${column}' is not a finite number`;
-  }
-  const hint = decimalComma && t.includes(".") ? " (this file uses a decimal comma)" : "";
-  return `value '${t}' in column '${column}' is not a number${hint}`;
-}
 
 /** Short summary lines, e.g. "skipped 3 rows with missing or non-numeric values (lines 7, 12, 40)". */
 export function describeCleaning(points: CleanPoints, maxListed = 5): string[] {

@@ -1,18 +1,10 @@
 // CSV writer for estimates at input points: the input columns as read, plus added number columns.
 // Output follows RFC 4180 (comma delimiter, CRLF record ends, quotes doubled inside quoted fields).
 import { ExitCode, RbfieldError } from "../errors.ts";
+import { formatNumber } from "../text.ts";
 import type { PointTable } from "../types.ts";
 
-/**
- * Deterministic number text: up to `digits` significant digits (1..17), trailing zeros trimmed,
- * plain decimal form for |v| in [1e-6, 1e21); NaN and ±Infinity give "".
- */
-export function formatNumber(v: number, digits = 10): string {
-  if (!Number.isFinite(v)) return "";
-  const d = Math.min(17, Math.max(1, Math.round(digits)));
-  // toPrecision rounds once; String() then gives the shortest text for that rounded value.
-  return String(Number(v.toPrecision(d)));
-}
+export { formatNumber };
 
 /** Quote a field when it holds a comma, a quote, CR or LF (RFC 4180 §2.6, §2.7). */
 export function csvField(text: string): string {
