@@ -10,6 +10,7 @@ import { gridModelParallel } from "./evaluate/parallel.ts";
 import { type ErrorEstimator, gridStandardError, makeErrorEstimator } from "./evaluate/stderr.ts";
 import { type GridOptions, polygonsFromGeoJson, type PolygonRings } from "./evaluate/grid.ts";
 import { valueRange } from "./numbers.ts";
+import { jsonErrorPlace } from "./json_syntax.ts";
 import { contourGeoJson, defaultInterval } from "./write/contours.ts";
 import { fileListLines, type RunProducts, RUN_OUTPUTS } from "./write/outputs.ts";
 import { type FitOptions, type FittedModel, fitSurfaceParallelWithFactors } from "./fit/surface.ts";
@@ -165,10 +166,12 @@ export function readMask(file: string): PolygonRings[] {
     throw new RbfieldError("cannot read the mask file (missing or not readable)", ExitCode.io, { file });
   }
   let data: unknown;
+  const body = text.replace(/^\uFEFF/, "");
   try {
-    data = JSON.parse(text.replace(/^\uFEFF/, ""));
-  } catch {
-    throw new RbfieldError("the mask file is not valid GeoJSON; give Polygon or MultiPolygon features", ExitCode.input, { file });
+    data = JSON.parse(body);
+  } catch (e) {
+    const { line, column } = jsonErrorPlace(body, e);
+    throw new RbfieldError("the mask file is not valid GeoJSON; give Polygon or MultiPolygon features", ExitCode.input, { file, line, column });
   }
   return polygonsFromGeoJson(data, file);
 }

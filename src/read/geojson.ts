@@ -6,7 +6,7 @@ import { messageText } from "../text.ts";
 import type { Crs, TextTable } from "../types.ts";
 import { typeCells } from "./cells.ts";
 import { chooseColumns } from "./columns.ts";
-import { fromParseMessage, locateJsonError } from "./json_syntax.ts";
+import { fromParseMessage, locateJsonError } from "../json_syntax.ts";
 import type { ReadOptions, TextReader } from "./reader.ts";
 import { LineIndex, normalizeText, startsWithBrace, textReader } from "./textfile.ts";
 

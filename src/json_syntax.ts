@@ -1,6 +1,6 @@
 // Where JSON text breaks its grammar (RFC 8259), for a message with line and column: JSON.parse
 // says only that it failed, and in engine-specific words.
-import { messageText } from "../text.ts";
+import { messageText } from "./text.ts";
 
 /** Find the first syntax error in JSON text (RFC 8259 grammar). */
 export function locateJsonError(s: string): { offset: number; message: string } | undefined {
@@ -98,4 +98,11 @@ export function fromParseMessage(e: unknown, length: number): { offset: number; 
   const message = e instanceof Error ? e.message : String(e);
   const m = /position (\d+)/.exec(message);
   return { offset: m ? Math.min(Number(m[1]), length) : 0, message };
+}
+
+/** Line and column (1-based) of the first syntax error of JSON text that JSON.parse refused with `e`. */
+export function jsonErrorPlace(text: string, e: unknown): { line: number; column: number; message: string } {
+  const { offset, message } = locateJsonError(text) ?? fromParseMessage(e, text.length);
+  const before = text.slice(0, offset);
+  return { line: before.split("\n").length, column: offset - before.lastIndexOf("\n"), message };
 }
