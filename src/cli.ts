@@ -9,7 +9,8 @@ import type { FitOptions } from "./fit/surface.ts";
 import { readMask } from "./job.ts";
 import { MODEL_VERSION } from "./model/model.ts";
 import type { KernelName, TrendName } from "./types.ts";
-import { contourVerb, fitVerb, gridVerb, predictVerb, runVerb, type VerbResult } from "./verbs.ts";
+import { contourVerb, fitVerb, gridVerb, mapVerb, predictVerb, runVerb, type VerbResult } from "./verbs.ts";
+import type { MapOptions } from "./write/map.ts";
 import { outputNamesText } from "./write/outputs.ts";
 
 type Spec = Record<string, { type: "string" | "boolean" }>;
@@ -38,6 +39,8 @@ const MODEL: Spec = {
 };
 const GRID: Spec = { cell: { type: "string" }, extent: { type: "string" }, mask: { type: "string" }, force: { type: "boolean" } };
 const STDERR: Spec = { stderr: { type: "string" } };
+const TITLE: Spec = { title: { type: "string" }, date: { type: "string" } };
+const SHEET: Spec = { paper: { type: "string" }, orientation: { type: "string" }, scale: { type: "string" }, relief: { type: "boolean" }, "label-points": { type: "boolean" } };
 const CONTOUR: Spec = { interval: { type: "string" }, base: { type: "string" }, bands: { type: "boolean" } };
 
 const POINTS_HELP = `  --x COL --y COL --z COL   columns to use, by name or 1-based position (default: detected from
@@ -75,6 +78,9 @@ const GRID_HELP = `  --cell SIZE               cell size in map units (default: 
   --force                   allow grids above 100 million cells`;
 const STDERR_HELP = `  --stderr FILE.tif         also write the standard error of the estimate as a second GeoTIFF
                             (model-based, not a survey tolerance; see README)`;
+const TITLE_HELP = `  --title TEXT              title of the map (and of the report)
+  --date YYYY-MM-DD         date in the title block (default today, UTC; give it for byte-identical
+                            outputs on another day)`;
 const COMMON_HELP = `  --json                    print a machine-readable JSON summary on stdout
   --quiet                   no progress messages on stderr
   --debug                   show a stack trace on internal errors
@@ -90,7 +96,8 @@ Verbs:
   grid MODEL --out FILE.tif       evaluate the surface on a georeferenced grid (GeoTIFF)
   contour MODEL|FILE.tif --out FILE.geojson --interval DZ   contour lines or filled bands
   predict MODEL LOCATIONS.csv --out FILE.csv                estimates at listed places
-  run POINTS --out DIR            the whole job: model, grid, contours, estimates, summary
+  map MODEL|FILE.tif --out FILE.pdf|.svg|.png              a contour map to print
+  run POINTS --out DIR            the whole job: model, grid, contours, estimates, map, report, summary
 
 'deno task rbfield <verb> --help' shows each verb's options.
 Exit codes: 0 success, 1 internal error, 2 bad command line, 3 bad input data,
@@ -151,6 +158,25 @@ ${GRID_HELP}
   --interval DZ             contour interval (default: a round number giving about ten levels)
   --base Z0                 a level that is a contour (default 0)
   --locations FILE.csv      places to estimate at (default: the input points)
+${TITLE_HELP}
+${COMMON_HELP}
+`,
+  map: `Usage: deno task rbfield map MODEL|FILE.tif --out FILE.svg|FILE.pdf|FILE.png [options]
+
+A contour map to print: index contours (every fifth) heavier and labelled, survey points and
+possible blunders, the data outline, scale bar, north arrow, coordinate ticks, a legend and a title
+block with the method and the caution. PDF and SVG stay vector. From a MODEL, a grid is made first
+(grid options apply).
+
+  --interval DZ             contour interval (default: a round number giving about ten levels)
+  --base Z0                 a level that is a contour (default 0)
+  --paper P                 A4|A3|A1|letter|tabloid (default A4)
+  --orientation O           landscape|portrait (default landscape)
+  --scale N                 print at 1:N (default: the largest round scale that fits the sheet)
+  --relief                  colour relief with hillshade under the contours (default: lines only)
+  --label-points            print each survey point's value beside it
+${TITLE_HELP}
+${GRID_HELP}
 ${COMMON_HELP}
 `,
 };
@@ -161,6 +187,27 @@ const RENAMED: Record<string, string> = {
   anisotropy: "--stretch AZIMUTH:FACTOR (e.g. 45:3)",
   "flag-threshold": "--flag-level ALPHA (the blunder test's false-alarm rate, e.g. 0.05)",
 };
+
+function dateOption(v: Record<string, unknown>): string | undefined {
+  const d = v.date as string | undefined;
+  if (d !== undefined && !(/^\d{4}-\d{2}-\d{2}$/.test(d) && !Number.isNaN(Date.parse(`${d}T00:00:00Z`)))) {
+    throw usage(`--date must be a date as YYYY-MM-DD, not "${d}"`);
+  }
+  return d;
+}
+
+const PAPERS = ["A4", "A3", "A1", "letter", "tabloid"] as const;
+
+function sheetOptions(v: Record<string, unknown>): MapOptions {
+  const paper = (v.paper as string | undefined) ?? "A4";
+  if (!(PAPERS as readonly string[]).includes(paper)) throw usage(`--paper must be one of ${PAPERS.join(", ")}, not "${paper}"`);
+  const orientation = (v.orientation as string | undefined) ?? "landscape";
+  if (orientation !== "landscape" && orientation !== "portrait") throw usage(`--orientation must be landscape or portrait, not "${orientation}"`);
+  const scaleText = v.scale as string | undefined;
+  const scale = scaleText === undefined ? undefined : num(scaleText.replace(/^1:/, ""), "scale");
+  if (scale !== undefined && !(scale > 0)) throw usage(`--scale must be a positive number (1:N), not "${scaleText}"`);
+  return { paper: paper as MapOptions["paper"], orientation, scale, relief: Boolean(v.relief), labelPoints: Boolean(v["label-points"]) };
+}
 
 function headerOption(v: Record<string, unknown>): "auto" | "none" | undefined {
   const h = v.header as string | undefined;
@@ -266,13 +313,14 @@ export async function main(args: string[], io: Io): Promise<number> {
       io.out(HELP.main);
       return verb === undefined ? ExitCode.usage : 0;
     }
-    if (!(verb in HELP) || verb === "main") throw usage(`unknown verb "${verb}"; verbs: fit, grid, contour, predict, run (see --help)`);
+    if (!(verb in HELP) || verb === "main") throw usage(`unknown verb "${verb}"; verbs: fit, grid, contour, predict, map, run (see --help)`);
     const specs: Record<string, Spec> = {
       fit: { ...COMMON, ...POINTS, ...MODEL, out: { type: "string" } },
       grid: { ...COMMON, ...GRID, ...STDERR, out: { type: "string" } },
       contour: { ...COMMON, ...GRID, ...CONTOUR, out: { type: "string" } },
       predict: { ...COMMON, x: { type: "string" }, y: { type: "string" }, header: { type: "string" }, out: { type: "string" } },
-      run: { ...COMMON, ...POINTS, ...MODEL, ...GRID, ...CONTOUR, out: { type: "string" }, locations: { type: "string" } },
+      run: { ...COMMON, ...POINTS, ...MODEL, ...GRID, ...CONTOUR, ...TITLE, out: { type: "string" }, locations: { type: "string" } },
+      map: { ...COMMON, ...GRID, ...TITLE, ...SHEET, interval: { type: "string" }, base: { type: "string" }, out: { type: "string" } },
     };
     // "--base -5": join a value option with a following negative number so it is not read as an option.
     const rest: string[] = [];
@@ -325,6 +373,18 @@ export async function main(args: string[], io: Io): Promise<number> {
         grid: { ...gridOptions(v), progress },
         otherInputs: maskFile,
       });
+    } else if (verb === "map") {
+      result = await mapVerb({
+        input: pos[0],
+        out,
+        interval: num(v.interval as string | undefined, "interval"),
+        base: num(v.base as string | undefined, "base") ?? 0,
+        title: v.title as string | undefined,
+        date: dateOption(v),
+        sheet: sheetOptions(v),
+        grid: { ...gridOptions(v), progress },
+        otherInputs: maskFile,
+      });
     } else if (verb === "predict") {
       result = await predictVerb({ model: pos[0], locations: pos[1], out, x: v.x as string | undefined, y: v.y as string | undefined, header: headerOption(v) });
     } else {
@@ -337,6 +397,8 @@ export async function main(args: string[], io: Io): Promise<number> {
         base: num(v.base as string | undefined, "base"),
         locations: v.locations as string | undefined,
         otherInputs: maskFile,
+        title: v.title as string | undefined,
+        date: dateOption(v),
         progress,
       });
     }

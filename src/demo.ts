@@ -14,6 +14,8 @@ const code = await main(
     "out/demo",
     "--interval",
     "0.5",
+    "--title",
+    "Kestrel Ridge Lot 7 — spot levels (invented demo data)",
     "--quiet",
   ],
   { out: (s) => console.log(s.trimEnd()), err: (s) => console.error(s) },

@@ -13,6 +13,7 @@ import { valueRange } from "./numbers.ts";
 import { jsonErrorPlace } from "./json_syntax.ts";
 import { contourGeoJson, defaultInterval } from "./write/contours.ts";
 import { fileListLines, type RunProducts, RUN_OUTPUTS } from "./write/outputs.ts";
+import { mapInputFromModel } from "./write/map.ts";
 import { type FitOptions, type FittedModel, fitSurfaceParallelWithFactors } from "./fit/surface.ts";
 import { modelFromJson, type SurfaceModel } from "./model/model.ts";
 import { decodeGeoTiff } from "./read/geotiff.ts";
@@ -314,6 +315,10 @@ export interface RunOptions extends PointsSource {
   locations?: string;
   /** Other files read by this run (e.g. a mask), which no output may overwrite. */
   otherInputs?: string[];
+  /** Title of the map and the report (default: the value column and the points file). */
+  title?: string;
+  /** Date printed on the map and the report, YYYY-MM-DD (default today, UTC). */
+  date?: string;
   progress?: (message: string) => void;
 }
 
@@ -389,6 +394,7 @@ async function runInto(opts: RunOptions, files: Record<string, string>, inputs: 
     ],
     fileListLines(files),
   ]);
+  const date = opts.date ?? new Date().toISOString().slice(0, 10);
   const products: RunProducts = {
     model,
     grid,
@@ -397,8 +403,20 @@ async function runInto(opts: RunOptions, files: Record<string, string>, inputs: 
     bands: bands.text,
     estimates: { table: locTable, columns: estimateColumns(est) },
     summary,
+    map: mapInputFromModel(model, grid, { interval, base: opts.base ?? 0, title: opts.title, date }),
+    report: {
+      stderrGrid: errors.grid,
+      stderrNote: errors.stride > 1 ? `computed every ${errors.stride} cells and interpolated` : undefined,
+      cleaning: { rowsRead: fitted.points.rowsRead, skipped: fitted.points.skipped, merged: fitted.points.merged },
+      warnings: estimateWarnings(est),
+      title: opts.title ?? `${model.source.z} surface, ${model.source.file}`,
+      date,
+    },
+    date,
   };
+  opts.progress?.("writing the map, the report and the other files");
+  const rendered = await Promise.all(RUN_OUTPUTS.map(async (o): Promise<[string, string | Uint8Array]> => [files[o.key], await o.render(products)]));
   // Everything is computed; write all files as one step (temporary files, then renames).
-  writeFilesAtomic(RUN_OUTPUTS.map((o) => [files[o.key], o.render(products)]));
+  writeFilesAtomic(rendered);
   return { model, files, summary, warnings: estimateWarnings(est) };
 }

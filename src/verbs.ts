@@ -1,7 +1,9 @@
 // The verbs' workflows as library calls: each reads its inputs, computes, writes its files as one
 // step and returns what the CLI prints (text for people, a record for --json) and warnings for
 // stderr. The CLI (src/cli.ts) only parses arguments and prints.
+import * as path from "node:path";
 import { CAUTION } from "./caution.ts";
+import { ExitCode, opt, RbfieldError } from "./errors.ts";
 import { gridModelParallel } from "./evaluate/parallel.ts";
 import { gridStandardError } from "./evaluate/stderr.ts";
 import type { GridOptions } from "./evaluate/grid.ts";
@@ -21,7 +23,9 @@ import {
 import { modelToJson, type SurfaceModel } from "./model/model.ts";
 import { readPointTable } from "./read/points.ts";
 import { checkWritableFolder, refuseInputAsOutput, writeFileAtomic, writeFilesAtomic } from "./write/atomic.ts";
-import { contourGeoJson } from "./write/contours.ts";
+import { contourGeoJson, defaultInterval } from "./write/contours.ts";
+import { mapInputFromGrid, mapInputFromModel, type MapInput, type MapOptions, renderMap } from "./write/map.ts";
+import { mapToPdf, mapToPng } from "./write/map/print.ts";
 import { estimatesCsv } from "./write/csv.ts";
 import { encodeGeoTiff } from "./write/geotiff.ts";
 import { fmt, modelSummaryLines } from "./write/summary.ts";
@@ -176,6 +180,50 @@ export async function predictVerb(o: PredictVerbOptions): Promise<VerbResult> {
     },
     // Empty or all-zero standard errors never pass without a reason on stderr.
     warnings: estimateWarnings(est),
+  };
+}
+
+export interface MapVerbOptions {
+  /** A model file, or a GeoTIFF grid (by its .tif/.tiff ending). */
+  input: string;
+  /** FILE.svg, FILE.pdf or FILE.png (by its ending). */
+  out: string;
+  /** Contour interval (default: a round number giving about ten levels). */
+  interval?: number;
+  base: number;
+  title?: string;
+  /** Date printed in the title block, YYYY-MM-DD (default today, UTC). */
+  date?: string;
+  sheet: MapOptions;
+  grid: GridOptions;
+  otherInputs?: string[];
+}
+
+/** A printable contour map of a model or a grid: SVG, PDF (vector) or PNG, by the output's ending. */
+export async function mapVerb(o: MapVerbOptions): Promise<VerbResult> {
+  const format = /\.(svg|pdf|png)$/i.exec(o.out)?.[1].toLowerCase();
+  if (!format) throw new RbfieldError(`the map is written as .svg, .pdf or .png (by the ending of ${opt("out")}), not "${o.out}"`, ExitCode.usage);
+  prepareOutput(o.out, [o.input, ...(o.otherInputs ?? [])]);
+  const date = o.date ?? new Date().toISOString().slice(0, 10);
+  const isTiff = /\.tiff?$/i.test(o.input);
+  let input: MapInput;
+  if (isTiff) {
+    const grid = await readGrid(o.input);
+    const interval = o.interval ?? defaultInterval(grid);
+    input = mapInputFromGrid(grid, { interval, base: o.base, title: o.title ?? path.basename(o.input), dataFile: path.basename(o.input), date });
+  } else {
+    const model = readModel(o.input);
+    const grid = await gridModelParallel(model, o.grid);
+    input = mapInputFromModel(model, grid, { interval: o.interval ?? defaultInterval(grid), base: o.base, title: o.title, date });
+  }
+  const svg = renderMap(input, o.sheet);
+  const bytes = format === "svg" ? svg : format === "pdf" ? await mapToPdf(svg, { creationDate: new Date(`${date}T00:00:00Z`) }) : await mapToPng(svg);
+  writeFileAtomic(o.out, bytes);
+  const sheet = `${o.sheet.paper} ${o.sheet.orientation}${o.sheet.scale ? `, 1:${o.sheet.scale}` : ", fitted to the sheet"}`;
+  return {
+    text: `Map (${sheet}; contours every ${fmt(input.interval)}) written to ${o.out}\n\n${CAUTION}\n`,
+    json: { file: o.out, format, paper: o.sheet.paper, orientation: o.sheet.orientation, scale: o.sheet.scale ?? null, interval: input.interval, caution: CAUTION },
+    warnings: [],
   };
 }
 

@@ -3,6 +3,9 @@
 // all read this list; a new output (a map, a report) is one more entry.
 import { modelToJson, type SurfaceModel } from "../model/model.ts";
 import type { GridValues, PointTable } from "../types.ts";
+import { type MapInput, renderMap } from "./map.ts";
+import { mapToPdf } from "./map/print.ts";
+import { renderReport, type ReportInput } from "./report.ts";
 import { estimatesCsv } from "./csv.ts";
 import { encodeGeoTiff } from "./geotiff.ts";
 import { residualsCsv } from "./residuals.ts";
@@ -17,6 +20,11 @@ export interface RunProducts {
   /** The locations table and the columns added to it. */
   estimates: { table: PointTable; columns: { name: string; values: Float64Array | number[] | string[]; digits?: number }[] };
   summary: string;
+  /** The map's input (surface, contours, points, title block) and the report's extra parts. */
+  map: MapInput;
+  report: Omit<ReportInput, "model" | "map">;
+  /** The run's date (YYYY-MM-DD), printed on the map and the report and stamped in the PDF. */
+  date: string;
 }
 
 export interface OutputWriter {
@@ -26,8 +34,11 @@ export interface OutputWriter {
   file: string;
   /** Label in the summary's file list. */
   label: string;
-  render(p: RunProducts): string | Uint8Array;
+  render(p: RunProducts): string | Uint8Array | Promise<Uint8Array>;
 }
+
+/** The printed map of a run: A4 landscape, colour relief with hillshade, fitted to the page. */
+export const RUN_MAP_OPTIONS = { paper: "A4", orientation: "landscape", relief: true, labelPoints: false } as const;
 
 export const RUN_OUTPUTS: readonly OutputWriter[] = [
   { key: "model", file: "model.rbfield.json", label: "model", render: (p) => modelToJson(p.model) },
@@ -37,6 +48,8 @@ export const RUN_OUTPUTS: readonly OutputWriter[] = [
   { key: "bands", file: "bands.geojson", label: "bands", render: (p) => p.bands },
   { key: "estimates", file: "estimates.csv", label: "estimates", render: (p) => estimatesCsv(p.estimates.table, p.estimates.columns) },
   { key: "residuals", file: "residuals.csv", label: "residuals", render: (p) => residualsCsv(p.model) },
+  { key: "map", file: "map.pdf", label: "map", render: (p) => mapToPdf(renderMap(p.map, RUN_MAP_OPTIONS), { creationDate: new Date(`${p.date}T00:00:00Z`) }) },
+  { key: "report", file: "report.html", label: "report", render: (p) => renderReport({ model: p.model, map: p.map, ...p.report }) },
   // Not "summary.txt": GDAL reads a file of that name beside a GeoTIFF as satellite (ALOS) metadata.
   { key: "summary", file: "run-summary.txt", label: "summary", render: (p) => p.summary },
 ];

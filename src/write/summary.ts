@@ -6,8 +6,6 @@ import type { SurfaceModel } from "../model/model.ts";
 import { MIN_SELECTION_POINTS } from "../fit/select.ts";
 import { KERNEL_TABLE } from "../fit/kernels.ts";
 
-/** Kernel formulas for people (from the kernel table). */
-export const KERNEL_TEXT: Record<string, string> = Object.fromEntries(Object.entries(KERNEL_TABLE).map(([k, f]) => [k, f.text]));
 
 /** Replace control characters (terminal escapes, newlines) in text that came from an input. */
 export const printableText = printable;
