@@ -7,6 +7,8 @@ import type { GridOptions } from "./evaluate/grid.ts";
 import { KERNELS, TRENDS } from "./fit/kernels.ts";
 import type { FitOptions } from "./fit/surface.ts";
 import { readMask } from "./job.ts";
+import { type ProgressReporter, progressReporter, type TerminalWriter } from "./cli_progress.ts";
+import { messageText } from "./text.ts";
 import { MODEL_VERSION } from "./model/model.ts";
 import type { KernelName, TrendName } from "./types.ts";
 import { contourVerb, fitVerb, gridVerb, mapVerb, predictVerb, runVerb, type VerbResult } from "./verbs.ts";
@@ -21,6 +23,8 @@ const POINTS: Spec = {
   y: { type: "string" },
   z: { type: "string" },
   crs: { type: "string" },
+  "to-crs": { type: "string" },
+  class: { type: "string" },
   "max-spread": { type: "string" },
   "merge-conflicts": { type: "boolean" },
   weight: { type: "string" },
@@ -41,14 +45,19 @@ const GRID: Spec = { cell: { type: "string" }, extent: { type: "string" }, mask:
 const STDERR: Spec = { stderr: { type: "string" } };
 const TITLE: Spec = { title: { type: "string" }, date: { type: "string" } };
 const SHEET: Spec = { paper: { type: "string" }, orientation: { type: "string" }, scale: { type: "string" }, relief: { type: "boolean" }, "label-points": { type: "boolean" } };
-const CONTOUR: Spec = { interval: { type: "string" }, base: { type: "string" }, bands: { type: "boolean" } };
+const LEVELS: Spec = { interval: { type: "string" }, base: { type: "string" }, levels: { type: "string" } };
+const CONTOUR: Spec = { ...LEVELS, bands: { type: "boolean" }, "3d": { type: "boolean" } };
 
 const POINTS_HELP = `  --x COL --y COL --z COL   columns to use, by name or 1-based position (default: detected from
                             header names such as x/easting/e, y/northing/n, z/elevation/level/value)
   --header auto|none        auto (default): a first row of numbers only is data, not a header;
                             none: the first row is data (columns are then named 1, 2, …)
-  --crs EPSG:NNNN|local     coordinate reference system of the points (default: the file's own,
-                            else a local site grid with no EPSG code)
+  --crs CRS                 coordinate reference system of the points: EPSG:NNNN, or local,
+                            local:m, local:ft, local:usft for a site grid (default: the file's own;
+                            WGS 84 for lat/lon columns or plain GeoJSON; else a local site grid)
+  --to-crs EPSG:NNNN        projected CRS to fit in when the points are latitude/longitude (default:
+                            the UTM zone of their centre)
+  --class C[,C…]            point clouds (LAS/LAZ): keep only these ASPRS classes (2 = ground)
   --max-spread DZ           refuse coincident points whose values differ by more than DZ
   --merge-conflicts         merge such points anyway (mean value) and report them
   --weight COL              observation weights (e.g. 1/variance from instrument precision)`;
@@ -81,8 +90,15 @@ const STDERR_HELP = `  --stderr FILE.tif         also write the standard error o
 const TITLE_HELP = `  --title TEXT              title of the map (and of the report)
   --date YYYY-MM-DD         date in the title block (default today, UTC; give it for byte-identical
                             outputs on another day)`;
+const LEVELS_HELP = `  --interval DZ             contour interval (default: a round number giving about ten levels;
+                            after --transform log, log-spaced levels 1, 2, 5 × 10ᵏ)
+  --base Z0                 a level that is a contour (default 0); every fifth level from it is an
+                            index contour
+  --levels L1,L2,…          contour exactly these levels instead (e.g. thresholds 1,10,100,1000;
+                            each is an index contour)`;
 const COMMON_HELP = `  --json                    print a machine-readable JSON summary on stdout
-  --quiet                   no progress messages on stderr
+  --quiet                   no progress on stderr (otherwise a bar when stderr is a terminal,
+                            else one line per step)
   --debug                   show a stack trace on internal errors
   --help                    this help`;
 
@@ -94,7 +110,7 @@ Usage: deno task rbfield <verb> [options]
 Verbs:
   fit POINTS --out MODEL          fit a surface to points and save the model
   grid MODEL --out FILE.tif       evaluate the surface on a georeferenced grid (GeoTIFF)
-  contour MODEL|FILE.tif --out FILE.geojson --interval DZ   contour lines or filled bands
+  contour MODEL|FILE.tif --out FILE.geojson                contour lines or filled bands
   predict MODEL LOCATIONS.csv --out FILE.csv                estimates at listed places
   map MODEL|FILE.tif --out FILE.pdf|.svg|.png              a contour map to print
   run POINTS --out DIR            the whole job: model, grid, contours, estimates, map, report, summary
@@ -124,15 +140,16 @@ ${GRID_HELP}
 ${STDERR_HELP}
 ${COMMON_HELP}
 `,
-  contour: `Usage: deno task rbfield contour MODEL|FILE.tif --out FILE.geojson --interval DZ [options]
+  contour: `Usage: deno task rbfield contour MODEL|FILE.tif --out FILE.geojson [options]
 
-Contour lines at BASE + k·DZ as GeoJSON MultiLineString features with a numeric "level"
-property; with --bands, filled polygons between consecutive levels with "lower" and "upper".
-Coordinates stay in the grid's CRS. From a MODEL, a grid is made first (grid options apply).
+Contour lines as GeoJSON MultiLineString features, one per level, with the properties "level" and
+"index" (true for index contours); with --bands, filled polygons between consecutive levels with
+"lower" and "upper". Coordinates stay in the grid's CRS. From a MODEL, a grid is made first (grid
+options apply).
 
-  --interval DZ             contour interval (required)
-  --base Z0                 a level that is a contour (default 0)
+${LEVELS_HELP}
   --bands                   filled bands instead of lines
+  --3d                      lines with the level as a third coordinate [x, y, level]
 ${GRID_HELP}
 ${COMMON_HELP}
 `,
@@ -143,7 +160,8 @@ standard error of the estimate; RFC 4180 CSV). Rows without usable coordinates g
 and are reported.
 
   --x COL --y COL           coordinate columns, by name or 1-based position (default: detected
-                            from the header)
+                            from the header; lat/lon columns are taken as WGS 84 and projected)
+  --crs CRS                 CRS of the locations when not the model's (e.g. EPSG:4326)
   --header auto|none        auto (default): a first row of numbers only is data; none: no header
 ${COMMON_HELP}
 `,
@@ -155,8 +173,8 @@ ${outputNamesText()}.
 ${POINTS_HELP}
 ${MODEL_HELP}
 ${GRID_HELP}
-  --interval DZ             contour interval (default: a round number giving about ten levels)
-  --base Z0                 a level that is a contour (default 0)
+${LEVELS_HELP}
+  --3d                      contours.geojson with the level as a third coordinate [x, y, level]
   --locations FILE.csv      places to estimate at (default: the input points)
 ${TITLE_HELP}
 ${COMMON_HELP}
@@ -168,8 +186,7 @@ possible blunders, the data outline, scale bar, north arrow, coordinate ticks, a
 block with the method and the caution. PDF and SVG stay vector. From a MODEL, a grid is made first
 (grid options apply).
 
-  --interval DZ             contour interval (default: a round number giving about ten levels)
-  --base Z0                 a level that is a contour (default 0)
+${LEVELS_HELP}
   --paper P                 A4|A3|A1|letter|tabloid (default A4)
   --orientation O           landscape|portrait (default landscape)
   --scale N                 print at 1:N (default: the largest round scale that fits the sheet)
@@ -187,6 +204,14 @@ const RENAMED: Record<string, string> = {
   anisotropy: "--stretch AZIMUTH:FACTOR (e.g. 45:3)",
   "flag-threshold": "--flag-level ALPHA (the blunder test's false-alarm rate, e.g. 0.05)",
 };
+
+function classOption(v: Record<string, unknown>): number[] | undefined {
+  const text = v.class as string | undefined;
+  if (text === undefined) return undefined;
+  const classes = text.split(",").map((t) => Number(t.trim()));
+  if (!classes.every((c) => Number.isInteger(c) && c >= 0 && c <= 255)) throw usage(`--class must be ASPRS class numbers 0–255, e.g. 2 or 2,9, not "${text}"`);
+  return classes;
+}
 
 function dateOption(v: Record<string, unknown>): string | undefined {
   const d = v.date as string | undefined;
@@ -209,6 +234,22 @@ function sheetOptions(v: Record<string, unknown>): MapOptions {
   return { paper: paper as MapOptions["paper"], orientation, scale, relief: Boolean(v.relief), labelPoints: Boolean(v["label-points"]) };
 }
 
+function levelsOption(v: Record<string, unknown>): number[] | undefined {
+  const text = v.levels as string | undefined;
+  if (text === undefined) return undefined;
+  const parts = text.split(",").map((t) => t.trim());
+  const levels = parts.map(Number);
+  if (parts.some((t) => t === "") || !levels.every(Number.isFinite)) {
+    throw usage(`--levels must be numbers separated by commas, such as 1,10,100,1000, not "${messageText(text)}"`);
+  }
+  return levels;
+}
+
+/** --interval, --base and --levels as the verbs take them. */
+function levelOptions(v: Record<string, unknown>): { interval?: number; base?: number; levels?: number[] } {
+  return { interval: num(v.interval as string | undefined, "interval"), base: num(v.base as string | undefined, "base"), levels: levelsOption(v) };
+}
+
 function headerOption(v: Record<string, unknown>): "auto" | "none" | undefined {
   const h = v.header as string | undefined;
   if (h !== undefined && h !== "auto" && h !== "none") throw usage(`--header must be auto or none, not "${h}"`);
@@ -217,7 +258,7 @@ function headerOption(v: Record<string, unknown>): "auto" | "none" | undefined {
 
 /** The command-line flag of a library option (camelCase → --kebab-case; a few differ). */
 function flagOf(option: string): string {
-  const special: Record<string, string> = { weights: "--weight", shapeOpt: "--shape" };
+  const special: Record<string, string> = { weights: "--weight", shapeOpt: "--shape", threeD: "--3d" };
   return special[option] ?? `--${option.replace(/[A-Z]/g, (c) => `-${c.toLowerCase()}`)}`;
 }
 
@@ -292,6 +333,8 @@ function pointsSource(file: string, v: Record<string, unknown>) {
     y: v.y as string | undefined,
     z: v.z as string | undefined,
     crs: v.crs as string | undefined,
+    toCrs: v["to-crs"] as string | undefined,
+    classes: classOption(v),
     maxSpread: num(v["max-spread"] as string | undefined, "max-spread"),
     mergeConflicts: Boolean(v["merge-conflicts"]),
     weight: v.weight as string | undefined,
@@ -301,13 +344,17 @@ function pointsSource(file: string, v: Record<string, unknown>) {
 
 interface Io {
   out: (s: string) => void;
+  /** One line on stderr. */
   err: (s: string) => void;
+  /** Stderr when it is a terminal: progress is then a bar redrawn in place (src/cli_progress.ts). */
+  terminal?: TerminalWriter;
 }
 
 /** Run the CLI with arguments; returns the exit code. */
 export async function main(args: string[], io: Io): Promise<number> {
   const verb = args[0];
   const debug = args.includes("--debug");
+  let reporter: ProgressReporter | undefined;
   try {
     if (verb === undefined || verb === "--help" || verb === "-h" || verb === "help") {
       io.out(HELP.main);
@@ -318,9 +365,9 @@ export async function main(args: string[], io: Io): Promise<number> {
       fit: { ...COMMON, ...POINTS, ...MODEL, out: { type: "string" } },
       grid: { ...COMMON, ...GRID, ...STDERR, out: { type: "string" } },
       contour: { ...COMMON, ...GRID, ...CONTOUR, out: { type: "string" } },
-      predict: { ...COMMON, x: { type: "string" }, y: { type: "string" }, header: { type: "string" }, out: { type: "string" } },
+      predict: { ...COMMON, x: { type: "string" }, y: { type: "string" }, header: { type: "string" }, crs: { type: "string" }, out: { type: "string" } },
       run: { ...COMMON, ...POINTS, ...MODEL, ...GRID, ...CONTOUR, ...TITLE, out: { type: "string" }, locations: { type: "string" } },
-      map: { ...COMMON, ...GRID, ...TITLE, ...SHEET, interval: { type: "string" }, base: { type: "string" }, out: { type: "string" } },
+      map: { ...COMMON, ...GRID, ...TITLE, ...SHEET, ...LEVELS, out: { type: "string" } },
     };
     // "--base -5": join a value option with a following negative number so it is not read as an option.
     const rest: string[] = [];
@@ -349,7 +396,8 @@ export async function main(args: string[], io: Io): Promise<number> {
       io.out(HELP[verb]);
       return 0;
     }
-    const progress = v.quiet ? undefined : (m: string) => io.err(`rbfield: ${m}`);
+    reporter = progressReporter({ quiet: Boolean(v.quiet), terminal: io.terminal, line: io.err });
+    const progress = reporter.progress;
     const wantPositionals = verb === "predict" ? 2 : 1;
     if (pos.length !== wantPositionals) {
       throw usage(`${verb} takes ${wantPositionals === 2 ? "MODEL and LOCATIONS" : "one input file"}, got ${pos.length} (see 'deno task rbfield ${verb} --help')`);
@@ -362,14 +410,12 @@ export async function main(args: string[], io: Io): Promise<number> {
     else if (verb === "grid") {
       result = await gridVerb({ model: pos[0], out, stderr: v.stderr as string | undefined, grid: { ...gridOptions(v), progress }, otherInputs: maskFile });
     } else if (verb === "contour") {
-      const interval = num(v.interval as string | undefined, "interval");
-      if (interval === undefined) throw usage("contour needs --interval DZ");
       result = await contourVerb({
         input: pos[0],
         out,
-        interval,
-        base: num(v.base as string | undefined, "base") ?? 0,
+        ...levelOptions(v),
         bands: Boolean(v.bands),
+        threeD: Boolean(v["3d"]),
         grid: { ...gridOptions(v), progress },
         otherInputs: maskFile,
       });
@@ -377,8 +423,7 @@ export async function main(args: string[], io: Io): Promise<number> {
       result = await mapVerb({
         input: pos[0],
         out,
-        interval: num(v.interval as string | undefined, "interval"),
-        base: num(v.base as string | undefined, "base") ?? 0,
+        ...levelOptions(v),
         title: v.title as string | undefined,
         date: dateOption(v),
         sheet: sheetOptions(v),
@@ -386,15 +431,15 @@ export async function main(args: string[], io: Io): Promise<number> {
         otherInputs: maskFile,
       });
     } else if (verb === "predict") {
-      result = await predictVerb({ model: pos[0], locations: pos[1], out, x: v.x as string | undefined, y: v.y as string | undefined, header: headerOption(v) });
+      result = await predictVerb({ model: pos[0], locations: pos[1], out, x: v.x as string | undefined, y: v.y as string | undefined, header: headerOption(v), crs: v.crs as string | undefined, progress });
     } else {
       result = await runVerb({
         ...pointsSource(pos[0], v),
         outDir: out,
         fit: fitOptions(v),
         grid: gridOptions(v),
-        interval: num(v.interval as string | undefined, "interval"),
-        base: num(v.base as string | undefined, "base"),
+        ...levelOptions(v),
+        threeD: Boolean(v["3d"]),
         locations: v.locations as string | undefined,
         otherInputs: maskFile,
         title: v.title as string | undefined,
@@ -402,10 +447,12 @@ export async function main(args: string[], io: Io): Promise<number> {
         progress,
       });
     }
+    reporter.clear();
     for (const w of result.warnings) io.err(`rbfield: warning: ${w}`);
     io.out(v.json ? JSON.stringify(result.json, null, 2) + "\n" : result.text);
     return 0;
   } catch (e) {
+    reporter?.clear();
     if (e instanceof RbfieldError) {
       io.err(`rbfield: ${e.messageFor(flagOf).split("\n")[0]}`);
       return e.exitCode;
@@ -413,6 +460,8 @@ export async function main(args: string[], io: Io): Promise<number> {
     io.err(`rbfield: internal error: ${(e as Error)?.message ?? String(e)}${debug ? "" : " (run with --debug for details)"}`);
     if (debug) io.err(String((e as Error)?.stack ?? e));
     return ExitCode.internal;
+  } finally {
+    reporter?.clear();
   }
 }
 
@@ -421,10 +470,25 @@ function writeAll(stream: { writeSync(p: Uint8Array): number }, text: string): v
   while (bytes.length > 0) bytes = bytes.subarray(stream.writeSync(bytes));
 }
 
+/** Stderr as a terminal for the progress bar; its width from the console size when known. */
+function stderrTerminal(): TerminalWriter {
+  return {
+    write: (s) => writeAll(Deno.stderr, s),
+    get columns() {
+      try {
+        return Deno.consoleSize().columns;
+      } catch {
+        return 80;
+      }
+    },
+  };
+}
+
 if (import.meta.main) {
   const code = await main(Deno.args, {
     out: (s) => writeAll(Deno.stdout, s),
     err: (s) => writeAll(Deno.stderr, s + "\n"),
+    terminal: Deno.stderr.isTerminal() ? stderrTerminal() : undefined,
   });
   Deno.exit(code);
 }

@@ -10,8 +10,12 @@ import { gridModelParallel } from "./evaluate/parallel.ts";
 import { type ErrorEstimator, gridStandardError, makeErrorEstimator } from "./evaluate/stderr.ts";
 import { type GridOptions, polygonsFromGeoJson, type PolygonRings } from "./evaluate/grid.ts";
 import { valueRange } from "./numbers.ts";
+import { type CrsInfo, describeCrs } from "./crs/crs.ts";
+import { type CrsChoice, crsRecord, projectTable, tableCrs } from "./read/project.ts";
 import { jsonErrorPlace } from "./json_syntax.ts";
-import { contourGeoJson, defaultInterval } from "./write/contours.ts";
+import { contourGeoJson } from "./write/contours.ts";
+import { chooseLevelRule } from "./write/levels.ts";
+import { formatUncertainty, lengthText } from "./text.ts";
 import { fileListLines, type RunProducts, RUN_OUTPUTS } from "./write/outputs.ts";
 import { mapInputFromModel } from "./write/map.ts";
 import { type FitOptions, type FittedModel, fitSurfaceParallelWithFactors } from "./fit/surface.ts";
@@ -20,25 +24,20 @@ import { decodeGeoTiff } from "./read/geotiff.ts";
 import { parseNumber, readPointTable } from "./read/points.ts";
 import type { CleanPoints, Crs, GridValues, PointTable } from "./types.ts";
 import { checkWritableFolder, ensureFolder, refuseFolderAsOutput, refuseInputAsOutput, writeFilesAtomic } from "./write/atomic.ts";
-import { fmt, modelSummaryLines, printableText, summaryText } from "./write/summary.ts";
-
-/** Parse "EPSG:28355" (or "epsg:28355", "28355") or "local". */
-export function parseCrs(text: string): Crs {
-  const t = text.trim();
-  if (/^local$/i.test(t)) return { label: "local site grid (no EPSG code)" };
-  const m = /^(?:epsg:)?(\d{4,6})$/i.exec(t);
-  if (!m) throw new RbfieldError(`${opt("crs")} must look like EPSG:28355 or be "local", not "${t}"`, ExitCode.usage);
-  const epsg = Number(m[1]);
-  return { epsg, label: `EPSG:${epsg}` };
-}
+import { contourText, fmt, gridText, modelSummaryLines, printableText, summaryText } from "./write/summary.ts";
 
 export interface PointsSource {
   file: string;
   x?: string;
   y?: string;
   z?: string;
-  /** "EPSG:NNNN" or "local"; default: the file's own CRS, else local. */
+  /** "EPSG:NNNN", "local", "local:m", "local:ft" or "local:usft"; default: the file's own CRS, WGS 84 for
+   *  longitude/latitude columns, else a local site grid. */
   crs?: string;
+  /** Projected CRS to fit in when the points are geographic (default: the UTM zone of their centre). */
+  toCrs?: string;
+  /** Point clouds: keep only these ASPRS classes (2 = ground). */
+  classes?: number[];
   /** Refuse coincident points whose values differ by more than this (default: 5% of the value range). */
   maxSpread?: number;
   mergeConflicts?: boolean;
@@ -94,9 +93,23 @@ function readWeights(src: PointsSource, table: PointTable, points: CleanPoints):
   });
 }
 
+/** The summary's line about the coordinates: the CRS, its unit, and the projection when there was one. */
+export function crsNote(c: CrsChoice): string {
+  const unit = (i: CrsInfo) => (i.unit === null || i.unit === undefined ? "unit not stated" : i.unit === "degree" ? "degrees" : UNIT_WORDS[i.unit]);
+  const name = (i: CrsInfo) => (i.epsg !== undefined ? `${i.label} (${printableText(i.name)})` : i.label);
+  return c.source === c.target
+    ? `Coordinates: ${name(c.target)}, ${unit(c.target)}${c.how === "as given" ? "" : `; ${c.how}`}`
+    : `Coordinates: ${name(c.source)} (${c.how}), projected to ${name(c.target)}, ${unit(c.target)}, before fitting`;
+}
+
+const UNIT_WORDS = { metre: "metres", foot: "feet", "US survey foot": "US survey feet" } as const;
+
 /** Read and clean a points file. */
 export async function loadPoints(src: PointsSource): Promise<LoadedPoints> {
-  const table = await readPointTable(src.file, { x: src.x, y: src.y, z: src.z, header: src.header });
+  const table = await readPointTable(src.file, { x: src.x, y: src.y, z: src.z, header: src.header, classes: src.classes });
+  // Geographic coordinates are projected before anything else sees them (read/project.ts).
+  const crsChoice = await tableCrs(table, src.crs, src.toCrs);
+  await projectTable(table, crsChoice);
   // Merge first, then judge conflicts against the limit: given, or 5% of the value range (common practice
   // for "the same shot twice": small differences are instrument noise, large ones a blunder).
   const points = cleanPoints(table, { mergeConflicts: true, minPoints: 3 });
@@ -113,12 +126,13 @@ export async function loadPoints(src: PointsSource): Promise<LoadedPoints> {
       );
     }
   }
-  const crs = src.crs ? parseCrs(src.crs) : table.crs ?? { label: "local site grid (no EPSG code)" };
+  const crs = crsRecord(crsChoice.target);
   const notes = [
     table.hasHeader === false
       ? `Columns: x = column ${table.xColumn + 1}, y = column ${table.yColumn + 1}, value = column ${table.zColumn + 1} (the file has no header row; named by position)`
       : `Columns: x = ${printableText(table.columns[table.xColumn])}, y = ${printableText(table.columns[table.yColumn])}, ` +
         `value = ${printableText(table.columns[table.zColumn])} (${table.columnChoice === "detected" ? "detected from the header; name them with --x --y --z" : "as named"})`,
+    crsNote(crsChoice),
     `Points: ${points.rowsRead} rows read, ${points.x.length} used`,
     ...describeCleaning(points),
   ];
@@ -188,6 +202,39 @@ export async function readGrid(file: string): Promise<GridValues> {
   return await decodeGeoTiff(bytes, file);
 }
 
+/** A table's coordinate column as numbers: the typed values, or the cells parsed for a hand-made table. */
+function coordinateColumn(table: PointTable, j: number): Float64Array {
+  const col = table.data?.[j];
+  if (col && col.kind === "number") return col.values;
+  return Float64Array.from(table.rows, (row) => parseNumber(row[j] ?? "", table.decimalComma));
+}
+
+/**
+ * Read a locations file and bring its coordinates into the model's CRS: the locations are in `crs`
+ * when given, else in WGS 84 when their columns are longitude/latitude, else in the model's own CRS.
+ * Local grids in different units are refused (nothing relates them).
+ */
+export async function readLocations(file: string, model: SurfaceModel, opts: { x?: string; y?: string; header?: "auto" | "none"; crs?: string }): Promise<PointTable> {
+  const table = await readPointTable(file, { x: opts.x, y: opts.y, needValue: false, header: opts.header });
+  const given = opts.crs ?? (table.chosenBy?.x === "longitude" ? "EPSG:4326" : table.crs?.epsg !== undefined ? `EPSG:${table.crs.epsg}` : undefined);
+  if (given === undefined) return table;
+  const source = await describeCrs(given);
+  const modelCrs = model.crs.epsg !== undefined ? await describeCrs(model.crs.epsg) : undefined;
+  if (!modelCrs) {
+    if (source.kind !== "local" || (source.unit && model.crs.unit && source.unit !== model.crs.unit)) {
+      throw new RbfieldError(
+        `the locations are in ${source.label} but the model is in ${model.crs.label}; give the locations in the model's coordinates`,
+        ExitCode.input,
+        { file },
+      );
+    }
+    return table;
+  }
+  if (source.epsg === modelCrs.epsg) return table;
+  await projectTable(table, { source, target: modelCrs, how: "as given" });
+  return table;
+}
+
 /** Estimates at the rows of a locations table, with their standard errors and extrapolation marks. */
 export interface EstimateTable {
   estimates: Float64Array;
@@ -221,9 +268,10 @@ export function estimateTable(
   const nearest = new Float64Array(rows).fill(NaN);
   const notes: string[] = new Array(rows).fill("");
   const out: EstimateTable = { estimates: est, stdErrors: err, nearest, notes, unusable: [], outsideHull: [], farFromData: [], outOfRange: [] };
-  table.rows.forEach((row, i) => {
-    const x = parseNumber(row[table.xColumn] ?? "", table.decimalComma);
-    const y = parseNumber(row[table.yColumn] ?? "", table.decimalComma);
+  // The typed coordinates (projected into the model's CRS where they were given in another).
+  const xs = coordinateColumn(table, table.xColumn), ys = coordinateColumn(table, table.yColumn);
+  table.rows.forEach((_row, i) => {
+    const x = xs[i], y = ys[i];
     const value = Number.isFinite(x) && Number.isFinite(y) ? ev.at(x, y) : NaN;
     const line = table.lines[i];
     if (!Number.isFinite(value)) {
@@ -256,7 +304,7 @@ export function estimateColumns(est: EstimateTable) {
 /** Summary lines about a standard-error grid, with the reason when it is zero everywhere. */
 export function standardErrorLines(range: { lo: number; hi: number }, stride: number): string[] {
   if (!(range.hi >= range.lo)) return ["Standard error of the surface: no unmasked cell"];
-  const line = `Standard error of the surface: ${fmt(range.lo)} to ${fmt(range.hi)} inside the mask` +
+  const line = `Standard error of the surface: ${formatUncertainty(range.lo)} to ${formatUncertainty(range.hi)} inside the mask` +
     (stride > 1 ? ` (computed every ${stride} cells and interpolated)` : "") + "; a model-based figure, not a survey tolerance";
   if (range.hi > 0) return [line];
   return [line, "  it is zero because the readings lie exactly on the trend (for example a plane): the model sees no variation to be unsure of"];
@@ -290,8 +338,8 @@ export function estimateSummaryLines(est: EstimateTable, model: SurfaceModel): s
     });
     out.push(
       `  extrapolated: ${est.outsideHull.length} outside the data hull, ${est.farFromData.length} farther than ` +
-        `${fmt(FAR_SPACINGS)} point spacings (${fmt(FAR_SPACINGS * model.spacing)} map units) from the nearest reading` +
-        (worst >= 0 ? `; the farthest is ${fmt(est.nearest[worst])} map units away` : "") +
+        `${fmt(FAR_SPACINGS)} point spacings (${lengthText(FAR_SPACINGS * model.spacing, model.crs)}) from the nearest reading` +
+        (worst >= 0 ? `; the farthest is ${lengthText(est.nearest[worst], model.crs)} away` : "") +
         " (column extrapolation); such estimates rest on the trend, not on nearby readings",
     );
   }
@@ -308,9 +356,13 @@ export interface RunOptions extends PointsSource {
   outDir: string;
   fit?: FitOptions;
   grid?: Omit<GridOptions, "progress">;
-  /** Contour interval; default about ten levels over the range. */
+  /** Contour interval; default about ten levels over the range (log-spaced for log fits). */
   interval?: number;
   base?: number;
+  /** Contour levels listed instead of an interval (e.g. thresholds 1, 10, 100, 1000). */
+  levels?: number[];
+  /** Contour lines with the level as a third coordinate. */
+  threeD?: boolean;
   /** Locations to estimate at (CSV); default: the input points themselves. */
   locations?: string;
   /** Other files read by this run (e.g. a mask), which no output may overwrite. */
@@ -319,7 +371,8 @@ export interface RunOptions extends PointsSource {
   title?: string;
   /** Date printed on the map and the report, YYYY-MM-DD (default today, UTC). */
   date?: string;
-  progress?: (message: string) => void;
+  /** Progress of long steps: a message and, where a loop knows it, the fraction done. */
+  progress?: (message: string, fraction?: number) => void;
 }
 
 export interface RunResult {
@@ -361,12 +414,12 @@ async function runInto(opts: RunOptions, files: Record<string, string>, inputs: 
   opts.progress?.(`reading ${opts.file}`);
   const fitted = await fitPointsFile(opts, { ...opts.fit, progress: opts.progress });
   const model = fitted.model;
-  const locTable = opts.locations ? await readPointTable(opts.locations, { x: opts.x, y: opts.y, needValue: false, header: opts.header }) : fitted.table;
+  const locTable = opts.locations ? await readLocations(opts.locations, model, { x: opts.x, y: opts.y, header: opts.header, crs: opts.crs }) : fitted.table;
   opts.progress?.("gridding");
   const grid = await gridModelParallel(model, { ...opts.grid, progress: opts.progress });
-  const interval = opts.interval ?? defaultInterval(grid);
-  const lines = contourGeoJson(grid, interval, opts.base ?? 0, false);
-  const bands = contourGeoJson(grid, interval, opts.base ?? 0, true);
+  const rule = chooseLevelRule(opts, grid.values, model.transform);
+  const lines = contourGeoJson(grid, rule, { threeD: opts.threeD, progress: opts.progress });
+  const bands = contourGeoJson(grid, rule, { bands: true, progress: opts.progress });
   opts.progress?.("standard errors");
   // One error estimator serves the estimates table and the error grid, from the fit's own factors.
   const errorEstimator = makeErrorEstimator(model, fitted.factors);
@@ -383,13 +436,13 @@ async function runInto(opts: RunOptions, files: Record<string, string>, inputs: 
     fitted.notes,
     modelSummaryLines(model),
     [
-      `Grid: ${s.cols} × ${s.rows} cells of ${fmt(s.cell)} map units, extent ${s.xmin}, ${s.ymin} to ${s.xmax}, ${s.ymax} (outer cell edges); ${masked} cells masked`,
+      `Grid: ${gridText(s, model.crs)}; ${masked} cells masked`,
       `Grid values from ${fmt(gridRange.lo)} to ${fmt(gridRange.hi)} (readings from ${fmt(check.range.lo)} to ${fmt(check.range.hi)})`,
       ...(check.outOfRange(gridRange.lo) || check.outOfRange(gridRange.hi)
         ? ["WARNING: the grid reaches far outside the range of the readings; look at the cells far from readings before using them"]
         : []),
       ...standardErrorLines(seRange, errors.stride),
-      `Contours: interval ${fmt(interval)}, ${lines.levels.length} levels; bands between them`,
+      `Contours: ${contourText(rule, lines.levels.length)}; bands between them`,
       ...estimateSummaryLines(est, model),
     ],
     fileListLines(files),
@@ -403,7 +456,7 @@ async function runInto(opts: RunOptions, files: Record<string, string>, inputs: 
     bands: bands.text,
     estimates: { table: locTable, columns: estimateColumns(est) },
     summary,
-    map: mapInputFromModel(model, grid, { interval, base: opts.base ?? 0, title: opts.title, date }),
+    map: mapInputFromModel(model, grid, { rule, title: opts.title, date }),
     report: {
       stderrGrid: errors.grid,
       stderrNote: errors.stride > 1 ? `computed every ${errors.stride} cells and interpolated` : undefined,
@@ -414,8 +467,11 @@ async function runInto(opts: RunOptions, files: Record<string, string>, inputs: 
     },
     date,
   };
-  opts.progress?.("writing the map, the report and the other files");
-  const rendered = await Promise.all(RUN_OUTPUTS.map(async (o): Promise<[string, string | Uint8Array]> => [files[o.key], await o.render(products)]));
+  const rendered: [string, string | Uint8Array][] = [];
+  for (const [i, o] of RUN_OUTPUTS.entries()) {
+    opts.progress?.("writing the map, the report and the other files", i / RUN_OUTPUTS.length);
+    rendered.push([files[o.key], await o.render(products)]);
+  }
   // Everything is computed; write all files as one step (temporary files, then renames).
   writeFilesAtomic(rendered);
   return { model, files, summary, warnings: estimateWarnings(est) };

@@ -28,5 +28,7 @@ export { writeFileAtomic } from "./write/atomic.ts";
 export { modelSummaryLines, summaryText } from "./write/summary.ts";
 export { medianSpacing, convexHullRing } from "./geometry.ts";
 // the whole job and the verbs
-export { fitPointsFile, loadPoints, parseCrs, readGrid, readModel, runJob, type RunOptions } from "./job.ts";
+export { fitPointsFile, loadPoints, readGrid, readModel, runJob, type RunOptions } from "./job.ts";
+export { describeCrs, makeProjector, utmZoneFor } from "./crs/crs.ts";
+export { crsRecord, projectTable, tableCrs } from "./read/project.ts";
 export { contourVerb, fitVerb, gridVerb, predictVerb, runVerb, type VerbResult } from "./verbs.ts";

@@ -14,6 +14,10 @@ export interface Crs {
   epsg?: number;
   /** Human text, e.g. "EPSG:28355" or "local site grid". */
   label: string;
+  /** Geographic (degrees), projected, or a local site grid (absent in older models: unknown). */
+  kind?: "geographic" | "projected" | "local";
+  /** Unit of x and y: "metre", "foot", "US survey foot", "degree", or null when not stated. */
+  unit?: "metre" | "foot" | "US survey foot" | "degree" | null;
 }
 
 /** One column of a read table: numbers (NaN where a cell is not a number) or text carried through. */
@@ -26,7 +30,7 @@ export type TableColumn =
  * gave its 1-based position), "detected" (a recognised header name), "first numeric" (the first
  * numeric column, for the value), "coordinate" (a GeoJSON Point's third coordinate), "none".
  */
-export type ColumnFound = "named" | "position" | "detected" | "first numeric" | "coordinate" | "none";
+export type ColumnFound = "named" | "position" | "detected" | "first numeric" | "coordinate" | "longitude" | "latitude" | "none";
 
 /** A row that cannot be used as a point: its x, y or value is not a number. */
 export interface UnusableRow extends SkippedRow {

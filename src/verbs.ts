@@ -16,19 +16,21 @@ import {
   fitPointsFile,
   type PointsSource,
   readGrid,
+  readLocations,
   readModel,
   runJob,
   type RunOptions,
 } from "./job.ts";
 import { modelToJson, type SurfaceModel } from "./model/model.ts";
-import { readPointTable } from "./read/points.ts";
 import { checkWritableFolder, refuseInputAsOutput, writeFileAtomic, writeFilesAtomic } from "./write/atomic.ts";
-import { contourGeoJson, defaultInterval } from "./write/contours.ts";
+import { contourGeoJson } from "./write/contours.ts";
+import { chooseLevelRule, describeLevels, type LevelRule } from "./write/levels.ts";
+import { crsText } from "./text.ts";
 import { mapInputFromGrid, mapInputFromModel, type MapInput, type MapOptions, renderMap } from "./write/map.ts";
 import { mapToPdf, mapToPng } from "./write/map/print.ts";
 import { estimatesCsv } from "./write/csv.ts";
 import { encodeGeoTiff } from "./write/geotiff.ts";
-import { fmt, modelSummaryLines } from "./write/summary.ts";
+import { contourText, gridText, modelSummaryLines } from "./write/summary.ts";
 
 /** What a verb hands back to the CLI. */
 export interface VerbResult {
@@ -111,7 +113,7 @@ export async function gridVerb(o: GridVerbOptions): Promise<VerbResult> {
       "a model-based figure, not a survey tolerance\n"
     : "";
   return {
-    text: `Grid ${s.cols} × ${s.rows} cells of ${fmt(s.cell)} written to ${o.out} (extent ${s.xmin}, ${s.ymin} to ${s.xmax}, ${s.ymax}; CRS ${grid.crs.label})\n${seLine}\n${CAUTION}\n`,
+    text: `Grid of ${gridText(s, grid.crs)} written to ${o.out} (CRS ${crsText(grid.crs)})\n${seLine}\n${CAUTION}\n`,
     json: {
       cols: s.cols,
       rows: s.rows,
@@ -131,9 +133,14 @@ export interface ContourVerbOptions {
   /** A model file, or a GeoTIFF grid (by its .tif/.tiff ending). */
   input: string;
   out: string;
-  interval: number;
-  base: number;
+  /** Contour interval; default about ten levels (log-spaced 1, 2, 5 × 10ᵏ for a log-transformed model). */
+  interval?: number;
+  base?: number;
+  /** Levels listed instead of an interval. */
+  levels?: number[];
   bands: boolean;
+  /** Lines with the level as a third coordinate. */
+  threeD?: boolean;
   grid: GridOptions;
   otherInputs?: string[];
 }
@@ -141,13 +148,17 @@ export interface ContourVerbOptions {
 export async function contourVerb(o: ContourVerbOptions): Promise<VerbResult> {
   prepareOutput(o.out, [o.input, ...(o.otherInputs ?? [])]);
   const isTiff = /\.tiff?$/i.test(o.input);
-  const grid = isTiff ? await readGrid(o.input) : await gridModelParallel(readModel(o.input), o.grid);
-  const r = contourGeoJson(grid, o.interval, o.base, o.bands);
+  if (o.threeD && o.bands) throw new RbfieldError(`${opt("threeD")} applies to contour lines; filled bands lie between two levels`, ExitCode.usage);
+  const model = isTiff ? undefined : readModel(o.input);
+  const grid = model ? await gridModelParallel(model, o.grid) : await readGrid(o.input);
+  const rule = chooseLevelRule(o, grid.values, model?.transform);
+  const r = contourGeoJson(grid, rule, { bands: o.bands, threeD: o.threeD, progress: o.grid.progress });
   writeFileAtomic(o.out, r.text);
-  const what = o.bands ? `${r.features} filled bands` : `contour lines at ${r.features} levels`;
+  const what = o.bands ? `${r.features} filled bands between contours` : `Contour lines${o.threeD ? " with the level as z" : ""}`;
   return {
-    text: `${what[0].toUpperCase()}${what.slice(1)} (interval ${fmt(o.interval)}) written to ${o.out}; coordinates in the grid's CRS (${grid.crs.label})\n\n${CAUTION}\n`,
-    json: { levels: r.levels, bands: o.bands, file: o.out, caution: CAUTION },
+    text: `${what} (${contourText(rule, r.levels.length)}) written to ${o.out}; ` +
+      `coordinates in the grid's CRS: ${crsText(grid.crs)}\n\n${CAUTION}\n`,
+    json: { levels: r.levels, levelRule: rule, bands: o.bands, threeD: Boolean(o.threeD), file: o.out, caution: CAUTION },
     warnings: [],
   };
 }
@@ -159,12 +170,16 @@ export interface PredictVerbOptions {
   x?: string;
   y?: string;
   header?: "auto" | "none";
+  /** CRS of the locations when it is not the model's (e.g. EPSG:4326 for latitude/longitude). */
+  crs?: string;
+  progress?: (message: string, fraction?: number) => void;
 }
 
 export async function predictVerb(o: PredictVerbOptions): Promise<VerbResult> {
   prepareOutput(o.out, [o.model, o.locations]);
   const model = readModel(o.model);
-  const table = await readPointTable(o.locations, { x: o.x, y: o.y, needValue: false, header: o.header });
+  const table = await readLocations(o.locations, model, { x: o.x, y: o.y, header: o.header, crs: o.crs });
+  o.progress?.(`estimates and standard errors at ${table.rows.length} places`);
   const est = estimateTable(model, table);
   writeFileAtomic(o.out, estimatesCsv(table, estimateColumns(est)));
   return {
@@ -188,15 +203,22 @@ export interface MapVerbOptions {
   input: string;
   /** FILE.svg, FILE.pdf or FILE.png (by its ending). */
   out: string;
-  /** Contour interval (default: a round number giving about ten levels). */
+  /** Contour interval (default: a round number giving about ten levels; log-spaced for a log-transformed model). */
   interval?: number;
-  base: number;
+  base?: number;
+  /** Levels listed instead of an interval. */
+  levels?: number[];
   title?: string;
   /** Date printed in the title block, YYYY-MM-DD (default today, UTC). */
   date?: string;
   sheet: MapOptions;
   grid: GridOptions;
   otherInputs?: string[];
+}
+
+/** The interval of an interval rule (--json's "interval"), else null. */
+function intervalOf(rule: LevelRule): number | null {
+  return rule.kind === "interval" ? rule.interval : null;
 }
 
 /** A printable contour map of a model or a grid: SVG, PDF (vector) or PNG, by the output's ending. */
@@ -209,20 +231,30 @@ export async function mapVerb(o: MapVerbOptions): Promise<VerbResult> {
   let input: MapInput;
   if (isTiff) {
     const grid = await readGrid(o.input);
-    const interval = o.interval ?? defaultInterval(grid);
-    input = mapInputFromGrid(grid, { interval, base: o.base, title: o.title ?? path.basename(o.input), dataFile: path.basename(o.input), date });
+    const rule = chooseLevelRule(o, grid.values);
+    input = mapInputFromGrid(grid, { rule, title: o.title ?? path.basename(o.input), dataFile: path.basename(o.input), date });
   } else {
     const model = readModel(o.input);
     const grid = await gridModelParallel(model, o.grid);
-    input = mapInputFromModel(model, grid, { interval: o.interval ?? defaultInterval(grid), base: o.base, title: o.title, date });
+    input = mapInputFromModel(model, grid, { rule: chooseLevelRule(o, grid.values, model.transform), title: o.title, date });
   }
+  o.grid.progress?.(`drawing the map${format === "svg" ? "" : ` and writing it as ${format.toUpperCase()}`}`);
   const svg = renderMap(input, o.sheet);
   const bytes = format === "svg" ? svg : format === "pdf" ? await mapToPdf(svg, { creationDate: new Date(`${date}T00:00:00Z`) }) : await mapToPng(svg);
   writeFileAtomic(o.out, bytes);
   const sheet = `${o.sheet.paper} ${o.sheet.orientation}${o.sheet.scale ? `, 1:${o.sheet.scale}` : ", fitted to the sheet"}`;
   return {
-    text: `Map (${sheet}; contours every ${fmt(input.interval)}) written to ${o.out}\n\n${CAUTION}\n`,
-    json: { file: o.out, format, paper: o.sheet.paper, orientation: o.sheet.orientation, scale: o.sheet.scale ?? null, interval: input.interval, caution: CAUTION },
+    text: `Map (${sheet}; contours ${describeLevels(input.rule, "", "-").levels}) written to ${o.out}\n\n${CAUTION}\n`,
+    json: {
+      file: o.out,
+      format,
+      paper: o.sheet.paper,
+      orientation: o.sheet.orientation,
+      scale: o.sheet.scale ?? null,
+      interval: intervalOf(input.rule),
+      levelRule: input.rule,
+      caution: CAUTION,
+    },
     warnings: [],
   };
 }

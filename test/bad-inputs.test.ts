@@ -929,7 +929,7 @@ describe("library safeguards behind the messages above", () => {
     const none = await clean("no-finite-rows.csv");
     expect(none.exitCode).toBe(ExitCode.input);
     expect(none.message).toMatch(/no-finite-rows\.csv: no usable points: all 6 data rows were skipped \(line 2: value 'Infinity' in column 'x' is not a finite number\)/);
-    expect(none.message).toContain("check that x, y and value are the columns 'x', 'y', 'z' or name them with --x --y --z");
+    expect(none.messageFor((o) => `--${o}`)).toContain("check that x, y and value are the columns 'x', 'y', 'z' or name them with --x --y --z");
     const two = await clean("two-usable-points.csv");
     expect(two.message).toMatch(/two-usable-points\.csv: only 2 usable points at distinct positions, and at least 3 are needed/);
     expect(two.message).toContain("1 of 3 rows skipped (first: line 4: missing value in column 'z')");

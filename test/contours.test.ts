@@ -93,10 +93,12 @@ describe("contourLines", () => {
     for (const c of [2, 5, 8]) {
       const fc = contourLines(cone, [c]);
       expect(fc.features).toHaveLength(1);
-      expect(fc.features[0].properties).toEqual({ level: c });
+      expect(fc.features[0].properties).toEqual({ level: c, index: false });
       const geometry = fc.features[0].geometry;
-      expect(geometry.type).toBe("LineString");
-      const ring = geometry.coordinates as Position[];
+      // One geometry type for every feature (README): a single ring is a one-part MultiLineString.
+      expect(geometry.type).toBe("MultiLineString");
+      expect(pieces(geometry)).toHaveLength(1);
+      const ring = pieces(geometry)[0];
       expect(ring[0]).toEqual(ring[ring.length - 1]);
       // Vertices: linear interpolation of the distance along an edge of length h overestimates it by
       // at most h²/(8c) (second derivative ≤ 1/c), so vertices lie up to h²/(8c) inside the circle;

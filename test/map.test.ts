@@ -16,8 +16,10 @@ import { ExitCode, RbfieldError } from "../src/errors.ts";
 import { CAUTION } from "../src/caution.ts";
 import type { GridValues } from "../src/types.ts";
 import { contourLevels, contourLines } from "../src/write/contours.ts";
+import { indexTest, intervalRule } from "../src/write/levels.ts";
 import { type MapInput, type MapOptions, renderMap } from "../src/write/map.ts";
-import { decimalsOf, formatFixed, roundStepBelow } from "../src/write/map/format.ts";
+import { decimalsOf, formatFixed } from "../src/text.ts";
+import { roundStepBelow } from "../src/write/map/format.ts";
 import { mapToPdf, mapToPng } from "../src/write/map/print.ts";
 import { screenshot, skipChromium, startBrowser, stopBrowser, visit } from "./chromium.ts";
 
@@ -51,9 +53,9 @@ function coneInput(overrides: Partial<MapInput> = {}): MapInput {
   const levels = contourLevels(89, 100, 0.5);
   return {
     grid,
-    contours: contourLines(grid, levels),
+    contours: contourLines(grid, levels, { index: indexTest(intervalRule(0.5)) }),
     levels,
-    interval: 0.5,
+    rule: intervalRule(0.5),
     points: POINTS,
     outline: [[[512_310, 5_402_110], [512_590, 5_402_110], [512_590, 5_402_390], [512_310, 5_402_390], [512_310, 5_402_110]]],
     outlineLabel: "Data outline (convex hull)",
@@ -192,7 +194,7 @@ describe("renderMap: contours and labels (against the cone's formula)", () => {
     const spec = { ...grid.spec, xmin: 712_401.3, ymax: 5_712_401.3, cell: 0.1 };
     const shifted: GridValues = { ...grid, spec: { ...spec, xmax: spec.xmin + spec.cols * 0.1, ymin: spec.ymax - spec.rows * 0.1 } };
     const levels = contourLevels(89, 100, 0.1);
-    const out = renderMap({ ...coneInput(), grid: shifted, contours: contourLines(shifted, levels), levels, interval: 0.1, points: [], outline: [] }, A4_LANDSCAPE);
+    const out = renderMap({ ...coneInput(), grid: shifted, contours: contourLines(shifted, levels), levels, rule: intervalRule(0.1), points: [], outline: [] }, A4_LANDSCAPE);
     const words = texts(out).map((t) => t.text).join(" ");
     expect(words).not.toMatch(/\d\.\d*(0{5,}|9{5,})\d/);
     expect(words).toMatch(/7124\d\d(\.\d)?/);

@@ -194,14 +194,14 @@ describe("column choice", () => {
     const e = errorOf(() => parsePointTable("a,b,c\n1,2,3\n", "pts.csv"));
     expect(e.exitCode).toBe(ExitCode.input);
     expect(e.message).toContain("pts.csv, line 1");
-    expect(e.message).toContain("--x and --y");
+    expect(e.messageFor((o) => `--${o}`)).toContain("--x and --y");
     expect(e.place).toEqual({ file: "pts.csv", line: 1 });
   });
 
   it("asks for --z when no value column is found", () => {
     const e = errorOf(() => parsePointTable("x,y,name\n1,2,A\n", "pts.csv"));
     expect(e.message).toContain("pts.csv, line 1");
-    expect(e.message).toContain("--z");
+    expect(e.messageFor((o) => `--${o}`)).toContain("--z");
   });
 
   it("allows no value column for prediction locations", () => {

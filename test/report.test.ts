@@ -13,6 +13,7 @@ import { gridModel } from "../src/evaluate/grid.ts";
 import { gridStandardError } from "../src/evaluate/stderr.ts";
 import { fitSurface } from "../src/fit/surface.ts";
 import { mapInputFromModel } from "../src/write/map.ts";
+import { intervalRule } from "../src/write/levels.ts";
 import { renderReport } from "../src/write/report.ts";
 import { screenshot, skipChromium, startBrowser, stopBrowser, visit } from "./chromium.ts";
 import { franke, makePoints } from "./helpers.ts";
@@ -30,7 +31,7 @@ const se = gridStandardError(model, grid);
 const render = () =>
   renderReport({
     model,
-    map: mapInputFromModel(model, grid, { interval: 0.5, date: "2026-12-02", unit: "m", title: `Franke test site ${EVIL}` }),
+    map: mapInputFromModel(model, grid, { rule: intervalRule(0.5), date: "2026-12-02", unit: "m", title: `Franke test site ${EVIL}` }),
     stderrGrid: se.grid,
     stderrNote: `computed every ${se.stride} cells`,
     cleaning: {

@@ -1,6 +1,6 @@
 // Clean stage: drop rows without usable numbers and merge coincident points. It works on the typed
 // table a reader returns (numbers only; the reader has said why a cell is not a number).
-import { ExitCode, inputError, RbfieldError } from "../errors.ts";
+import { ExitCode, inputError, opt, RbfieldError } from "../errors.ts";
 import { formatNumber, messageText } from "../text.ts";
 import { COORDINATE_LIMIT, VALUE_LIMIT } from "../numbers.ts";
 import type { CleanPoints, MergedGroup, PointTable, SkippedRow, TypedTable } from "../types.ts";
@@ -39,7 +39,7 @@ export function cleanPoints(table: CleanInput, options: CleanOptions = {}): Clea
     throw new RbfieldError(`maximum spread must be a number >= 0, got ${maxSpread}`, ExitCode.usage);
   }
   if (table.zColumn < 0) {
-    throw inputError("no value column was chosen; name it with --z", { file: table.file, line: 1 });
+    throw inputError(`no value column was chosen; name it with ${opt("z")}`, { file: table.file, line: 1 });
   }
 
   // 1. Keep rows whose x, y and value are numbers within range; the others go to `skipped`.
@@ -249,7 +249,7 @@ function tooFewPoints(table: CleanInput, p: CleanPoints, minPoints: number): Rbf
     message = rows === 0 ? "no data rows" : `no usable points: all ${rows} data ${rows === 1 ? "row was" : "rows were"} skipped`;
     if (p.skipped.length > 0) message += ` (line ${p.skipped[0].line}: ${p.skipped[0].reason})`;
     message += `; check that x, y and value are the columns ${names.join(", ")}` +
-      (table.columnChoice === "detected" ? " or name them with --x --y --z" : "");
+      (table.columnChoice === "detected" ? ` or name them with ${opt("x")} ${opt("y")} ${opt("z")}` : "");
   } else {
     message = `only ${n} usable ${n === 1 ? "point" : "points"} at distinct positions, and at least ${minPoints} are needed`;
     const reasons: string[] = [];

@@ -1,10 +1,10 @@
 // Which columns are x, y and the value: named by the caller (by name or by 1-based position), or
 // found by their header names. A file without a header row is never guessed at.
-import { ExitCode, inputError, RbfieldError } from "../errors.ts";
+import { ExitCode, inputError, opt, RbfieldError } from "../errors.ts";
 import { messageText } from "../text.ts";
 import type { ColumnFound, SourcePlace, TypedTable } from "../types.ts";
 import { looksNumeric } from "./cells.ts";
-import { isIdentifierName, normalizeName, X_NAMES, Y_NAMES, Z_NAMES } from "./names.ts";
+import { isIdentifierName, LAT_NAMES, LON_NAMES, normalizeName, X_NAMES, Y_NAMES, Z_NAMES } from "./names.ts";
 import type { ReadOptions } from "./reader.ts";
 
 export interface ChoiceContext {
@@ -50,7 +50,7 @@ export function chooseColumns(columns: string[], rows: string[][], options: Read
       const p = Number(want);
       if (p >= 1 && p <= columns.length) return { j: p - 1, how: "position" };
       throw new RbfieldError(
-        `--${flag} ${messageText(want, 20)}: there is no column at that position; the ${columns.length} columns, ` +
+        `${opt(flag)} ${messageText(want, 20)}: there is no column at that position; the ${columns.length} columns, ` +
           `numbered from 1, are: ${list}`,
         ExitCode.input,
         place,
@@ -60,7 +60,7 @@ export function chooseColumns(columns: string[], rows: string[][], options: Read
     const j = columns.findIndex((c) => normalizeName(c) === normalizeName(want));
     if (j < 0) {
       throw inputError(
-        `--${flag} column '${messageText(want, 40)}' not found; the columns are: ${list} (names are matched ignoring case)`,
+        `${opt(flag)} column '${messageText(want, 40)}' not found; the columns are: ${list} (names are matched ignoring case)`,
         place,
       );
     }
@@ -76,17 +76,25 @@ export function chooseColumns(columns: string[], rows: string[][], options: Read
   const pick = (flag: Flag, names: string[], allowed: (j: number) => boolean) =>
     options[flag] !== undefined ? named(flag) : { j: byName(names, allowed), how: "detected" as ColumnFound };
 
-  const x = pick("x", X_NAMES, () => true);
-  const y = pick("y", Y_NAMES, (k) => k !== x.j);
+  let x = pick("x", X_NAMES, () => true);
+  let y = pick("y", Y_NAMES, (k) => k !== x.j);
+  // Longitude and latitude columns when no x/y names are given or found (geographic: see job.ts).
+  if (options.x === undefined && options.y === undefined && x.j < 0 && y.j < 0) {
+    const lon = byName(LON_NAMES, () => true), lat = byName(LAT_NAMES, (k) => k !== lon);
+    if (lon >= 0 && lat >= 0) {
+      x = { j: lon, how: "longitude" };
+      y = { j: lat, how: "latitude" };
+    }
+  }
   if (x.j < 0 || y.j < 0) {
     const missing = x.j < 0 && y.j < 0 ? "are the x and y columns" : x.j < 0 ? "is the x column" : "is the y column";
     throw inputError(
-      `cannot tell which ${missing} from the header (columns are: ${list}); name them with --x and --y`,
+      `cannot tell which ${missing} from the header (columns are: ${list}); name them with ${opt("x")} and ${opt("y")}`,
       place,
     );
   }
   if (x.j === y.j) {
-    throw inputError(`x and y are both column '${messageText(columns[x.j], 40)}'; name different columns with --x and --y`, place);
+    throw inputError(`x and y are both column '${messageText(columns[x.j], 40)}'; name different columns with ${opt("x")} and ${opt("y")}`, place);
   }
 
   const free = (k: number) => k !== x.j && k !== y.j;
@@ -94,7 +102,7 @@ export function chooseColumns(columns: string[], rows: string[][], options: Read
   if (options.z !== undefined) {
     z = named("z");
     if (!free(z.j)) {
-      throw inputError(`--z column '${messageText(columns[z.j], 40)}' is also the x or y column; name another column with --z`, place);
+      throw inputError(`${opt("z")} column '${messageText(columns[z.j], 40)}' is also the x or y column; name another column with ${opt("z")}`, place);
     }
   } else {
     const candidates = new Set(ctx.zCandidates);
@@ -108,7 +116,7 @@ export function chooseColumns(columns: string[], rows: string[][], options: Read
     }
     if (z.j < 0 && needValue) {
       throw inputError(
-        `cannot find the value column (columns are: ${list}); name it with --z`,
+        `cannot find the value column (columns are: ${list}); name it with ${opt("z")}`,
         place,
       );
     }
@@ -133,7 +141,7 @@ function refuseUnnamed(options: ReadOptions, needValue: boolean, ctx: ChoiceCont
   if (missing.length === 0) return;
   const words = missing.map((f) => (f === "z" ? "the value" : f));
   const what = words.length === 1 ? `column is ${words[0]}` : `columns are ${words.slice(0, -1).join(", ")} and ${words.at(-1)}`;
-  const example = missing.map((f) => `--${f} ${{ x: 1, y: 2, z: 3 }[f]}`).join(" ");
+  const example = missing.map((f) => `${opt(f)} ${{ x: 1, y: 2, z: 3 }[f]}`).join(" ");
   throw new RbfieldError(
     `the file has no header row (first row: "${messageText(ctx.firstRow ?? "", 80)}"), and rbfield does not guess ` +
       `which ${what}; name the columns by position, e.g. ${example} (the first column is 1)`,

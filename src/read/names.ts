@@ -4,6 +4,9 @@
 // Compared after normalizeName().
 export const X_NAMES = ["x", "easting", "east", "e", "eastings", "mapx"];
 export const Y_NAMES = ["y", "northing", "north", "n", "northings", "mapy"];
+/** Geographic coordinates: x is the longitude, y the latitude (degrees; projected before fitting). */
+export const LON_NAMES = ["lon", "long", "longitude", "lng"];
+export const LAT_NAMES = ["lat", "latitude"];
 export const Z_NAMES = [
   "z", "elevation", "elev", "height", "value", "level", "rl", "reducedlevel",
   "h", "val", "reading", "concentration", "head",

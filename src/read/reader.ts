@@ -21,6 +21,8 @@ export interface ReadOptions {
    * position, "1", "2", …, and x, y and the value must be named (nothing is guessed).
    */
   header?: "auto" | "none";
+  /** Point clouds (LAS/LAZ): keep only these ASPRS classes (e.g. [2], ground). */
+  classes?: number[];
 }
 
 export interface PointReader {

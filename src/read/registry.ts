@@ -5,11 +5,12 @@ import type { TextTable, TypedTable } from "../types.ts";
 import { formatNumber } from "../text.ts";
 import { delimitedReader } from "./delimited.ts";
 import { geojsonReader } from "./geojson.ts";
+import { lasReader } from "./las_reader.ts";
 import { checkReadOptions, type PointReader, type ReadOptions, type TextReader } from "./reader.ts";
 import { whitespaceReader } from "./whitespace.ts";
 
 /** Every reader, binary formats with a signature first; ties go to the earlier one. */
-export const READERS: readonly PointReader[] = [geojsonReader, whitespaceReader, delimitedReader];
+export const READERS: readonly PointReader[] = [lasReader, geojsonReader, whitespaceReader, delimitedReader];
 /** The text readers, for text already decoded. */
 export const TEXT_READERS: readonly TextReader[] = [geojsonReader, whitespaceReader, delimitedReader];
 

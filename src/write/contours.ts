@@ -9,10 +9,14 @@
 //   three valid centres. Masked cell areas are never inside a band.
 import { contours as d3Contours } from "d3-contour";
 import { difference, featureCollection, multiPolygon, polygon, rewind } from "@turf/turf";
-import { ExitCode, opt, RbfieldError } from "../errors.ts";
+import { ExitCode, RbfieldError } from "../errors.ts";
 import { ringArea } from "../geometry.ts";
-import { niceFloor, valueRange } from "../numbers.ts";
+import { valueRange } from "../numbers.ts";
+import { coordinateDecimals } from "../text.ts";
 import type { GridSpec, GridValues } from "../types.ts";
+import { bandLevels, indexTest, type LevelRule, levelsWithin } from "./levels.ts";
+
+export { contourLevels, MAX_LEVELS } from "./levels.ts";
 
 // Minimal GeoJSON types (RFC 7946) for what this module writes.
 export type Position = [number, number];
@@ -41,77 +45,10 @@ export interface FeatureCollection<G, P> {
   type: "FeatureCollection";
   features: Feature<G, P>[];
 }
-export type ContourLineCollection = FeatureCollection<LineString | MultiLineString, { level: number }>;
-export type ContourBandCollection = FeatureCollection<Polygon | MultiPolygon, { lower: number; upper: number }>;
-
-/** Most levels contourLevels will produce. */
-export const MAX_LEVELS = 10_000;
-
-/**
- * Levels base + k·interval that lie within [min, max], ascending. Each level is computed directly
- * from k (no running sum); when base and interval are short decimals the sum is done in scaled
- * integers, so e.g. interval 0.1 gives 0.3 rather than 0.30000000000000004.
- */
-export function contourLevels(min: number, max: number, interval: number, base = 0): number[] {
-  if (!(interval > 0) || !Number.isFinite(interval)) {
-    throw new RbfieldError(`contour interval must be a positive number, got ${interval}`, ExitCode.usage);
-  }
-  if (!Number.isFinite(base)) {
-    throw new RbfieldError(`contour base must be a finite number, got ${base}`, ExitCode.usage);
-  }
-  // No data (e.g. a fully masked grid) gives no levels.
-  if (!Number.isFinite(min) || !Number.isFinite(max) || min > max) return [];
-  const first = Math.ceil((min - base) / interval) - 1;
-  const last = Math.floor((max - base) / interval) + 1;
-  if (last - first - 1 > MAX_LEVELS) {
-    throw new RbfieldError(
-      `contour interval ${interval} gives about ${Math.round((max - min) / interval)} levels between ${min} and ${max}` +
-        ` (at most ${MAX_LEVELS}); pick a larger interval`,
-      ExitCode.usage,
-    );
-  }
-  const level = levelFunction(base, interval);
-  const levels: number[] = [];
-  for (let k = first; k <= last; k++) {
-    const v = level(k);
-    if (v >= min && v <= max) levels.push(v);
-  }
-  return levels;
-}
-
-/** k ↦ base + k·interval, in scaled integers when both are short decimals. */
-function levelFunction(base: number, interval: number): (k: number) => number {
-  const digits = Math.max(decimalDigits(base), decimalDigits(interval));
-  if (digits <= 15) {
-    const scale = 10 ** digits;
-    const b = Math.round(base * scale);
-    const i = Math.round(interval * scale);
-    if (Math.abs(b) < 2 ** 52 && i < 2 ** 52 && b / scale === base && i / scale === interval) {
-      return (k) => {
-        const n = b + k * i;
-        return Math.abs(n) < 2 ** 53 ? n / scale : base + k * interval;
-      };
-    }
-  }
-  return (k) => base + k * interval;
-}
-
-/** Digits after the decimal point in the shortest text form of x (e.g. 0.25 → 2, 1e-7 → 7). */
-function decimalDigits(x: number): number {
-  const text = String(Math.abs(x));
-  const [mantissa, exponent] = text.split("e");
-  const dot = mantissa.indexOf(".");
-  const fraction = dot < 0 ? 0 : mantissa.length - dot - 1;
-  return Math.max(0, fraction - (exponent ? Number(exponent) : 0));
-}
-
-/**
- * Decimals kept in output coordinates: the rounding step is the largest power of ten not above
- * cell/1e6, so rounding moves a point by less than cell·1e-6.
- */
-export function coordinateDecimals(cell: number): number {
-  return Math.min(15, Math.max(0, 6 - Math.floor(Math.log10(cell))));
-}
+/** Contour lines: one feature per level; `index` marks index contours (see indexTest in levels.ts). */
+export type ContourLineCollection = FeatureCollection<LineString | MultiLineString, { level: number; index: boolean }>;
+/** Filled bands; a bound is null on the open side of a band below or above every listed level. */
+export type ContourBandCollection = FeatureCollection<Polygon | MultiPolygon, { lower: number | null; upper: number | null }>;
 
 function makeRounder(cell: number): (v: number) => number {
   // Cells below 1e-9 would need more than 15 decimals (rounding would merge every point): keep
@@ -124,24 +61,31 @@ function makeRounder(cell: number): (v: number) => number {
   };
 }
 
+/** Progress of a loop: a message and the fraction done (src/cli.ts draws it). */
+export type ProgressReport = (message: string, fraction?: number) => void;
+
 /**
- * Contour lines by marching squares on the cell-centre lattice: one feature per level that has
- * lines, in the order of `levels`. Points at or above a level count as above it; lines run with
- * the higher side on their left, so rings around a high are counter-clockwise. Saddle squares are
- * resolved by the mean of their four corners.
+ * Contour lines by marching squares on the cell-centre lattice: one MultiLineString feature per
+ * level that has lines (one geometry type for the whole collection, as GIS layers want), in the
+ * order of `levels`, with properties `level` and `index` (from `index`, default none). Points at or
+ * above a level count as above it; lines run with the higher side on their left, so rings around a
+ * high are counter-clockwise. Saddle squares are resolved by the mean of their four corners.
  */
-export function contourLines(grid: GridValues, levels: number[]): ContourLineCollection {
+export function contourLines(
+  grid: GridValues,
+  levels: number[],
+  options: { index?: (level: number) => boolean; progress?: ProgressReport } = {},
+): ContourLineCollection {
   grid = finiteOnly(grid);
-  const features: Feature<LineString | MultiLineString, { level: number }>[] = [];
-  for (const level of levels) {
-    if (!Number.isFinite(level)) continue;
+  const isIndex = options.index ?? (() => false);
+  const features: Feature<MultiLineString, { level: number; index: boolean }>[] = [];
+  levels.forEach((level, k) => {
+    options.progress?.(`contour lines at ${levels.length} levels`, k / levels.length);
+    if (!Number.isFinite(level)) return;
     const pieces = traceLevel(grid, level);
-    if (pieces.length === 0) continue;
-    const geometry: LineString | MultiLineString = pieces.length === 1
-      ? { type: "LineString", coordinates: pieces[0] }
-      : { type: "MultiLineString", coordinates: pieces };
-    features.push({ type: "Feature", geometry, properties: { level } });
-  }
+    if (pieces.length === 0) return;
+    features.push({ type: "Feature", geometry: { type: "MultiLineString", coordinates: pieces }, properties: { level, index: isIndex(level) } });
+  });
   return { type: "FeatureCollection", features };
 }
 
@@ -261,10 +205,10 @@ function crossing(spec: GridSpec, v: Float64Array, edge: number, level: number):
  * d3-contour gives the region value ≥ level (values at pixel centres, masked cells as −∞); the
  * region of the upper level is subtracted with turf's difference.
  */
-export function contourBands(grid: GridValues, levels: number[]): ContourBandCollection {
+export function contourBands(grid: GridValues, levels: number[], options: { progress?: ProgressReport } = {}): ContourBandCollection {
   const { spec, values } = finiteOnly(grid);
   const sorted = [...new Set(levels.filter(Number.isFinite))].sort((a, b) => a - b);
-  const features: Feature<Polygon | MultiPolygon, { lower: number; upper: number }>[] = [];
+  const features: Feature<Polygon | MultiPolygon, { lower: number | null; upper: number | null }>[] = [];
   if (sorted.length < 2 || spec.cols < 2 || spec.rows < 2) return { type: "FeatureCollection", features };
 
   // Pad the grid with one ring of masked cells: d3 then closes every region at the outermost
@@ -293,6 +237,7 @@ export function contourBands(grid: GridValues, levels: number[]): ContourBandCol
   const round = makeRounder(spec.cell);
   let upperRegion = region(sorted[0]);
   for (let k = 0; k + 1 < sorted.length; k++) {
+    options.progress?.(`filled bands between ${sorted.length} levels`, k / (sorted.length - 1));
     const lower = sorted[k], upper = sorted[k + 1];
     const lowerRegion = upperRegion;
     upperRegion = region(upper);
@@ -366,19 +311,45 @@ function cleanPolygons(polygons: Position[][][], round: (v: number) => number): 
   return out;
 }
 
-/** A sensible contour interval: a nice number giving about ten levels over the range. */
-export function defaultInterval(grid: GridValues): number {
-  const { lo, hi } = valueRange(grid.values);
-  return hi > lo ? niceFloor((hi - lo) / 10) : 1;
+/** What to write: filled bands instead of lines, and lines with the level as a third coordinate. */
+export interface ContourFileOptions {
+  bands?: boolean;
+  /** Lines as 3-D positions [x, y, level] (RFC 7946 §3.1.1 allows an altitude as third element). */
+  threeD?: boolean;
+  progress?: ProgressReport;
 }
 
-/** Contour a grid into a GeoJSON text. */
-export function contourGeoJson(grid: GridValues, interval: number, base = 0, bands = false): { text: string; levels: number[]; features: number } {
-  if (!(interval > 0) || !Number.isFinite(interval)) throw new RbfieldError(`${opt("interval")} must be a positive number, not ${interval}`, ExitCode.usage);
+/**
+ * Contour a grid into a GeoJSON text by a level rule. Lines carry `level` and `index`; bands carry
+ * `lower` and `upper` and cover the whole surface (a list's bands below its first and above its last
+ * level have a null bound on the open side). `levels` are the rule's levels within the grid's values.
+ */
+export function contourGeoJson(grid: GridValues, rule: LevelRule, options: ContourFileOptions = {}): { text: string; levels: number[]; features: number } {
   const { lo, hi } = valueRange(grid.values);
   if (!(hi >= lo)) throw new RbfieldError("the grid has no unmasked cells to contour", ExitCode.input);
-  const levels = contourLevels(lo, hi, interval, base);
-  const fc = bands ? contourBands(grid, contourLevels(lo - interval, hi + interval, interval, base)) : contourLines(grid, levels);
+  const levels = levelsWithin(rule, lo, hi);
+  let fc: ContourLineCollection | ContourBandCollection;
+  if (options.bands) {
+    const b = bandLevels(rule, lo, hi);
+    // Open bands: below the first level the region is every cell (value ≥ lo); above the last, a
+    // level past the maximum bounds an empty region. Their open bound is written as null.
+    const below = lo, above = hi + Math.max(Math.abs(hi), 1) * 1e-6;
+    const bands = contourBands(grid, [...(b.openBelow ? [below] : []), ...b.levels, ...(b.openAbove ? [above] : [])], options);
+    for (const f of bands.features) {
+      if (b.openBelow && f.properties.lower === below) f.properties.lower = null;
+      if (b.openAbove && f.properties.upper === above) f.properties.upper = null;
+    }
+    fc = bands;
+  } else {
+    const lines = contourLines(grid, levels, { index: indexTest(rule), progress: options.progress });
+    if (options.threeD) {
+      for (const f of lines.features) {
+        const z = f.properties.level;
+        (f.geometry as { coordinates: unknown }).coordinates = (f.geometry as MultiLineString).coordinates.map((line) => line.map(([x, y]) => [x, y, z]));
+      }
+    }
+    fc = lines;
+  }
   // RFC 7946 dropped the "crs" member and assumes WGS 84; rbfield keeps the points' CRS (see README),
   // so it names that CRS the way GDAL and most GIS still read it (the 2008 GeoJSON "crs" member).
   const out = grid.crs.epsg === undefined ? fc : { type: fc.type, crs: { type: "name", properties: { name: `urn:ogc:def:crs:EPSG::${grid.crs.epsg}` } }, features: fc.features };

@@ -1,8 +1,10 @@
 // GeoTIFF output: one Float32 band, pixel-is-area, georeferenced by tie point and pixel scale
 // (OGC GeoTIFF 1.1). Masked cells (NaN) are written as the nodata value and tagged GDAL_NODATA.
+import { projLinearUnitsGeoKey } from "../crs/crs.ts";
 import { writeArrayBuffer } from "geotiff";
 import type { GeotiffWriterMetadata } from "geotiff";
 import { ExitCode, opt, RbfieldError } from "../errors.ts";
+import { fmt } from "../text.ts";
 import type { GridValues } from "../types.ts";
 
 /** Nodata value written for masked cells unless another is asked for. */
@@ -18,9 +20,10 @@ const FLOAT32_MAX = 3.4028234663852886e38;
 /** Classic TIFF addresses its bytes with 32-bit offsets (TIFF 6.0, §2); keep room for the header. */
 const MAX_TIFF_DATA_BYTES = 2 ** 32 - 2 ** 20;
 
-/** True for the EPSG codes rbfield writes as geographic 2-D CRSs. */
-export function isGeographicEpsg(epsg: number): boolean {
-  return epsg >= 4000 && epsg <= 4999;
+/** Is the CRS geographic? From its kind when known (models since the CRS module), else the EPSG range 4000–4999. */
+export function isGeographic(crs: { epsg?: number; kind?: string }): boolean {
+  if (crs.kind !== undefined) return crs.kind === "geographic";
+  return crs.epsg !== undefined && crs.epsg >= 4000 && crs.epsg <= 4999;
 }
 
 /**
@@ -68,7 +71,7 @@ export function encodeGeoTiff(grid: GridValues, options: { nodata?: number } = {
       // Float32 would turn these into ±Infinity (or keep them infinite): never write them.
       if (!(Math.abs(v) <= FLOAT32_MAX)) {
         throw new RbfieldError(
-          `the surface reaches ${v} at cell ${i % spec.cols + 1}, ${Math.floor(i / spec.cols) + 1} (column, row), ` +
+          `the surface reaches ${fmt(v)} at cell ${i % spec.cols + 1}, ${Math.floor(i / spec.cols) + 1} (column, row), ` +
             "beyond what a Float32 GeoTIFF holds (±3.4e38); rescale the values (e.g. other units) or use more smoothing",
           ExitCode.numerical,
         );
@@ -77,7 +80,7 @@ export function encodeGeoTiff(grid: GridValues, options: { nodata?: number } = {
       // A real value equal to nodata would read back as masked.
       if (data[i] === nodata32) {
         throw new RbfieldError(
-          `grid value ${v} equals the nodata value ${nodata} when stored as a 32-bit float; pick another nodata value`,
+          `grid value ${fmt(v, 8)} equals the nodata value ${nodata} when stored as a 32-bit float; pick another nodata value`,
           ExitCode.usage,
         );
       }
@@ -100,7 +103,13 @@ export function encodeGeoTiff(grid: GridValues, options: { nodata?: number } = {
     metadata.GTModelTypeGeoKey = MODEL_PROJECTED;
     metadata.ProjectedCSTypeGeoKey = USER_DEFINED;
     metadata.GTCitationGeoKey = asciiCitation(crs.label || "local site grid");
-  } else if (isGeographicEpsg(crs.epsg)) {
+    // A stated unit (local:m, local:ft, local:usft) goes in ProjLinearUnitsGeoKey (OGC GeoTIFF 1.1,
+    // §7.1.4), with a user-defined model type: GDAL reads the unit of a local grid only then.
+    if (crs.unit && crs.unit !== "degree") {
+      metadata.GTModelTypeGeoKey = USER_DEFINED;
+      (metadata as Record<string, unknown>).ProjLinearUnitsGeoKey = projLinearUnitsGeoKey(crs.unit);
+    }
+  } else if (isGeographic(crs)) {
     metadata.GTModelTypeGeoKey = MODEL_GEOGRAPHIC;
     metadata.GeographicTypeGeoKey = crs.epsg;
   } else {

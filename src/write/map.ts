@@ -8,7 +8,9 @@
 // image), fontkit + DejaVu Sans (text measurement), flatbush (collision index).
 import { CAUTION } from "../caution.ts";
 import { ExitCode, RbfieldError } from "../errors.ts";
-import { decimalsOf, finiteRange, formatFixed, formatSignificant } from "./map/format.ts";
+import { formatFixed, formatSignificant } from "../text.ts";
+import { describeLevels, indexTest, levelText } from "./levels.ts";
+import { finiteRange } from "./map/format.ts";
 import {
   colourRamp,
   coordinateTicks,
@@ -32,7 +34,7 @@ import type { MapInput, MapOptions } from "./map/types.ts";
 
 export type { Orientation, PaperName } from "./map/paper.ts";
 export type { MapInput, MapOptions, MapPoint } from "./map/types.ts";
-export { contoured, mapInputFromGrid, mapInputFromModel, type ModelMapOptions } from "./map/inputs.ts";
+export { contoured, mapInputFromGrid, mapInputFromModel, mapUnitOf, type ModelMapOptions } from "./map/inputs.ts";
 export { methodSummary, trendOf } from "./map/method.ts";
 export { finiteRange } from "./map/format.ts";
 
@@ -42,12 +44,6 @@ const PAPER_UNIT: Record<PaperName, number> = { A4: 1, letter: 1, A3: 1.2, tablo
 /** Relief image resolution on paper (dots per inch) and its largest size in pixels. */
 const RELIEF_DPI = 200;
 const RELIEF_MAX_PIXELS = 8e6;
-
-/** Every fifth contour is an index contour: levels that are multiples of five intervals. */
-export function isIndexLevel(level: number, interval: number): boolean {
-  const q = level / (5 * interval);
-  return Math.abs(q - Math.round(q)) < 1e-6;
-}
 
 /** A block of the information panel: its height for a width, and its drawing. */
 interface Block {
@@ -74,15 +70,16 @@ export function renderMap(input: MapInput, options: MapOptions): string {
   const valueTitle = `${input.valueName ?? "Value"}${input.unit ? ` (${input.unit})` : ""}`;
   const residualColour = options.pointColour === "residual" && (input.points ?? []).some((q) => typeof q.residual === "number");
   const residualRange = residualColour ? residualDomain(input.points!) : 0;
-  const indexed = input.levels.some((l) => isIndexLevel(l, input.interval));
+  // Index contours (heavier, labelled) by the one definition the GeoJSON writer also uses.
+  const isIndex = indexTest(input.rule);
+  const indexed = input.levels.some(isIndex);
+  const levelLabel = levelText(input.rule);
 
   // ---- Information panel blocks (sizes do not depend on the print scale) ----
   const pad = 2.5 * u;
   const titleSize = 4.2 * u;
-  const unitText = input.unit ? ` ${input.unit}` : "";
-  const ld = decimalsOf(input.interval);
-  const contourText = `every ${formatFixed(input.interval, ld)}${unitText}` +
-    (indexed ? `; index contours every ${formatFixed(5 * input.interval, ld)}${unitText}, labelled` : "; all labelled");
+  const said = describeLevels(input.rule, input.unit);
+  const contourText = said.levels + (indexed && said.index ? `; index contours ${said.index}, labelled` : "; all labelled");
   const infoRows: [string, string][] = [
     ["Data", input.dataFile],
     ["Date", input.date],
@@ -164,7 +161,7 @@ export function renderMap(input: MapInput, options: MapOptions): string {
       const printScale = laid.printScale;
       const arrow = northArrow(x + w - 3 * u, y, u, p);
       const scaleText = printScale === null
-        ? `No print scale (map units: ${mapUnit.name})`
+        ? `No print scale: ${mapUnit.name === "map units" ? "the CRS does not state its unit" : `coordinates in ${mapUnit.name}`}`
         : `Scale 1:${formatFixed(printScale, 0)} on ${paperLabel(options.paper)} ${options.orientation}`;
       const bar = scaleBar(x + 1 * u, y + 4.5 * u, Math.min(w - 12 * u, 60 * u), f.k, mapUnit.name, u, p);
       return text(x, y + 2.4 * u, scaleText, { size: 2.3 * u, bold: true, id: `${p}print-scale` }) + bar.svg + arrow.svg;
@@ -220,6 +217,13 @@ export function renderMap(input: MapInput, options: MapOptions): string {
       );
     }
   } else {
+    if (options.scale !== undefined) {
+      throw new RbfieldError(
+        `a print scale (1:${formatSignificant(options.scale, 10, "-")}) needs the unit of the coordinates, which the CRS (${input.crs}) does not state; ` +
+          "fit with a CRS that has one (an EPSG code, or local:m, local:ft, local:usft), or leave out the scale to fit the map to the sheet",
+        ExitCode.usage,
+      );
+    }
     k = Math.min(fw / gw, fh / gh);
   }
   // The frame fills the space for the map (a tidy sheet); the mapped area sits at its centre.
@@ -244,15 +248,15 @@ export function renderMap(input: MapInput, options: MapOptions): string {
 
   // Contours in paper coordinates, thinned to points at least 0.08 mm apart.
   const contourInputs: ContourInput[] = [];
-  const labelAll = !input.contours.features.some((c) => isIndexLevel(c.properties.level, input.interval));
+  const labelAll = !input.contours.features.some((c) => isIndex(c.properties.level));
   for (const feature of input.contours.features) {
     const level = feature.properties.level;
     const lines = feature.geometry.type === "LineString" ? [feature.geometry.coordinates] : feature.geometry.coordinates;
     contourInputs.push({
       level,
-      text: formatFixed(level, ld),
+      text: levelLabel(level),
       pieces: lines.map((line) => thin(line.map(([x, y]) => P(x, y)), 0.08)),
-      labelled: labelAll || isIndexLevel(level, input.interval),
+      labelled: labelAll || isIndex(level),
     });
   }
   const points = input.points ?? [];
@@ -272,7 +276,7 @@ export function renderMap(input: MapInput, options: MapOptions): string {
   contourInputs.forEach((c, i) => {
     const d = placed.lines[i].filter((l) => l.length >= 2).map((l) => pathData(l)).join("");
     if (!d) return;
-    const isMajor = isIndexLevel(c.level, input.interval);
+    const isMajor = isIndex(c.level);
     (isMajor ? major : minor).push(el("path", { d, "data-level": c.text.replace("\u2212", "-") }));
   });
   body += `<g id="${p}contours" fill="none" stroke="${INK}" stroke-width="${n(0.13 * u, 3)}" stroke-opacity="0.85" stroke-linejoin="round" stroke-linecap="round">${minor.join("")}</g>`;
@@ -289,7 +293,7 @@ export function renderMap(input: MapInput, options: MapOptions): string {
       return el("text", { x: 0, y: 0.3645 * labelSize, transform: t, "data-level": l.text.replace("\u2212", "-") }, escapeXml(l.text));
     }).join("") + `</g>`;
   if (options.labelPoints && points.length) {
-    body += pointLabels(points, P, pointR, placed.labels.map((l) => l.box), f, u, p, ld);
+    body += pointLabels(points, P, pointR, placed.labels.map((l) => l.box), f, u, p, input.rule);
   }
 
   // ---- Assemble ----

@@ -8,7 +8,9 @@ import type { SurfaceModel } from "../model/model.ts";
 import type { GridValues, MergedGroup, SkippedRow } from "../types.ts";
 import { contoured, finiteRange, type MapInput, type MapOptions, renderMap } from "./map.ts";
 import { gcvChart, histogramChart, scatterChart } from "./map/charts.ts";
-import { formatFixed, formatSignificant, roundStepBelow } from "./map/format.ts";
+import { crsText, formatFixed, formatSignificant, formatUncertainty, MINUS, perUnitText } from "../text.ts";
+import { intervalRule } from "./levels.ts";
+import { roundStepBelow } from "./map/format.ts";
 import { candidateTrendOf, looOf, methodSummary, residualUnit, stretchText, trendOf } from "./map/method.ts";
 import { escapeXml } from "./map/svg.ts";
 import { FONT_STACK } from "./map/text.ts";
@@ -101,7 +103,7 @@ export function renderReport(input: ReportInput): string {
     const interval = hi > lo ? roundStepBelow((hi - lo) / 2) : 1;
     const seMap: MapInput = {
       ...input.map,
-      ...contoured(input.stderrGrid, interval),
+      ...contoured(input.stderrGrid, intervalRule(interval)),
       reliefGrid: undefined,
       title: `Standard error of the estimate: ${input.map.title}`,
       valueName: "Standard error",
@@ -112,7 +114,7 @@ export function renderReport(input: ReportInput): string {
     sections.push({
       id: "standard-error",
       title: "Standard error of the estimate",
-      html: `<p class="note">How far the surface may be from the true one under the model, from ${esc(sig(lo, 3))} to ${esc(sig(hi, 3))}${esc(unit ? ` ${unit}` : "")}. ` +
+      html: `<p class="note">How far the surface may be from the true one under the model, from ${esc(formatUncertainty(lo, MINUS))} to ${esc(formatUncertainty(hi, MINUS))}${esc(unit ? ` ${unit}` : "")}. ` +
         `It grows away from the readings. A model-based figure, not a survey tolerance: a new reading would scatter by a further σ = ${esc(withUnit(d.sigma))}.</p>` +
         (hi >= lo ? inlineSheet(renderMap(seMap, { ...sheet, shade: false, pointColour: "plain", idPrefix: "se-" })) : "<p>No unmasked cells.</p>"),
     });
@@ -123,7 +125,7 @@ export function renderReport(input: ReportInput): string {
   const smoothing = d.smoothingChoice === "gcv" ? "chosen by GCV" : d.smoothingChoice === "given" ? "given" : "given, raised for numerical stability";
   const modelRows: [string, string][] = [
     ["Kernel", kernelText],
-    ["Shape ε", model.shape === null ? "none (scale-free kernel)" : `${sig(model.shape)} per map unit (${d.shapeChoice === "auto" ? "chosen by GCV" : "given"})`],
+    ["Shape ε", model.shape === null ? "none (scale-free kernel)" : `${sig(model.shape)} ${perUnitText(model.crs)} (${d.shapeChoice === "auto" ? "chosen by GCV" : "given"})`],
     ["Trend", trendOf(model)],
     ["Smoothing λ", `${sig(model.lambda)} (${smoothing}${d.heldAtFloor ? "; held at the numerical floor" : ""})`],
     ["Effective degrees of freedom", `${sig(d.edf)} of ${d.n}`],
@@ -137,7 +139,7 @@ export function renderReport(input: ReportInput): string {
     ["Weights", model.points.weight ? "observation weights (normalised to mean 1)" : "none"],
     ["Stretch (anisotropy)", stretchText(model)],
     ["Robust fit", d.robust ? `Tukey's biweight, ${d.robust.passes} passes${d.robust.downweighted.length ? `; down-weighted: lines ${lineList(d.robust.downweighted)}` : ""}` : "no"],
-    ["Input", `${model.source.file} (x = ${model.source.x}, y = ${model.source.y}, value = ${model.source.z}); ${model.crs.label}`],
+    ["Input", `${model.source.file} (x = ${model.source.x}, y = ${model.source.y}, value = ${model.source.z}); ${crsText(model.crs)}`],
   ];
   const cleaning = input.cleaning;
   if (cleaning) {
@@ -169,7 +171,7 @@ export function renderReport(input: ReportInput): string {
           esc(sig(c.edf)),
           esc(sig(c.gcv)),
           esc(sig(c.loocvRmse)),
-          esc(sig(c.loocvSe, 2)),
+          esc(typeof c.loocvSe === "number" ? formatUncertainty(c.loocvSe, MINUS) : "—"),
           esc(c.excluded ? `not eligible: ${c.excluded}` : c.heldAtFloor ? "λ at the numerical floor" : ""),
         ]),
         [false, false, false, true, true, true, true, true, true, false],
@@ -262,7 +264,7 @@ export function renderReport(input: ReportInput): string {
     `</head>`,
     `<body>`,
     `<header id="top"><h1>${esc(input.title)}</h1>`,
-    `<p class="meta">Data: ${esc(model.source.file)} · ${esc(model.crs.label)} · ${esc(input.date)}</p>`,
+    `<p class="meta">Data: ${esc(model.source.file)} · ${esc(crsText(model.crs))} · ${esc(input.date)}</p>`,
     `<p class="caution" id="caution-top">${esc(CAUTION)}</p>`,
     `<nav><ol>${sections.map((s) => `<li><a href="#${s.id}">${esc(s.title)}</a></li>`).join("")}</ol></nav></header>`,
     `<main>`,

@@ -1,6 +1,6 @@
 // The per-point residual table of a fit (RFC 4180 CSV, CRLF record ends).
 import type { SurfaceModel } from "../model/model.ts";
-import { fmt } from "./summary.ts";
+import { formatResidualCell } from "../text.ts";
 
 /**
  * Per-point residual table (CSV): input line, position, value, fitted value, residual, leave-one-out
@@ -27,12 +27,12 @@ export function residualsCsv(model: SurfaceModel): string {
         p.x[i],
         p.y[i],
         p.z[i],
-        fmt(model.fitted[i], 10),
-        fmt(v - model.fitted[i], 6),
-        model.loo[i] === null ? "" : fmt(model.loo[i], 6),
-        model.loo[i] === null || zst === null ? "" : fmt(zst, 4),
+        formatResidualCell(model.fitted[i], 10),
+        formatResidualCell(v - model.fitted[i], 6),
+        model.loo[i] === null ? "" : formatResidualCell(model.loo[i], 6),
+        model.loo[i] === null || zst === null ? "" : formatResidualCell(zst, 4),
         flagged.has(p.line[i]) ? "possible blunder" : "",
-        ...(rw ? [fmt(rw[i], 4)] : []),
+        ...(rw ? [formatResidualCell(rw[i], 4)] : []),
       ].join(","),
     );
   }

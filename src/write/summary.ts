@@ -5,17 +5,38 @@ import { printable } from "../errors.ts";
 import type { SurfaceModel } from "../model/model.ts";
 import { MIN_SELECTION_POINTS } from "../fit/select.ts";
 import { KERNEL_TABLE } from "../fit/kernels.ts";
+import { coordinateText, crsText, fmt, formatUncertainty, lengthText, perUnitText } from "../text.ts";
+import type { Crs, GridSpec } from "../types.ts";
+import { describeLevels, type LevelRule } from "./levels.ts";
 
+export { fmt };
 
 /** Replace control characters (terminal escapes, newlines) in text that came from an input. */
 export const printableText = printable;
 
-export function fmt(v: number, digits = 4): string {
-  if (!Number.isFinite(v)) return String(v);
-  if (v === 0) return "0";
-  const a = Math.abs(v);
-  if (a >= 1e6 || a < 1e-3) return v.toExponential(digits - 1);
-  return String(Number(v.toPrecision(digits)));
+/**
+ * "400 × 300 cells of 1 m, extent 512300, 5402100 to 512700, 5402400 (outer cell edges)": the
+ * grid in words, edges rounded to a millionth of the cell, lengths in the CRS's unit.
+ */
+export function gridText(spec: GridSpec, crs: Crs): string {
+  const c = (v: number) => coordinateText(v, spec.cell);
+  return `${spec.cols} × ${spec.rows} cells of ${lengthText(spec.cell, crs)}, extent ${c(spec.xmin)}, ${c(spec.ymin)} to ${c(spec.xmax)}, ${c(spec.ymax)} (outer cell edges)`;
+}
+
+/**
+ * How the contours were drawn, for summaries: "interval 0.5, 19 levels; index contours every 2.5",
+ * "log-spaced at 1, 2 and 5 × 10ᵏ, 16 levels; …", "at 1, 10 and 100 as listed, 2 within the
+ * surface's range; each an index contour".
+ */
+export function contourText(rule: LevelRule, levels: number): string {
+  const said = describeLevels(rule, "", "-");
+  const count = `${levels} ${levels === 1 ? "level" : "levels"}`;
+  const how = rule.kind === "interval"
+    ? `interval ${said.at.replace(/^every /, "")}, ${count}`
+    : rule.kind === "log"
+    ? `log-spaced ${said.at}, ${count}`
+    : `${said.at} as listed, ${levels} within the surface's range`;
+  return `${how}; ${said.index === null ? "each an index contour" : `index contours ${said.index}`}`;
 }
 
 
@@ -25,7 +46,7 @@ export function modelSummaryLines(model: SurfaceModel): string[] {
   const lines: string[] = [];
   const src = model.source;
   lines.push(
-    `Input: ${printableText(src.file)} (x = ${printableText(src.x)}, y = ${printableText(src.y)}, value = ${printableText(src.z)}); CRS ${printableText(model.crs.label)}`,
+    `Input: ${printableText(src.file)} (x = ${printableText(src.x)}, y = ${printableText(src.y)}, value = ${printableText(src.z)}); CRS ${crsText(model.crs)}`,
   );
   const sel = d.selection;
   if (sel) {
@@ -37,7 +58,7 @@ export function modelSummaryLines(model: SurfaceModel): string[] {
     lines.push("  kernel                trend      shape ε     λ           edf      GCV         LOO RMSE ± SE         note");
     for (const c of sel.ranking) {
       const note = c.excluded ? `not eligible: ${c.excluded}` : c.heldAtFloor ? "λ held at the numerical floor" : "";
-      const loo = `${fmt(c.loocvRmse)}${c.loocvSe === undefined ? "" : ` ± ${fmt(c.loocvSe, 2)}`}`;
+      const loo = `${fmt(c.loocvRmse)}${c.loocvSe === undefined ? "" : ` ± ${formatUncertainty(c.loocvSe)}`}`;
       lines.push(
         `${c.chosen ? "* " : "  "}${c.kernel.padEnd(22)}${c.trend.padEnd(11)}${(c.shape === null ? "—" : fmt(c.shape)).padEnd(12)}` +
           `${fmt(c.lambda).padEnd(12)}${fmt(c.edf).padEnd(9)}${fmt(c.gcv).padEnd(12)}${loo.padEnd(22)}${note}`.trimEnd(),
@@ -64,7 +85,7 @@ export function modelSummaryLines(model: SurfaceModel): string[] {
   if (model.stretch) {
     lines.push(`  stretched ${fmt(model.stretch.factor)}× along ${fmt(model.stretch.azimuth)}° (the surface varies that many times more slowly along that azimuth than across it)`);
   }
-  const shape = model.shape === null ? "none (scale-free kernel)" : `ε = ${fmt(model.shape)} per map unit (${d.shapeChoice === "auto" ? "chosen by GCV" : "given"})`;
+  const shape = model.shape === null ? "none (scale-free kernel)" : `ε = ${fmt(model.shape)} ${perUnitText(model.crs)} (${d.shapeChoice === "auto" ? "chosen by GCV" : "given"})`;
   lines.push(`  shape: ${shape}`);
   const how = d.smoothingChoice === "gcv" ? "chosen by GCV" : d.smoothingChoice === "given" ? "given" : "given, raised for stability";
   lines.push(`  smoothing λ = ${fmt(model.lambda)} (${how}); effective degrees of freedom ${fmt(d.edf)} of ${d.n}`);

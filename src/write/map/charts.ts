@@ -2,7 +2,7 @@
 // round tick values come from d3-scale; axes and marks are drawn here. Every text goes through
 // escapeXml. Sizes are CSS pixels in a viewBox, so charts scale with the page.
 import { scaleLinear, scaleLog } from "d3-scale";
-import { decimalsOf, formatFixed, formatSignificant } from "./format.ts";
+import { decimalsOf, formatFixed, formatSignificant } from "../../text.ts";
 import { INK, MUTED } from "./furniture.ts";
 import { paletteHex } from "./palette.ts";
 import { el, escapeXml, n } from "./svg.ts";

@@ -1,33 +1,5 @@
-// Numbers as printed on maps and in reports: a fixed number of decimals (no 5712401.300000001), a
-// true minus sign (U+2212) in text, and round steps (1, 2, 5 × 10^k) for scale bars and ticks.
-import { formatNumber } from "../../text.ts";
-
-/** The minus sign for printed numbers (U+2212): as wide as a digit's neighbours expect, unlike "-". */
-export const MINUS = "\u2212";
-
-/** Decimals needed to print every multiple of `step` exactly (0.5 → 1, 0.25 → 2, 10 → 0; at most 12). */
-export function decimalsOf(step: number): number {
-  if (!Number.isFinite(step) || step === 0) return 0;
-  // Shortest round-trip text of the step, so 0.1 counts as one decimal, not 0.1000000000000000055….
-  const [mantissa, exponent] = String(Math.abs(step)).split("e");
-  const dot = mantissa.indexOf(".");
-  const fraction = dot < 0 ? 0 : mantissa.length - dot - 1;
-  return Math.min(12, Math.max(0, fraction - (exponent ? Number(exponent) : 0)));
-}
-
-/** v with exactly `decimals` decimals; −0 prints as 0; negative numbers use `minus`. */
-export function formatFixed(v: number, decimals: number, minus = MINUS): string {
-  if (!Number.isFinite(v)) return "";
-  const text = Math.abs(v).toFixed(Math.min(20, Math.max(0, decimals)));
-  const zero = /^[0.]*$/.test(text);
-  return v < 0 && !zero ? minus + text : text;
-}
-
-/** v to `digits` significant digits, shortest form (λ, RMSE, GCV …); typographic minus. */
-export function formatSignificant(v: number, digits = 4): string {
-  const text = formatNumber(v, digits);
-  return text.startsWith("-") ? MINUS + text.slice(1) : text;
-}
+// Round steps for scale bars, ticks and legends (1, 2, 5 × 10^k), and the range of a grid's values.
+// Number text itself (fixed decimals, significant digits, the minus sign) lives in src/text.ts.
 
 /** The largest 1, 2 or 5 × 10^k not above v (v > 0). */
 export function roundStepBelow(v: number): number {

@@ -1,7 +1,8 @@
 // Map furniture, hand-written: coordinate ticks, scale bar, north arrow, legend, title block, caution.
 // Every function returns SVG text in paper millimetres; text from inputs goes through `text()`,
 // which escapes it.
-import { decimalsOf, formatFixed, roundStepBelow } from "./format.ts";
+import { decimalsOf, formatFixed } from "../../text.ts";
+import { roundStepBelow } from "./format.ts";
 import { hex, paletteRgb, type PaletteName } from "./palette.ts";
 import { el, escapeXml, n } from "./svg.ts";
 import { wrapText } from "./text.ts";

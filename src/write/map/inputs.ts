@@ -1,22 +1,29 @@
 // Building a map's input from what the pipeline has: a fitted model and its grid, or a grid alone.
 import type { SurfaceModel } from "../../model/model.ts";
-import type { GridValues } from "../../types.ts";
-import { contourLevels, contourLines } from "../contours.ts";
+import { crsText, metresPerMapUnit, unitText } from "../../text.ts";
+import type { Crs, GridValues } from "../../types.ts";
+import { contourLines } from "../contours.ts";
+import { indexTest, type LevelRule, levelsWithin } from "../levels.ts";
 import { finiteRange } from "./format.ts";
 import { looOf, methodSummary } from "./method.ts";
 import type { MapInput } from "./types.ts";
 
-/** A grid with its contour levels (base + k·interval within its values) and contour lines. */
-export function contoured(grid: GridValues, interval: number, base = 0): Pick<MapInput, "grid" | "contours" | "levels" | "interval"> {
+/** A grid with the rule's contour levels within its values and their contour lines. */
+export function contoured(grid: GridValues, rule: LevelRule): Pick<MapInput, "grid" | "contours" | "levels" | "rule"> {
   const [lo, hi] = finiteRange(grid.values);
-  const levels = contourLevels(lo, hi, interval, base);
-  return { grid, contours: contourLines(grid, levels), levels, interval };
+  const levels = levelsWithin(rule, lo, hi);
+  return { grid, contours: contourLines(grid, levels, { index: indexTest(rule) }), levels, rule };
+}
+
+/** The map's coordinate unit from the CRS: its label and size, or "map units" and no print scale. */
+export function mapUnitOf(crs: Crs): NonNullable<MapInput["mapUnit"]> {
+  return { name: unitText(crs), metres: metresPerMapUnit(crs) };
 }
 
 /** Options for building a map input from a fitted model and its grid. */
 export interface ModelMapOptions {
-  interval: number;
-  base?: number;
+  /** Contour levels (intervalRule, listRule or chooseLevelRule in ../levels.ts). */
+  rule: LevelRule;
   title?: string;
   date: string;
   unit?: string;
@@ -30,14 +37,15 @@ export function mapInputFromModel(model: SurfaceModel, grid: GridValues, o: Mode
   const flagged = new Set(model.diagnostics.flags.lines);
   const pts = model.points;
   return {
-    ...contoured(grid, o.interval, o.base),
+    ...contoured(grid, o.rule),
     points: pts.x.map((x, i) => ({ x, y: pts.y[i], value: pts.z[i], flagged: flagged.has(pts.line[i]), residual: looOf(model, i) })),
     outline: o.outline ?? [model.hull],
     outlineLabel: o.outlineLabel ?? (o.outline ? "Mask outline" : "Data outline (convex hull)"),
     title: o.title ?? `${model.source.z} surface, ${model.source.file}`,
     dataFile: model.source.file,
     date: o.date,
-    crs: model.crs.label,
+    crs: crsText(model.crs),
+    mapUnit: mapUnitOf(model.crs),
     unit: o.unit ?? "",
     valueName: model.source.z,
     method: methodSummary(model, o.unit ?? ""),
@@ -50,14 +58,15 @@ export function mapInputFromModel(model: SurfaceModel, grid: GridValues, o: Mode
 /** A map input for a grid without its model (no points, no method): e.g. `map surface.tif`. */
 export function mapInputFromGrid(
   grid: GridValues,
-  o: { interval: number; base?: number; title: string; dataFile: string; date: string; unit?: string; valueName?: string },
+  o: { rule: LevelRule; title: string; dataFile: string; date: string; unit?: string; valueName?: string },
 ): MapInput {
   return {
-    ...contoured(grid, o.interval, o.base),
+    ...contoured(grid, o.rule),
     title: o.title,
     dataFile: o.dataFile,
     date: o.date,
-    crs: grid.crs.label,
+    crs: crsText(grid.crs),
+    mapUnit: mapUnitOf(grid.crs),
     unit: o.unit ?? "",
     valueName: o.valueName,
     method: "",

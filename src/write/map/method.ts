@@ -2,7 +2,7 @@
 // accessors so a renamed model field changes one line here.
 import type { RankedCandidate, SurfaceModel } from "../../model/model.ts";
 import { KERNEL_TABLE } from "../../fit/kernels.ts";
-import { formatSignificant } from "./format.ts";
+import { formatSignificant, perUnitText } from "../../text.ts";
 
 /** The model's polynomial trend (called "drift" in earlier versions). */
 export function trendOf(model: SurfaceModel): string {
@@ -38,7 +38,7 @@ export function methodSummary(model: SurfaceModel, unit = ""): string {
   const ru = residualUnit(model, unit);
   const parts = [
     `Radial-basis-function regression: ${kernel} with ${trendOf(model)} trend`,
-    model.shape === null ? "" : `shape ε = ${formatSignificant(model.shape)} per map unit`,
+    model.shape === null ? "" : `shape ε = ${formatSignificant(model.shape)} ${perUnitText(model.crs)}`,
     `smoothing λ = ${formatSignificant(model.lambda)} (${d.smoothingChoice === "gcv" ? "by GCV" : "given"})`,
     `${formatSignificant(d.edf)} effective degrees of freedom from ${d.n} points`,
     `leave-one-out RMSE ${formatSignificant(d.loocvRmse, 3)}${ru ? ` ${ru}` : ""}`,

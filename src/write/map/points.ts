@@ -1,6 +1,7 @@
 // Survey points on the map: markers (possible blunders ringed), value labels with a white halo,
 // residual colours, and the legend's symbol rows.
-import { decimalsOf, formatFixed } from "./format.ts";
+import { decimalsOf, formatFixed, formatSignificant } from "../../text.ts";
+import { describeLevels, type LevelRule } from "../levels.ts";
 import { INK, type MapFrame } from "./furniture.ts";
 import { type Box, placePointLabels, type Xy } from "./labels.ts";
 import { paletteHex } from "./palette.ts";
@@ -46,15 +47,17 @@ export function pointLabels(
   f: MapFrame,
   u: number,
   p: string,
-  levelDecimals: number,
+  rule: LevelRule,
 ): string {
   const size = 1.7 * u;
-  const decimals = Math.min(3, levelDecimals + 1);
+  // Readings one decimal finer than an interval's levels (at most 3); else 3 significant digits.
+  const decimals = rule.kind === "interval" ? Math.min(3, decimalsOf(rule.interval) + 1) : -1;
+  const valueText = (v: number) => (decimals >= 0 ? formatFixed(v, decimals) : formatSignificant(v, 3));
   // Possible blunders are labelled first, so they keep their labels where points crowd.
   const order = points.map((_, i) => i).sort((a, b) => Number(points[b].flagged) - Number(points[a].flagged) || a - b);
   const inputs = order.map((i) => {
     const [x, y] = P(points[i].x, points[i].y);
-    return { x, y, r: points[i].flagged ? 1.5 * u : r, text: formatFixed(points[i].value, decimals) };
+    return { x, y, r: points[i].flagged ? 1.5 * u : r, text: valueText(points[i].value) };
   });
   const placed = placePointLabels(inputs, taken, [f.x + 0.5, f.y + 0.5, f.x + f.width - 0.5, f.y + f.height - 0.5], size, (t) => textWidth(t, size));
   let halo = "", ink = "";
@@ -78,12 +81,14 @@ export interface LegendRow {
 }
 
 export function symbolRows(input: MapInput, options: MapOptions, u: number, indexed: boolean, residualColour: boolean): LegendRow[] {
-  const ld = decimalsOf(input.interval);
-  const unit = input.unit ? ` ${input.unit}` : "";
+  const said = describeLevels(input.rule, input.unit);
   const line = (w: number, dash?: string) => (x: number, y: number) =>
     el("path", { d: `M${n(x - 2.5 * u, 3)} ${n(y, 3)}h${n(5 * u, 3)}`, stroke: INK, "stroke-width": w * u, "stroke-dasharray": dash, fill: "none" });
-  const rows: LegendRow[] = [{ label: `Contour, every ${formatFixed(input.interval, ld)}${unit}`, symbol: line(0.13) }];
-  if (indexed) rows.push({ label: `Index contour, every ${formatFixed(5 * input.interval, ld)}${unit}`, symbol: line(0.35) });
+  // Every listed level (or every decade when those are the only levels) is an index contour.
+  const rows: LegendRow[] = said.index === null && indexed
+    ? [{ label: `Contour, ${said.levels}, labelled`, symbol: line(0.35) }]
+    : [{ label: `Contour, ${said.levels}`, symbol: line(0.13) }];
+  if (indexed && said.index !== null) rows.push({ label: `Index contour, ${said.index}`, symbol: line(0.35) });
   if (input.points?.length) {
     rows.push({
       label: options.labelPoints ? "Survey point, with its reading" : "Survey point",

@@ -1,6 +1,7 @@
 // The records the map writer takes: what to draw (MapInput) and on what sheet (MapOptions).
 import type { GridValues } from "../../types.ts";
 import type { ContourLineCollection } from "../contours.ts";
+import type { LevelRule } from "../levels.ts";
 import type { Orientation, PaperName } from "./paper.ts";
 
 export interface MapPoint {
@@ -16,10 +17,11 @@ export interface MapPoint {
 export interface MapInput {
   /** The surface the contours come from; its extent is the mapped area. */
   grid: GridValues;
-  /** Contour lines as made by contourLines(grid, levels). */
+  /** Contour lines as made by contourLines(grid, levels, { index: indexTest(rule) }). */
   contours: ContourLineCollection;
   levels: number[];
-  interval: number;
+  /** How the levels were chosen: it decides the index contours (heavier, labelled) and the level texts. */
+  rule: LevelRule;
   points?: MapPoint[];
   /** Rings outlining the data (convex hull or mask), map coordinates. */
   outline?: [number, number][][];
@@ -29,7 +31,7 @@ export interface MapInput {
   dataFile: string;
   /** Date as printed (given by the caller, so output is byte-identical for the same inputs). */
   date: string;
-  /** Coordinate reference system, e.g. "EPSG:32632" or "local site grid". */
+  /** Coordinate reference system as printed (crsText), e.g. "EPSG:32632" or "local site grid (no EPSG code)". */
   crs: string;
   /** Unit of the values, e.g. "m" ("" when unknown). */
   unit: string;
@@ -41,7 +43,10 @@ export interface MapInput {
   notes?: string[];
   /** Grid to colour instead of `grid` (same layout not required). */
   reliefGrid?: GridValues;
-  /** Unit of the coordinates; default metres. `metres: null` (e.g. degrees) means no print scale. */
+  /**
+   * Unit of the coordinates; default metres. `metres: null` (a CRS that does not state its unit, or
+   * degrees) means no print scale: the map is fitted to the sheet.
+   */
   mapUnit?: { name: string; metres: number | null };
 }
 
