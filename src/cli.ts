@@ -7,6 +7,10 @@ import type { GridOptions } from "./evaluate/grid.ts";
 import { KERNELS, TRENDS } from "./fit/kernels.ts";
 import type { FitOptions } from "./fit/surface.ts";
 import { readMask } from "./job.ts";
+import { DUPLICATE_RULES } from "./clean/clean.ts";
+import { parseWhere } from "./read/filter.ts";
+import type { MaskFile } from "./read/mask.ts";
+import { NON_DETECT_RULES } from "./read/nondetects.ts";
 import { type ProgressReporter, progressReporter, type TerminalWriter } from "./cli_progress.ts";
 import { messageText } from "./text.ts";
 import { MODEL_VERSION } from "./model/model.ts";
@@ -15,7 +19,7 @@ import { contourVerb, fitVerb, gridVerb, mapVerb, predictVerb, runVerb, type Ver
 import type { MapOptions } from "./write/map.ts";
 import { outputNamesText } from "./write/outputs.ts";
 
-type Spec = Record<string, { type: "string" | "boolean" }>;
+type Spec = Record<string, { type: "string" | "boolean"; multiple?: boolean }>;
 
 const COMMON: Spec = { help: { type: "boolean" }, json: { type: "boolean" }, debug: { type: "boolean" }, quiet: { type: "boolean" } };
 const POINTS: Spec = {
@@ -29,6 +33,14 @@ const POINTS: Spec = {
   "merge-conflicts": { type: "boolean" },
   weight: { type: "string" },
   header: { type: "string" },
+  id: { type: "string" },
+  code: { type: "string" },
+  where: { type: "string", multiple: true },
+  "non-detects": { type: "string" },
+  "detection-limit": { type: "string" },
+  "detection-limit-column": { type: "string" },
+  duplicates: { type: "string" },
+  "keep-isolated": { type: "boolean" },
 };
 const MODEL: Spec = {
   kernel: { type: "string" },
@@ -40,6 +52,8 @@ const MODEL: Spec = {
   stretch: { type: "string" },
   "flag-level": { type: "string" },
   robust: { type: "boolean" },
+  method: { type: "string" },
+  "patch-points": { type: "string" },
 };
 const GRID: Spec = { cell: { type: "string" }, extent: { type: "string" }, mask: { type: "string" }, force: { type: "boolean" } };
 const STDERR: Spec = { stderr: { type: "string" } };
@@ -58,8 +72,20 @@ const POINTS_HELP = `  --x COL --y COL --z COL   columns to use, by name or 1-ba
   --to-crs EPSG:NNNN        projected CRS to fit in when the points are latitude/longitude (default:
                             the UTM zone of their centre)
   --class C[,C…]            point clouds (LAS/LAZ): keep only these ASPRS classes (2 = ground)
+  --id COL --code COL       point id and description code columns, named in residuals.csv and the
+                            blunder flags (default: the first column named id/point/pt/name/station…;
+                            a column named code/desc/description)
+  --where COL=V[,V…]        keep only rows whose column holds one of the values (ignoring case), e.g.
+                            --where code=GS for ground shots; repeat for several columns
+  --non-detects RULE        how values below the detection limit ("<0.5", "ND", "n.n.", "0.5 U") enter
+                            the fit: half (default) the limit, limit, zero, or omit (see README)
+  --detection-limit DL      the limit of non-detects written without one ("ND", "<DL")
+  --detection-limit-column COL  column of detection limits (default: a column named DL, LOD, MDL …)
+  --duplicates RULE         coincident points become one by their mean (default), max, min or first
   --max-spread DZ           refuse coincident points whose values differ by more than DZ
-  --merge-conflicts         merge such points anyway (mean value) and report them
+  --merge-conflicts         merge such points anyway and report them
+  --keep-isolated           keep samples far from all others (more than 10 median spacings) inside
+                            the default grid extent and the hull mask (they are fitted either way)
   --weight COL              observation weights (e.g. 1/variance from instrument precision)`;
 const MODEL_HELP = `  --kernel K                auto|${KERNELS.join("|")}
                             (default auto: tries every kernel with the trends it supports; see --select)
@@ -79,11 +105,17 @@ const MODEL_HELP = `  --kernel K                auto|${KERNELS.join("|")}
                             a valley or a buried channel
   --flag-level ALPHA        false-alarm rate of the blunder test for the whole survey (default 0.05;
                             Pope's tau test on studentised leave-one-out residuals, iterated)
-  --robust                  refit with blunders down-weighted (Tukey's biweight, iterated; λ by GCV)`;
+  --robust                  refit with blunders down-weighted (Tukey's biweight, iterated; λ by GCV)
+  --method auto|global|local  fitting method (default auto: the local method above 2,000 points,
+                            else the global one); global takes at most 5,000 points
+  --patch-points N          local method: points per patch (default 150; more is more accurate
+                            and slower)`;
 const GRID_HELP = `  --cell SIZE               cell size in map units (default: half the median point spacing,
                             at least 200 cells along the longer side, rounded to 1, 2, 2.5 or 5·10ᵏ)
-  --extent XMIN,YMIN,XMAX,YMAX  outer edges of the grid (default: the data's bounding box)
+  --extent XMIN,YMIN,XMAX,YMAX  outer edges of the grid (default: the data's bounding box, or the
+                            mask polygons' with --mask FILE)
   --mask hull|none|FILE     hull: the data's convex hull (default); FILE: GeoJSON polygons to keep
+                            (in their declared CRS, WGS 84 longitude/latitude, or the points' CRS)
   --force                   allow grids above 100 million cells`;
 const STDERR_HELP = `  --stderr FILE.tif         also write the standard error of the estimate as a second GeoTIFF
                             (model-based, not a survey tolerance; see README)`;
@@ -205,6 +237,18 @@ const RENAMED: Record<string, string> = {
   "flag-threshold": "--flag-level ALPHA (the blunder test's false-alarm rate, e.g. 0.05)",
 };
 
+function methodOption(v: Record<string, unknown>): FitOptions["method"] {
+  const method = (v.method as string | undefined) ?? "auto";
+  if (method !== "auto" && method !== "global" && method !== "local") throw usage(`--method must be auto, global or local, not "${method}"`);
+  return method;
+}
+
+function patchPointsOption(v: Record<string, unknown>): number | undefined {
+  const p = num(v["patch-points"] as string | undefined, "patch-points");
+  if (p !== undefined && !(Number.isInteger(p) && p >= 3)) throw usage("--patch-points must be a whole number ≥ 3, such as 150");
+  return p;
+}
+
 function classOption(v: Record<string, unknown>): number[] | undefined {
   const text = v.class as string | undefined;
   if (text === undefined) return undefined;
@@ -308,6 +352,8 @@ function fitOptions(v: Record<string, unknown>): FitOptions {
     stretch,
     flagLevel,
     robust: Boolean(v.robust),
+    method: methodOption(v),
+    patchPoints: patchPointsOption(v),
   };
 }
 
@@ -321,9 +367,23 @@ function gridOptions(v: Record<string, unknown>): Omit<GridOptions, "progress"> 
     opts.extent = parts as [number, number, number, number];
   }
   const mask = (v.mask as string | undefined) ?? "hull";
-  opts.mask = mask === "hull" || mask === "none" ? mask : readMask(mask);
+  opts.mask = mask === "hull" || mask === "none" ? mask : undefined;
   opts.force = Boolean(v.force);
   return opts;
+}
+
+/** The --mask file, read (and refused for its syntax) before any long work; undefined for hull or none. */
+function maskOption(v: Record<string, unknown>): MaskFile | undefined {
+  const mask = v.mask as string | undefined;
+  return mask === undefined || mask === "hull" || mask === "none" ? undefined : readMask(mask);
+}
+
+function choice<T extends string>(v: Record<string, unknown>, name: string, allowed: readonly T[]): T | undefined {
+  const value = v[name] as string | undefined;
+  if (value !== undefined && !(allowed as readonly string[]).includes(value)) {
+    throw usage(`--${name} must be ${allowed.slice(0, -1).join(", ")} or ${allowed.at(-1)}, not "${messageText(value, 20)}"`);
+  }
+  return value as T | undefined;
 }
 
 function pointsSource(file: string, v: Record<string, unknown>) {
@@ -339,6 +399,14 @@ function pointsSource(file: string, v: Record<string, unknown>) {
     mergeConflicts: Boolean(v["merge-conflicts"]),
     weight: v.weight as string | undefined,
     header: headerOption(v),
+    id: v.id as string | undefined,
+    code: v.code as string | undefined,
+    where: ((v.where as string[] | undefined) ?? []).map(parseWhere),
+    nonDetects: choice(v, "non-detects", NON_DETECT_RULES),
+    detectionLimit: num(v["detection-limit"] as string | undefined, "detection-limit"),
+    detectionLimitColumn: v["detection-limit-column"] as string | undefined,
+    duplicates: choice(v, "duplicates", DUPLICATE_RULES),
+    keepIsolated: Boolean(v["keep-isolated"]),
   };
 }
 
@@ -404,11 +472,11 @@ export async function main(args: string[], io: Io): Promise<number> {
     }
     const out = v.out as string | undefined;
     if (!out) throw usage(`${verb} needs --out (see 'deno task rbfield ${verb} --help')`);
-    const maskFile = typeof v.mask === "string" && v.mask !== "hull" && v.mask !== "none" ? [v.mask] : [];
+    const mask = maskOption(v);
     let result: VerbResult;
     if (verb === "fit") result = await fitVerb(pointsSource(pos[0], v), { ...fitOptions(v), progress }, out);
     else if (verb === "grid") {
-      result = await gridVerb({ model: pos[0], out, stderr: v.stderr as string | undefined, grid: { ...gridOptions(v), progress }, otherInputs: maskFile });
+      result = await gridVerb({ model: pos[0], out, stderr: v.stderr as string | undefined, grid: { ...gridOptions(v), progress }, mask });
     } else if (verb === "contour") {
       result = await contourVerb({
         input: pos[0],
@@ -417,7 +485,7 @@ export async function main(args: string[], io: Io): Promise<number> {
         bands: Boolean(v.bands),
         threeD: Boolean(v["3d"]),
         grid: { ...gridOptions(v), progress },
-        otherInputs: maskFile,
+        mask,
       });
     } else if (verb === "map") {
       result = await mapVerb({
@@ -428,7 +496,7 @@ export async function main(args: string[], io: Io): Promise<number> {
         date: dateOption(v),
         sheet: sheetOptions(v),
         grid: { ...gridOptions(v), progress },
-        otherInputs: maskFile,
+        mask,
       });
     } else if (verb === "predict") {
       result = await predictVerb({ model: pos[0], locations: pos[1], out, x: v.x as string | undefined, y: v.y as string | undefined, header: headerOption(v), crs: v.crs as string | undefined, progress });
@@ -441,7 +509,7 @@ export async function main(args: string[], io: Io): Promise<number> {
         ...levelOptions(v),
         threeD: Boolean(v["3d"]),
         locations: v.locations as string | undefined,
-        otherInputs: maskFile,
+        mask,
         title: v.title as string | undefined,
         date: dateOption(v),
         progress,

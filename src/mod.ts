@@ -32,3 +32,9 @@ export { fitPointsFile, loadPoints, readGrid, readModel, runJob, type RunOptions
 export { describeCrs, makeProjector, utmZoneFor } from "./crs/crs.ts";
 export { crsRecord, projectTable, tableCrs } from "./read/project.ts";
 export { contourVerb, fitVerb, gridVerb, predictVerb, runVerb, type VerbResult } from "./verbs.ts";
+// field data as it arrives
+export { readLabValues } from "./read/nondetects.ts";
+export { filterRows } from "./read/filter.ts";
+export { maskInCrs, readMaskFile } from "./read/mask.ts";
+export { isolatedSamples } from "./clean/isolated.ts";
+export { LOCAL_AUTO_POINTS } from "./fit/local/local.ts";

@@ -106,18 +106,41 @@ export type TextTable = PointTable & TypedTable;
 export interface SkippedRow {
   line: number;
   reason: string;
+  /** 0-based row of the table, where known. */
+  row?: number;
+  /** Why, when the row holds a reading on purpose left out: a non-detect (--non-detects omit) or a value qualified R (rejected). */
+  cause?: "non-detect" | "rejected";
 }
+
+/**
+ * How coincident points become one: the mean of their values (default), the largest, the smallest,
+ * or the first in file order.
+ */
+export type DuplicateRule = "mean" | "max" | "min" | "first";
 
 /** A set of coincident input points merged into one. */
 export interface MergedGroup {
   x: number;
   y: number;
-  /** Input line numbers merged. */
+  /** Input line numbers merged, in file order. */
   lines: number[];
   /** Max minus min of the merged values. */
   spread: number;
-  /** Mean value kept. */
+  /** Value kept (by `rule`). */
   value: number;
+  /** The value of each merged row, in the order of `lines`. */
+  values: number[];
+  /** The 0-based table row of each merged row, in the order of `lines`. */
+  rows: number[];
+  /** How the value was chosen. */
+  rule: DuplicateRule;
+  /** The kept point's line: the first for mean and first, the row whose value was kept for max and min. */
+  line: number;
+  /**
+   * Relative percent difference: |a − b| / |mean| × 100 for a pair; (max − min) / |mean| × 100 (the
+   * relative range) for three or more; null when the mean is 0.
+   */
+  rpd: number | null;
 }
 
 /** Points ready to fit: finite coordinates and values, no coincident pairs. */
@@ -125,17 +148,33 @@ export interface CleanPoints {
   x: Float64Array;
   y: Float64Array;
   z: Float64Array;
-  /** For each kept point, the first input line it came from. */
+  /**
+   * For each kept point, its input line: the first line of a merged group, or (duplicates max or
+   * min) the line whose value was kept.
+   */
   lines: number[];
+  /** For each kept point, the 0-based table row of that line (absent in hand-made records). */
+  rows?: number[];
   skipped: SkippedRow[];
   merged: MergedGroup[];
   /** Number of data rows read before cleaning. */
   rowsRead: number;
   /**
    * The table's text columns (point ids, codes), one value per kept point; a merged point keeps the
-   * texts of its first row.
+   * texts of the row of its line.
    */
   texts?: { name: string; values: string[] }[];
+}
+
+/**
+ * A text column carried with the points into the model and residuals.csv: the point id, the
+ * description code, the qualifier stripped from a laboratory value, the detection limit of a
+ * non-detect, or another text column of the input; one string per point ("" where there is none).
+ */
+export interface PointText {
+  name: string;
+  role: "id" | "code" | "qualifier" | "detection limit" | "text";
+  values: string[];
 }
 
 export type KernelName = "thin-plate" | "gaussian" | "multiquadric" | "inverse-multiquadric";

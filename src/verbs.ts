@@ -14,6 +14,8 @@ import {
   estimateTable,
   estimateWarnings,
   fitPointsFile,
+  gridOptionsFor,
+  inputJson,
   type PointsSource,
   readGrid,
   readLocations,
@@ -22,6 +24,7 @@ import {
   type RunOptions,
 } from "./job.ts";
 import { modelToJson, type SurfaceModel } from "./model/model.ts";
+import type { MaskFile } from "./read/mask.ts";
 import { checkWritableFolder, refuseInputAsOutput, writeFileAtomic, writeFilesAtomic } from "./write/atomic.ts";
 import { contourGeoJson } from "./write/contours.ts";
 import { chooseLevelRule, describeLevels, type LevelRule } from "./write/levels.ts";
@@ -30,7 +33,7 @@ import { mapInputFromGrid, mapInputFromModel, type MapInput, type MapOptions, re
 import { mapToPdf, mapToPng } from "./write/map/print.ts";
 import { estimatesCsv } from "./write/csv.ts";
 import { encodeGeoTiff } from "./write/geotiff.ts";
-import { contourText, gridText, modelSummaryLines } from "./write/summary.ts";
+import { contourText, gridText, modelSummaryLines, pointLabel } from "./write/summary.ts";
 
 /** What a verb hands back to the CLI. */
 export interface VerbResult {
@@ -47,6 +50,8 @@ export function modelJson(model: SurfaceModel): Record<string, unknown> {
   const d = model.diagnostics;
   return {
     method: model.method,
+    methodChoice: d.methodChoice ?? null,
+    local: d.local ?? null,
     kernel: model.kernel,
     shape: model.shape,
     trend: model.trend,
@@ -64,12 +69,25 @@ export function modelJson(model: SurfaceModel): Record<string, unknown> {
     stretch: model.stretch,
     selection: d.selection,
     flaggedLines: d.flags.lines,
+    flagged: flaggedPoints(model),
     flagTest: { test: d.flags.test, level: d.flags.level, critical: d.flags.critical },
     robust: d.robust,
     crs: model.crs,
     warnings: d.warnings,
     caution: CAUTION,
   };
+}
+
+/** The flagged points with their ids and codes, for --json. */
+function flaggedPoints(model: SurfaceModel): { line: number; point: string | null; code: string | null; label: string }[] {
+  const at = new Map(model.points.line.map((l, i) => [l, i]));
+  const text = (role: string, i: number) => model.points.text?.find((t) => t.role === role)?.values[i] ?? null;
+  return model.diagnostics.flags.lines.map((line) => {
+    const i = at.get(line);
+    return i === undefined
+      ? { line, point: null, code: null, label: `line ${line}` }
+      : { line, point: text("id", i), code: text("code", i), label: pointLabel(model, i) };
+  });
 }
 
 /** Refuse an output that would overwrite an input, and check its folder before long work. */
@@ -84,7 +102,7 @@ export async function fitVerb(src: PointsSource, fit: FitOptions, out: string, o
   writeFileAtomic(out, modelToJson(r.model));
   return {
     text: [...r.notes, ...modelSummaryLines(r.model), `Model written to ${out}`, "", CAUTION, ""].join("\n"),
-    json: { ...modelJson(r.model), model: out },
+    json: { ...modelJson(r.model), input: inputJson(r, r.model), model: out },
     warnings: [],
   };
 }
@@ -95,16 +113,19 @@ export interface GridVerbOptions {
   /** Also write the standard-error grid here. */
   stderr?: string;
   grid: GridOptions;
-  /** Other files read (a mask), which no output may overwrite. */
+  /** Other files read, which no output may overwrite. */
   otherInputs?: string[];
+  /** A mask polygon file as read (readMask), brought into the model's CRS. */
+  mask?: MaskFile;
 }
 
 export async function gridVerb(o: GridVerbOptions): Promise<VerbResult> {
-  const inputs = [o.model, ...(o.otherInputs ?? [])];
+  const inputs = [o.model, ...(o.mask ? [o.mask.file] : []), ...(o.otherInputs ?? [])];
   prepareOutput(o.out, inputs);
   if (o.stderr) prepareOutput(o.stderr, [...inputs, o.out]);
   const model = readModel(o.model);
-  const grid = await gridModelParallel(model, o.grid);
+  const masked = await gridOptionsFor(model, o.grid, o.mask);
+  const grid = await gridModelParallel(model, masked.grid);
   const se = o.stderr ? gridStandardError(model, grid, o.grid.progress) : undefined;
   writeFilesAtomic([[o.out, encodeGeoTiff(grid)], ...(o.stderr && se ? [[o.stderr, encodeGeoTiff(se.grid)] as [string, Uint8Array]] : [])]);
   const s = grid.spec;
@@ -113,7 +134,7 @@ export async function gridVerb(o: GridVerbOptions): Promise<VerbResult> {
       "a model-based figure, not a survey tolerance\n"
     : "";
   return {
-    text: `Grid of ${gridText(s, grid.crs)} written to ${o.out} (CRS ${crsText(grid.crs)})\n${seLine}\n${CAUTION}\n`,
+    text: `${masked.notes.map((n) => `${n}\n`).join("")}Grid of ${gridText(s, grid.crs)} written to ${o.out} (CRS ${crsText(grid.crs)})\n${seLine}\n${CAUTION}\n`,
     json: {
       cols: s.cols,
       rows: s.rows,
@@ -143,14 +164,16 @@ export interface ContourVerbOptions {
   threeD?: boolean;
   grid: GridOptions;
   otherInputs?: string[];
+  /** A mask polygon file as read (readMask); applies when the input is a model. */
+  mask?: MaskFile;
 }
 
 export async function contourVerb(o: ContourVerbOptions): Promise<VerbResult> {
-  prepareOutput(o.out, [o.input, ...(o.otherInputs ?? [])]);
+  prepareOutput(o.out, [o.input, ...(o.mask ? [o.mask.file] : []), ...(o.otherInputs ?? [])]);
   const isTiff = /\.tiff?$/i.test(o.input);
   if (o.threeD && o.bands) throw new RbfieldError(`${opt("threeD")} applies to contour lines; filled bands lie between two levels`, ExitCode.usage);
   const model = isTiff ? undefined : readModel(o.input);
-  const grid = model ? await gridModelParallel(model, o.grid) : await readGrid(o.input);
+  const grid = model ? await gridModelParallel(model, (await gridOptionsFor(model, o.grid, o.mask)).grid) : await readGrid(o.input);
   const rule = chooseLevelRule(o, grid.values, model?.transform);
   const r = contourGeoJson(grid, rule, { bands: o.bands, threeD: o.threeD, progress: o.grid.progress });
   writeFileAtomic(o.out, r.text);
@@ -214,6 +237,8 @@ export interface MapVerbOptions {
   sheet: MapOptions;
   grid: GridOptions;
   otherInputs?: string[];
+  /** A mask polygon file as read (readMask); applies when the input is a model. */
+  mask?: MaskFile;
 }
 
 /** The interval of an interval rule (--json's "interval"), else null. */
@@ -225,7 +250,7 @@ function intervalOf(rule: LevelRule): number | null {
 export async function mapVerb(o: MapVerbOptions): Promise<VerbResult> {
   const format = /\.(svg|pdf|png)$/i.exec(o.out)?.[1].toLowerCase();
   if (!format) throw new RbfieldError(`the map is written as .svg, .pdf or .png (by the ending of ${opt("out")}), not "${o.out}"`, ExitCode.usage);
-  prepareOutput(o.out, [o.input, ...(o.otherInputs ?? [])]);
+  prepareOutput(o.out, [o.input, ...(o.mask ? [o.mask.file] : []), ...(o.otherInputs ?? [])]);
   const date = o.date ?? new Date().toISOString().slice(0, 10);
   const isTiff = /\.tiff?$/i.test(o.input);
   let input: MapInput;
@@ -235,7 +260,7 @@ export async function mapVerb(o: MapVerbOptions): Promise<VerbResult> {
     input = mapInputFromGrid(grid, { rule, title: o.title ?? path.basename(o.input), dataFile: path.basename(o.input), date });
   } else {
     const model = readModel(o.input);
-    const grid = await gridModelParallel(model, o.grid);
+    const grid = await gridModelParallel(model, (await gridOptionsFor(model, o.grid, o.mask)).grid);
     input = mapInputFromModel(model, grid, { rule: chooseLevelRule(o, grid.values, model.transform), title: o.title, date });
   }
   o.grid.progress?.(`drawing the map${format === "svg" ? "" : ` and writing it as ${format.toUpperCase()}`}`);
@@ -261,5 +286,5 @@ export async function mapVerb(o: MapVerbOptions): Promise<VerbResult> {
 
 export async function runVerb(o: RunOptions): Promise<VerbResult> {
   const r = await runJob(o);
-  return { text: r.summary, json: { ...modelJson(r.model), files: r.files }, warnings: r.warnings };
+  return { text: r.summary, json: { ...modelJson(r.model), input: r.input, files: r.files }, warnings: r.warnings };
 }

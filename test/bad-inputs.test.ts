@@ -19,7 +19,7 @@ import * as path from "node:path";
 import { fileURLToPath } from "node:url";
 import { main } from "../src/cli.ts";
 import { cleanPoints } from "../src/clean/clean.ts";
-import { ExitCode, RbfieldError } from "../src/errors.ts";
+import { ExitCode } from "../src/errors.ts";
 import { parsePointTable, readPointTable } from "../src/read/points.ts";
 import { contourBands, contourLines } from "../src/write/contours.ts";
 import { refuseInputAsOutput, writeFileAtomic } from "../src/write/atomic.ts";
@@ -534,6 +534,80 @@ const CASES: Case[] = [
     words: ["not valid GeoJSON"],
   },
   {
+    name: "a non-detect without a detection limit (no limit column, no --detection-limit)",
+    fixture: "non-detect-no-limit.csv",
+    args: (p) => fitTo(p),
+    code: 3,
+    line: 4,
+    words: ["non-detect 'ND' in column 'concentration' has no detection limit", "--detection-limit VALUE", "--detection-limit-column", "--non-detects zero or omit"],
+  },
+  {
+    name: "an unknown --non-detects rule",
+    fixture: "non-detect-no-limit.csv",
+    args: (p) => fitTo(p, "--non-detects", "third"),
+    code: 2,
+    names: null,
+    words: ["--non-detects must be half, limit, zero or omit"],
+  },
+  {
+    name: "an unknown --duplicates rule",
+    fixture: "coded-points.csv",
+    args: (p) => fitTo(p, "--duplicates", "median"),
+    code: 2,
+    names: null,
+    words: ["--duplicates must be mean, max, min or first"],
+  },
+  {
+    name: "--where that no row meets",
+    fixture: "coded-points.csv",
+    args: (p) => fitTo(p, "--where", "code=XX"),
+    code: 3,
+    words: ["no row meets --where code=XX", "'GS' ×4", "'TP' ×1"],
+  },
+  {
+    name: "--where without a value",
+    fixture: "coded-points.csv",
+    args: (p) => fitTo(p, "--where", "code"),
+    code: 2,
+    names: null,
+    words: ["--where must be COLUMN=VALUE", "code=GS"],
+  },
+  {
+    name: "--where naming a column the file does not have",
+    fixture: "coded-points.csv",
+    args: (p) => fitTo(p, "--where", "class=2"),
+    code: 3,
+    words: ["--where column 'class' not found", "'point', 'easting'"],
+  },
+  {
+    name: "a mask that leaves no cell (smaller than a cell, between cell centres)",
+    fixture: GOOD_MODEL,
+    extra: ["mask-tiny.geojson"],
+    args: (p) => gridTo(p, "--cell", "1", "--mask", p.file("mask-tiny.geojson")),
+    code: 3,
+    names: "mask-tiny.geojson",
+    words: ["the mask leaves no cell", "--extent", "--cell"],
+  },
+  {
+    name: "a longitude/latitude mask (RFC 7946) over points on a local site grid",
+    fixture: "good-points.csv",
+    extra: ["mask-lonlat.geojson"],
+    args: (p) => ["run", p.input, "--out", p.out, "--mask", p.file("mask-lonlat.geojson"), ...Q],
+    out: "dir",
+    code: 3,
+    names: "mask-lonlat.geojson",
+    words: ["the mask is in WGS 84 longitude/latitude", "the points are in local site grid (no EPSG code)", "--crs"],
+  },
+  {
+    name: "a mask in the points' CRS that misses the points",
+    fixture: GOOD_MODEL,
+    extra: ["mask-elsewhere.geojson"],
+    args: (p) => gridTo(p, "--mask", p.file("mask-elsewhere.geojson")),
+    code: 3,
+    names: "mask-elsewhere.geojson",
+    words: ["misses the points", "5000, 5000 to 5100, 5100"],
+  },
+  {
     name: "prediction locations without coordinate columns",
     fixture: GOOD_MODEL,
     extra: ["locations-no-coordinates.csv"],
@@ -875,7 +949,8 @@ describe("messy data that is handled, not refused", () => {
     fs.copyFileSync(path.join(FIXTURES, "conflicting-duplicates.csv"), input);
     const r = await cli(["fit", input, "--out", path.join(dir, "m.json"), "--merge-conflicts", "--quiet"]);
     expect(r.code, r.err).toBe(0);
-    expect(r.out).toContain("merged 1 group of coincident points (largest spread 1.6)");
+    // Lines 3 and 7 (10.5 and 12.1): spread 1.6, RPD |10.5 − 12.1| / 11.3 × 100 = 14.2 % (3 significant digits).
+    expect(r.out).toContain("merged 1 group of coincident points (mean value; largest spread 1.6, largest RPD 14.2%)");
   });
 
   it("negative option values are read as numbers, and a negative smoothing is refused as a value (common practice for CLI parsing)", async () => {

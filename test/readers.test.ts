@@ -273,7 +273,7 @@ describe("files without a header row", () => {
     expect(t.rows[0]).toEqual(["x", "y", "z"]);
     expect(t.unusable).toEqual([{ row: 0, line: 1, column: 0, reason: "value 'x' in column '1' is not a number" }]);
     const c = cleanPoints(t);
-    expect(c.skipped).toEqual([{ line: 1, reason: "value 'x' in column '1' is not a number" }]);
+    expect(c.skipped).toEqual([{ line: 1, row: 0, reason: "value 'x' in column '1' is not a number" }]);
     expect(Array.from(c.x)).toEqual([1, 4]);
   });
 
@@ -318,7 +318,7 @@ describe("text columns carried through cleaning", () => {
     // Line 4 (1049) repeats line 2's position and level: merged into 1047; line 5 has no level.
     expect(c.lines).toEqual([2, 3, 6]);
     expect(c.merged.map((g) => g.lines)).toEqual([[2, 4]]);
-    expect(c.skipped).toEqual([{ line: 5, reason: "missing value in column 'level'" }]);
+    expect(c.skipped).toEqual([{ line: 5, row: 3, reason: "missing value in column 'level'" }]);
     expect(c.texts).toEqual([
       { name: "point_id", values: ["1047", "1048", "1051"] },
       { name: "code", values: ["GS", "TP", ""] },

@@ -3,7 +3,7 @@
 import { ExitCode, inputError, opt, RbfieldError } from "../errors.ts";
 import { formatNumber, messageText } from "../text.ts";
 import { COORDINATE_LIMIT, VALUE_LIMIT } from "../numbers.ts";
-import type { CleanPoints, MergedGroup, PointTable, SkippedRow, TypedTable } from "../types.ts";
+import type { CleanPoints, DuplicateRule, MergedGroup, PointTable, SkippedRow, TypedTable } from "../types.ts";
 
 /** The points must span at least this many map units (below it the units are surely wrong)... */
 export const MIN_SPAN = 1e-9;
@@ -24,6 +24,26 @@ export interface CleanOptions {
    * positions remain; default 0 (no check).
    */
   minPoints?: number;
+  /** How coincident points become one (default "mean"). */
+  duplicates?: DuplicateRule;
+}
+
+export const DUPLICATE_RULES: readonly DuplicateRule[] = ["mean", "max", "min", "first"];
+
+/**
+ * Relative percent difference of merged values, the environmental QA measure of field duplicates:
+ * |a − b| / |mean(a, b)| × 100 for a pair (US EPA, SW-846 Chapter One); for three or more the
+ * relative range (max − min) / |mean| × 100, which is the same for a pair; null when the mean is 0.
+ */
+export function relativePercentDifference(values: ArrayLike<number>): number | null {
+  let lo = Infinity, hi = -Infinity, sum = 0;
+  for (let i = 0; i < values.length; i++) {
+    lo = Math.min(lo, values[i]);
+    hi = Math.max(hi, values[i]);
+    sum += values[i];
+  }
+  const mean = Math.abs(sum / values.length);
+  return values.length > 1 && mean > 0 ? ((hi - lo) / mean) * 100 : null;
 }
 
 /** What cleaning reads of a table: a TypedTable, or a PointTable as the readers return it (typed parts filled). */
@@ -37,6 +57,10 @@ export function cleanPoints(table: CleanInput, options: CleanOptions = {}): Clea
   }
   if (!(maxSpread >= 0)) {
     throw new RbfieldError(`maximum spread must be a number >= 0, got ${maxSpread}`, ExitCode.usage);
+  }
+  const rule = options.duplicates ?? "mean";
+  if (!DUPLICATE_RULES.includes(rule)) {
+    throw new RbfieldError(`${opt("duplicates")} must be ${DUPLICATE_RULES.join(", ")}, not "${messageText(String(rule), 20)}"`, ExitCode.usage);
   }
   if (table.zColumn < 0) {
     throw inputError(`no value column was chosen; name it with ${opt("z")}`, { file: table.file, line: 1 });
@@ -53,7 +77,7 @@ export function cleanPoints(table: CleanInput, options: CleanOptions = {}): Clea
   const skipped: SkippedRow[] = [];
   const cols = [table.xColumn, table.yColumn, table.zColumn];
   const columns = cols.map((j) => numberColumn(data, j));
-  const reasons = new Map(unusable.map((u) => [u.row, u.reason]));
+  const reasons = new Map(unusable.map((u) => [u.row, u]));
   const vals = [0, 0, 0];
   let m = 0;
   rows: for (let i = 0; i < n; i++) {
@@ -61,11 +85,17 @@ export function cleanPoints(table: CleanInput, options: CleanOptions = {}): Clea
       const v = columns[k][i];
       const name = table.columns[cols[k]];
       if (Number.isNaN(v)) {
-        skipped.push({ line: table.lines[i], reason: reasons.get(i) ?? `value in column '${messageText(name, 40)}' is not a number` });
+        const u = reasons.get(i);
+        skipped.push({
+          line: table.lines[i],
+          row: i,
+          reason: u?.reason ?? `value in column '${messageText(name, 40)}' is not a number`,
+          ...(u?.cause ? { cause: u.cause } : {}),
+        });
         continue rows;
       }
       if (Math.abs(v) > (k < 2 ? COORDINATE_LIMIT : VALUE_LIMIT)) {
-        skipped.push({ line: table.lines[i], reason: outOfRangeReason(v, name, k < 2) });
+        skipped.push({ line: table.lines[i], row: i, reason: outOfRangeReason(v, name, k < 2) });
         continue rows;
       }
       vals[k] = v;
@@ -129,46 +159,34 @@ export function cleanPoints(table: CleanInput, options: CleanOptions = {}): Clea
     }
   }
 
-  // 3. One output point per group, in order of first occurrence.
+  // 3. One output point per group, in order of first occurrence; a merged group's value by the rule.
   const G = firstOf.length;
   const x = new Float64Array(G);
   const y = new Float64Array(G);
   const z = new Float64Array(G);
-  const lines: number[] = new Array(G);
   for (let g = 0; g < G; g++) {
     const p = firstOf[g];
     x[g] = px[p];
     y[g] = py[p];
     z[g] = pz[p];
-    lines[g] = pline[p];
   }
+  /** The member whose line, row and texts the point keeps. */
+  const keptOf = firstOf.slice();
   const merged: MergedGroup[] = [];
   if (multi) {
-    const count = new Int32Array(G);
-    const sx = new Float64Array(G);
-    const sy = new Float64Array(G);
-    const sz = new Float64Array(G);
-    const lo = new Float64Array(G).fill(Infinity);
-    const hi = new Float64Array(G).fill(-Infinity);
     const members = new Map<number, number[]>();
     for (let p = 0; p < m; p++) {
       const g = groupOf[p];
-      count[g]++;
-      sx[g] += px[p];
-      sy[g] += py[p];
-      sz[g] += pz[p];
-      if (pz[p] < lo[g]) lo[g] = pz[p];
-      if (pz[p] > hi[g]) hi[g] = pz[p];
-      if (firstOf[g] !== p) {
-        const list = members.get(g);
-        if (list) list.push(pline[p]);
-        else members.set(g, [pline[firstOf[g]], pline[p]]);
-      }
+      if (firstOf[g] === p) continue;
+      const list = members.get(g);
+      if (list) list.push(p);
+      else members.set(g, [firstOf[g], p]);
     }
-    for (let g = 0; g < G; g++) {
-      if (count[g] < 2) continue;
-      const spread = hi[g] - lo[g];
-      const groupLines = members.get(g)!;
+    for (const [g, list] of [...members].sort((a, b) => a[0] - b[0])) {
+      const values = list.map((p) => pz[p]);
+      const lo = values.reduce((a, b) => Math.min(a, b)), hi = values.reduce((a, b) => Math.max(a, b));
+      const spread = hi - lo;
+      const groupLines = list.map((p) => pline[p]);
       if (spread > maxSpread && !options.mergeConflicts) {
         const limit = maxSpread === 0 ? "" : ` (more than the allowed ${formatNumber(maxSpread, 6)})`;
         throw inputError(
@@ -178,16 +196,48 @@ export function cleanPoints(table: CleanInput, options: CleanOptions = {}): Clea
           { file: table.file, line: groupLines[0] },
         );
       }
-      x[g] = sx[g] / count[g];
-      y[g] = sy[g] / count[g];
-      z[g] = sz[g] / count[g];
-      merged.push({ x: x[g], y: y[g], lines: groupLines, spread, value: z[g] });
+      let kept = list[0];
+      if (rule === "max") kept = list.find((p) => pz[p] === hi)!;
+      else if (rule === "min") kept = list.find((p) => pz[p] === lo)!;
+      keptOf[g] = kept;
+      let value = pz[kept], gx = px[kept], gy = py[kept];
+      if (rule === "mean") {
+        let sx = 0, sy = 0, sz = 0;
+        for (const p of list) {
+          sx += px[p];
+          sy += py[p];
+          sz += pz[p];
+        }
+        [gx, gy, value] = [sx / list.length, sy / list.length, sz / list.length];
+      }
+      x[g] = gx;
+      y[g] = gy;
+      z[g] = value;
+      merged.push({
+        x: gx,
+        y: gy,
+        lines: groupLines,
+        spread,
+        value,
+        values,
+        rows: list.map((p) => prow[p]),
+        rule,
+        line: pline[kept],
+        rpd: relativePercentDifference(values),
+      });
     }
   }
+  const lines: number[] = new Array(G);
+  const rowOf: number[] = new Array(G);
+  for (let g = 0; g < G; g++) {
+    const p = keptOf[g];
+    lines[g] = pline[p];
+    rowOf[g] = prow[p];
+  }
   const texts = data.flatMap((col) =>
-    col.kind === "text" ? [{ name: col.name, values: firstOf.map((p) => col.values[prow[p]]) }] : []
+    col.kind === "text" ? [{ name: col.name, values: rowOf.map((r) => col.values[r]) }] : []
   );
-  const result = { x, y, z, lines, skipped, merged, rowsRead: n, texts };
+  const result = { x, y, z, lines, rows: rowOf, skipped, merged, rowsRead: n, texts };
   if (G < (options.minPoints ?? 0)) throw tooFewPoints(table, result, options.minPoints!);
   checkSpan(table, result);
   return result;
@@ -296,23 +346,46 @@ function exponentText(v: number): string {
 
 const OUT_OF_RANGE = / is beyond ±/;
 
+const RULE_WORDS: Record<DuplicateRule, string> = {
+  mean: "mean value",
+  max: "largest value kept",
+  min: "smallest value kept",
+  first: "first row kept",
+};
+
 /** Short summary lines, e.g. "skipped 3 rows with missing or non-numeric values (lines 7, 12, 40)". */
 export function describeCleaning(points: CleanPoints, maxListed = 5): string[] {
   const out: string[] = [];
   const s = points.skipped.length;
   if (s > 0) {
     const lines = listLines(points.skipped.map((r) => r.line), maxListed);
+    const leftOut = points.skipped.filter((r) => r.cause === "non-detect").length;
+    const rejected = points.skipped.filter((r) => r.cause === "rejected").length;
+    const other = s - leftOut - rejected;
     const what = points.skipped.some((r) => OUT_OF_RANGE.test(r.reason))
       ? "missing, non-numeric or out-of-range values"
       : "missing or non-numeric values";
-    out.push(`skipped ${s} ${s === 1 ? "row" : "rows"} with ${what} (${lines})`);
+    if (other === s) out.push(`skipped ${s} ${s === 1 ? "row" : "rows"} with ${what} (${lines})`);
+    else {
+      const parts = [
+        ...(other ? [`${other} with ${what}`] : []),
+        ...(leftOut ? [`${leftOut} ${leftOut === 1 ? "non-detect" : "non-detects"} left out (--non-detects omit)`] : []),
+        ...(rejected ? [`${rejected} rejected (qualifier R)`] : []),
+      ];
+      out.push(`skipped ${s} ${s === 1 ? "row" : "rows"} (${lines}): ${parts.join(", ")}`);
+    }
   }
   const g = points.merged.length;
   if (g > 0) {
-    let largest = 0;
-    for (const group of points.merged) largest = Math.max(largest, group.spread);
+    let largest = 0, rpd: number | null = null;
+    for (const group of points.merged) {
+      largest = Math.max(largest, group.spread);
+      if (group.rpd !== null && group.rpd !== undefined) rpd = Math.max(rpd ?? 0, group.rpd);
+    }
+    const rule = points.merged[0].rule ?? "mean";
     out.push(
-      `merged ${g} ${g === 1 ? "group" : "groups"} of coincident points (largest spread ${formatNumber(largest, 6)})`,
+      `merged ${g} ${g === 1 ? "group" : "groups"} of coincident points (${RULE_WORDS[rule]}; largest spread ${formatNumber(largest, 6)}` +
+        `${rpd === null ? "" : `, largest RPD ${formatNumber(rpd, 3)}%`})`,
     );
   }
   return out;

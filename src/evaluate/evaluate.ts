@@ -3,22 +3,30 @@
 // method made the surface. A new method adds its pack and evaluator here (see DEVELOPERS.md).
 import type { SurfaceModel } from "../model/model.ts";
 import { type Evaluator, globalEvaluator, packedBuffers, packGlobal, type PackedGlobal } from "./global.ts";
+import { localBuffers, localEvaluator, type PackedLocal, packLocal } from "./local.ts";
 
 export type { Evaluator } from "./global.ts";
 
 /** A model as typed arrays and a few numbers: what a worker thread receives. */
-export type PackedSurface = PackedGlobal;
+export type PackedSurface = PackedGlobal | PackedLocal;
 
 export function packSurface(model: SurfaceModel): PackedSurface {
   switch (model.method) {
     case "global":
       return packGlobal(model);
+    case "local":
+      return packLocal(model);
   }
 }
 
 /** The transferable buffers of a packed surface. */
 export function surfaceBuffers(p: PackedSurface): ArrayBuffer[] {
-  return packedBuffers(p);
+  switch (p.method) {
+    case "global":
+      return packedBuffers(p);
+    case "local":
+      return localBuffers(p);
+  }
 }
 
 /** The evaluator of a packed surface (the same code in the main thread and in workers). */
@@ -26,6 +34,8 @@ export function evaluatorOf(p: PackedSurface): Evaluator {
   switch (p.method) {
     case "global":
       return globalEvaluator(p);
+    case "local":
+      return localEvaluator(p);
   }
 }
 

@@ -51,12 +51,16 @@ export function coordinateMapper(p: Pick<PackedGlobal, "scaling" | "stretch">): 
 
 /** Scaled coordinates of the model's data points. */
 export function scaledCentres(model: GlobalModel): { u: Float64Array; v: Float64Array } {
-  const n = model.points.x.length;
+  return mappedPoints(model.points, coordinateMapper({ scaling: model.global.scaling, stretch: model.stretch }));
+}
+
+/** Points mapped by `map` (the same arithmetic as the fit's preparation). */
+export function mappedPoints(points: { x: ArrayLike<number>; y: ArrayLike<number> }, map: (x: number, y: number, out: Float64Array) => void): { u: Float64Array; v: Float64Array } {
+  const n = points.x.length;
   const u = new Float64Array(n), v = new Float64Array(n);
-  const map = coordinateMapper({ scaling: model.global.scaling, stretch: model.stretch });
   const uv = new Float64Array(2);
   for (let i = 0; i < n; i++) {
-    map(model.points.x[i], model.points.y[i], uv);
+    map(points.x[i], points.y[i], uv);
     u[i] = uv[0];
     v[i] = uv[1];
   }
@@ -139,7 +143,14 @@ export function globalEvaluator(p: PackedGlobal): Evaluator {
     for (let j = 0; j < m; j++) f += c[j] * row[j];
     return zc + zs * f;
   };
-  const logBias = p.logBias;
+  return evaluatorOfRaw(raw, p.logBias);
+}
+
+/**
+ * An evaluator from the surface in fitted units: back-transformed as exp(f)·logBias for log fits
+ * (logBias = exp(σ²/2) > 0), as is otherwise. Shared by every method's evaluator.
+ */
+export function evaluatorOfRaw(raw: (x: number, y: number) => number, logBias: number): Evaluator {
   const at = logBias > 0 ? (x: number, y: number) => Math.exp(raw(x, y)) * logBias : raw;
   return {
     at,

@@ -4,7 +4,11 @@ import { ExitCode, opt, RbfieldError } from "../errors.ts";
 import type { SurfaceModel } from "../model/model.ts";
 import type { GridSpec, GridValues } from "../types.ts";
 import { niceFloor } from "../numbers.ts";
+import { coordinateText } from "../text.ts";
 import { type Evaluator, makeEvaluator } from "./evaluate.ts";
+import { type PolygonRings, polygonsBox } from "../read/mask.ts";
+
+export { type PolygonRings, polygonsFromGeoJson } from "../read/mask.ts";
 
 /** Grids with more cells than this are refused unless forced (100 M cells ≈ 400 MB as Float32). */
 export const MAX_CELLS = 100_000_000;
@@ -22,12 +26,16 @@ export interface GridLayoutOptions {
   extent?: [number, number, number, number];
   /** Allow grids above MAX_CELLS. */
   force?: boolean;
+  /** "hull" (default), "none", or polygons to keep (in the model's CRS): their bounding box is the default extent. */
+  mask?: "hull" | "none" | PolygonRings[];
+  /** The file the mask polygons came from, named when the mask leaves no cell. */
+  maskFile?: string;
 }
 
 /**
  * Grid layout. With an extent given, its north-west corner is kept and the east and south edges are
- * moved out to whole cells; without one, the data's bounding box is snapped outward to multiples of
- * the cell size.
+ * moved out to whole cells; without one, the data's bounding box (the mask polygons' bounding box
+ * when there are mask polygons) is snapped outward to multiples of the cell size.
  */
 export function gridLayout(model: SurfaceModel, options: GridLayoutOptions = {}): GridSpec {
   const cell = options.cell ?? defaultCell(model);
@@ -47,7 +55,7 @@ export function gridLayout(model: SurfaceModel, options: GridLayoutOptions = {})
       );
     }
   } else {
-    const e = model.extent;
+    const e = Array.isArray(options.mask) ? polygonsBox(options.mask) : model.extent;
     if (![e?.xmin, e?.ymin, e?.xmax, e?.ymax].every((v) => typeof v === "number" && Number.isFinite(v))) {
       throw new RbfieldError("the model's data extent is missing or not finite numbers; the model file is damaged: refit the points", ExitCode.input);
     }
@@ -76,9 +84,6 @@ export function gridLayout(model: SurfaceModel, options: GridLayoutOptions = {})
   }
   return { xmin, ymax, cols, rows, cell, xmax: xmin + cols * cell, ymin: ymax - rows * cell };
 }
-
-/** A polygon as rings of [x, y]; the first ring is the outer boundary, the rest holes. */
-export type PolygonRings = [number, number][][];
 
 /**
  * Cells whose centre lies inside any of the polygons (even-odd rule within each polygon, union
@@ -111,36 +116,7 @@ export function polygonMask(spec: GridSpec, polygons: PolygonRings[]): Uint8Arra
   return inside;
 }
 
-/** Read Polygon/MultiPolygon rings from a parsed GeoJSON object (Feature, FeatureCollection or geometry). */
-export function polygonsFromGeoJson(data: unknown, file: string): PolygonRings[] {
-  const out: PolygonRings[] = [];
-  const visit = (g: unknown): void => {
-    const o = g as { type?: string; coordinates?: unknown; geometry?: unknown; features?: unknown[]; geometries?: unknown[] };
-    if (!o || typeof o !== "object") return;
-    if (o.type === "FeatureCollection" && Array.isArray(o.features)) o.features.forEach(visit);
-    else if (o.type === "Feature") visit(o.geometry);
-    else if (o.type === "GeometryCollection" && Array.isArray(o.geometries)) o.geometries.forEach(visit);
-    else if (o.type === "Polygon") out.push(o.coordinates as PolygonRings);
-    else if (o.type === "MultiPolygon") for (const p of o.coordinates as PolygonRings[]) out.push(p);
-  };
-  visit(data);
-  const ok = out.length > 0 && out.every((p) => Array.isArray(p) && p.every((ring) =>
-    Array.isArray(ring) && ring.length >= 4 && ring.every((pt) => Array.isArray(pt) && Number.isFinite(pt[0]) && Number.isFinite(pt[1]))
-  ));
-  if (!ok) {
-    throw new RbfieldError(
-      "the mask file holds no valid Polygon or MultiPolygon (RFC 7946 §3.1.6: closed rings of at least four [x, y] positions); " +
-        `give polygons in the points' coordinates, or use ${opt("mask")} hull or none`,
-      ExitCode.input,
-      { file },
-    );
-  }
-  return out;
-}
-
 export interface GridOptions extends GridLayoutOptions {
-  /** "hull" (default), "none", or polygons to keep. */
-  mask?: "hull" | "none" | PolygonRings[];
   progress?: (message: string) => void;
 }
 
@@ -154,6 +130,14 @@ export function startGrid(model: SurfaceModel, options: GridOptions = {}): { spe
   try {
     const values = new Float64Array(spec.cols * spec.rows);
     const mask = maskOpt === "none" ? undefined : polygonMask(spec, maskOpt === "hull" ? [[model.hull]] : maskOpt);
+    if (Array.isArray(maskOpt) && !mask!.includes(1)) {
+      throw new RbfieldError(
+        `the mask leaves no cell of the ${spec.cols} × ${spec.rows} grid (${coordinateText(spec.xmin, spec.cell)}, ${coordinateText(spec.ymin, spec.cell)} to ${coordinateText(spec.xmax, spec.cell)}, ${coordinateText(spec.ymax, spec.cell)}) unmasked: ` +
+          `its polygons miss the grid or are smaller than a cell; check them, ${opt("extent")} and ${opt("cell")}`,
+        ExitCode.input,
+        options.maskFile ? { file: options.maskFile } : undefined,
+      );
+    }
     return { spec, values, mask };
   } catch (e) {
     if (!(e instanceof RangeError)) throw e;

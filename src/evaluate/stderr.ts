@@ -22,12 +22,15 @@ import type { GlobalModel, SurfaceModel } from "../model/model.ts";
 import type { GridValues } from "../types.ts";
 import { makeEvaluator } from "./evaluate.ts";
 import { coordinateMapper, scaledCentres } from "./global.ts";
+import { localErrorEstimator } from "./local_stderr.ts";
 
 export interface ErrorEstimator {
   /** Standard error of the estimate at a map coordinate (value units; back-transformed for log fits). */
   at(x: number, y: number): number;
-  /** The process scale b (scaled units), for reports. */
+  /** The process scale b (scaled units), for reports (NaN for the local method, whose patches each have their own). */
   processScale: number;
+  /** Multiply-adds of one estimate, for choosing the error grid's stride (default N², the global method's). */
+  work?: number;
 }
 
 /**
@@ -39,6 +42,8 @@ export function makeErrorEstimator(model: SurfaceModel, factors?: GlobalFactors)
   switch (model.method) {
     case "global":
       return globalErrorEstimator(model, factors);
+    case "local":
+      return localErrorEstimator(model);
   }
 }
 
@@ -93,11 +98,12 @@ function globalErrorEstimator(model: GlobalModel, factors: GlobalFactors = refac
   return { at, processScale: b };
 }
 
-/** Work (cells × N²) above which the error grid is computed on a coarser lattice and interpolated. */
+/** Work (cells × the estimator's work per cell, N² for the global method) above which the error grid is computed on a coarser lattice and interpolated. */
 export const STDERR_FULL_WORK = 4e9;
 
 /**
- * Standard-error grid on the same cells and mask as a surface grid. When cells·N² exceeds
+ * Standard-error grid on the same cells and mask as a surface grid. When cells·N² (cells × the
+ * estimator's work per cell) exceeds
  * STDERR_FULL_WORK, errors are computed every `stride` cells in each direction and filled in
  * bilinearly (the error surface is smooth away from data points; the stride is reported).
  */
@@ -110,7 +116,7 @@ export function gridStandardError(
   const { spec } = surface;
   const n = model.points.x.length;
   const cells = spec.cols * spec.rows;
-  const stride = Math.max(1, Math.ceil(Math.sqrt((cells * n * n) / STDERR_FULL_WORK)));
+  const stride = Math.max(1, Math.ceil(Math.sqrt((cells * (est.work ?? n * n)) / STDERR_FULL_WORK)));
   const values = new Float64Array(cells).fill(NaN);
   const xc = (c: number) => spec.xmin + (c + 0.5) * spec.cell;
   const yc = (r: number) => spec.ymax - (r + 0.5) * spec.cell;

@@ -10,8 +10,21 @@ export type TrendChoice = TrendName | "auto";
  * RMSE is not grossly worse than the best's (see select.ts).
  */
 export type SelectRule = "one-se" | "loocv" | "gcv";
+/**
+ * Which fitting method: "global" one dense fit (at most MAX_GLOBAL_POINTS points), "local" overlapping
+ * patches blended by partition of unity (fit/local/), "auto" (default) local above LOCAL_AUTO_POINTS.
+ */
+export type MethodChoice = "auto" | "global" | "local";
 
 export interface FitOptions {
+  /** Fitting method; default "auto" (the local method above LOCAL_AUTO_POINTS points). */
+  method?: MethodChoice;
+  /** Local method: points per patch; every patch disc is grown to hold at least this many (default 150). */
+  patchPoints?: number;
+  /** Local method: a cell of the 2-d tree is split while it holds more points than this (default patchPoints/3). */
+  leafPoints?: number;
+  /** Local method: patch disc radius as a multiple of its tree cell's half-diagonal, > 1 (default 1.4). */
+  overlap?: number;
   /** Basis function, or "auto" to rank every kernel (the default). */
   kernel?: KernelChoice;
   /** Shape ε in 1/map units (φ(ε r)), or "auto" to choose it by GCV; default auto. */

@@ -1,7 +1,8 @@
-// fitSurface: from clean points to a saved-model record. Prepares the data, ranks the candidate
-// models (select.ts), fits the chosen one to every point (robustly when asked), computes leave-one-out
-// residuals and the blunder test, and records the data's extent and hull.
-import { ExitCode, RbfieldError } from "../errors.ts";
+// fitSurface: from clean points to a saved-model record. Prepares the data, chooses the method (the
+// global dense fit, or above LOCAL_AUTO_POINTS the local partition-of-unity method in fit/local/),
+// ranks the candidate models (select.ts), fits the chosen one to every point (robustly when asked),
+// computes leave-one-out residuals and the blunder test, and records the data's extent and hull.
+import { ExitCode, opt, RbfieldError } from "../errors.ts";
 import { runWorker, workersAvailable } from "../workers.ts";
 import { boundingBox, convexHullRing, medianSpacing } from "../geometry.ts";
 import { MODEL_FORMAT, MODEL_VERSION, type SurfaceModel } from "../model/model.ts";
@@ -11,13 +12,15 @@ import { type CandidateScore, type FittedCandidate, fitOne, type KernelGroup, ra
 import { type GlobalFactors, trendProblem } from "./core.ts";
 import { influenceDiagonal, leaveOneOutResiduals } from "./influence.ts";
 import { hasShape } from "./kernels.ts";
-import type { FitOptions, SelectRule } from "./options.ts";
+import { fitLocal, fitLocalParallel, LOCAL_AUTO_POINTS, type LocalInput } from "./local/local.ts";
+import type { FitOptions, MethodChoice, SelectRule } from "./options.ts";
 import { prepareData, type Prepared, subsampleIndices, subsamplePrepared } from "./prepare.ts";
 import { robustFit, type RobustResult } from "./robust.ts";
 import { candidateList, chooseCandidate, kernelGroups, type SelectionOutcome } from "./select.ts";
 
 export type { CandidateScore, KernelGroup } from "./candidate.ts";
-export type { TrendChoice, FitOptions, KernelChoice, SelectRule } from "./options.ts";
+export type { TrendChoice, FitOptions, KernelChoice, MethodChoice, SelectRule } from "./options.ts";
+export { LOCAL_AUTO_POINTS } from "./local/local.ts";
 export type { Prepared } from "./prepare.ts";
 export { convexHullRing, medianSpacing };
 
@@ -28,8 +31,11 @@ export const RANK_SUBSAMPLE = 500;
 /** Robustness weight below which a point is listed as down-weighted. */
 const DOWNWEIGHTED = 0.5;
 
-/** Everything settled before the candidates are ranked: options, prepared data, candidates. */
+/** Everything settled before the candidates are ranked: options, prepared data, candidates, method. */
 interface FitPlan {
+  method: "global" | "local";
+  /** Which method runs and why, in words (stored in the model's diagnostics). */
+  methodChoice: string;
   points: CleanPoints;
   options: FitOptions;
   prep: Prepared;
@@ -45,11 +51,12 @@ interface FitPlan {
 
 /**
  * A fitted model with the factors of its system, handed on so that later stages (standard errors)
- * need not factorise again. Models read from a file have no factors.
+ * need not factorise again. Models read from a file, and local models (whose standard errors
+ * refactorise each patch when first needed), have none.
  */
 export interface FittedModel {
   model: SurfaceModel;
-  factors: GlobalFactors;
+  factors?: GlobalFactors;
 }
 
 /** Fit the surface and build the model record. */
@@ -60,6 +67,7 @@ export function fitSurface(points: CleanPoints, options: FitOptions = {}): Surfa
 /** fitSurface, also returning the factors of the final fit. */
 export function fitSurfaceWithFactors(points: CleanPoints, options: FitOptions = {}): FittedModel {
   const plan = planFit(points, options);
+  if (plan.method === "local") return { model: fitLocal(localInput(plan)) };
   return finishFit(plan, rankHere(plan));
 }
 
@@ -74,6 +82,7 @@ export async function fitSurfaceParallel(points: CleanPoints, options: FitOption
 /** fitSurfaceParallel, also returning the factors of the final fit. */
 export async function fitSurfaceParallelWithFactors(points: CleanPoints, options: FitOptions = {}, threads = navigator.hardwareConcurrency || 1): Promise<FittedModel> {
   const plan = planFit(points, options);
+  if (plan.method === "local") return { model: await fitLocalParallel(localInput(plan), threads) };
   if (plan.candidates.length <= 1 || !workersAvailable(threads)) return finishFit(plan, rankHere(plan));
   const groups = kernelGroups(plan.candidates);
   // Greedy split by cost (a shape search costs about three fixed-shape fits).
@@ -109,6 +118,38 @@ function rankHere(plan: FitPlan): SelectionOutcome | null {
   return rankAll(plan, (g) => rankGroup(plan.rankData, g, plan.shapeOpt, plan.smoothing, plan.options.progress));
 }
 
+/** The local method's input: the settled options and prepared data. */
+function localInput(plan: FitPlan): LocalInput {
+  const { points, options, prep, candidates, shapeOpt, smoothing, select, transform, methodChoice } = plan;
+  const trendOpt = options.trend ?? ((options.kernel ?? "auto") === "auto" ? "auto" : "linear");
+  return { points, options, prep, trendOpt, candidates, shapeOpt, smoothing, select, transform, methodChoice };
+}
+
+/**
+ * Which method runs: as asked, or with "auto" the local method above LOCAL_AUTO_POINTS points (where
+ * it is faster than the global method at about the same accuracy; measured, see DEVELOPERS.md).
+ * The global method refuses more than MAX_GLOBAL_POINTS points.
+ */
+function chooseMethod(n: number, asked: MethodChoice): { method: "global" | "local"; why: string } {
+  if (asked !== "auto" && asked !== "global" && asked !== "local") {
+    throw new RbfieldError(`method must be auto, global or local, not ${String(asked)}`, ExitCode.usage, undefined, "method");
+  }
+  const count = n.toLocaleString("en");
+  const limit = LOCAL_AUTO_POINTS.toLocaleString("en");
+  if (asked === "global" && n > MAX_GLOBAL_POINTS) {
+    throw new RbfieldError(
+      `${count} points are more than the global method takes (${MAX_GLOBAL_POINTS.toLocaleString("en")}; its cost grows as N³ ` +
+        `and its memory as N²); use ${opt("method")} local or auto, or thin the points first`,
+      ExitCode.numerical,
+    );
+  }
+  if (asked === "global") return { method: "global", why: "global method, as asked" };
+  if (asked === "local") return { method: "local", why: "local method (partition of unity), as asked" };
+  return n > LOCAL_AUTO_POINTS
+    ? { method: "local", why: `local method (partition of unity): ${count} points are more than ${limit}, above which it is faster than the global method at about the same accuracy` }
+    : { method: "global", why: `global method: ${count} points, at most ${limit} (above that the local method runs)` };
+}
+
 /** Validate the options and prepare the data. */
 function planFit(points: CleanPoints, options: FitOptions): FitPlan {
   const kernelOpt = options.kernel ?? "auto";
@@ -119,13 +160,7 @@ function planFit(points: CleanPoints, options: FitOptions): FitPlan {
   const transform = options.transform ?? "none";
   const n = points.x.length;
   if (n < 3) throw new RbfieldError(`${n} usable points are too few to fit a surface: at least 3 are needed`, ExitCode.input);
-  if (n > MAX_GLOBAL_POINTS) {
-    throw new RbfieldError(
-      `${n.toLocaleString("en")} points are more than the global method takes (${MAX_GLOBAL_POINTS.toLocaleString("en")}; its cost grows as N³ ` +
-        "and its memory as N²); thin the points first, for example by averaging them within cells of a few metres",
-      ExitCode.numerical,
-    );
-  }
+  const { method, why: methodChoice } = chooseMethod(n, options.method ?? "auto");
   if (kernelOpt !== "auto" && trendOpt !== "auto") {
     const problem = trendProblem(kernelOpt, trendOpt);
     if (problem) throw new RbfieldError(problem, ExitCode.usage);
@@ -138,9 +173,9 @@ function planFit(points: CleanPoints, options: FitOptions): FitPlan {
   const candidates = candidateList(kernelOpt, trendOpt);
   if (candidates.length === 0) throw new RbfieldError(`no kernel supports ${trendOpt} trend here`, ExitCode.usage);
   const prep = prepareData(points, { ...options, transform });
-  const idx = candidates.length > 1 && n > RANK_SUBSAMPLE ? subsampleIndices(n, RANK_SUBSAMPLE) : null;
+  const idx = method === "global" && candidates.length > 1 && n > RANK_SUBSAMPLE ? subsampleIndices(n, RANK_SUBSAMPLE) : null;
   const rankData = idx ? subsamplePrepared(prep, idx) : prep;
-  return { points, options, prep, candidates, rankData, rankedOnSubsample: idx !== null, shapeOpt, smoothing, select, transform };
+  return { method, methodChoice, points, options, prep, candidates, rankData, rankedOnSubsample: idx !== null, shapeOpt, smoothing, select, transform };
 }
 
 /** Score all groups (scores from `score`) and apply the selection rule. */
@@ -279,6 +314,7 @@ function finishFit(plan: FitPlan, outcome: SelectionOutcome | null): FittedModel
         : null,
       warnings,
       gcvCurve: fit.curve,
+      methodChoice: plan.methodChoice,
     },
     extent,
     hull,

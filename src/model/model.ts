@@ -3,8 +3,10 @@
 import { ExitCode, inputError, RbfieldError } from "../errors.ts";
 import { KERNELS, TRENDS } from "../fit/kernels.ts";
 import { checkGlobalPart, type GlobalPart } from "./global.ts";
+import { checkLocalPart, type LocalPart } from "./local.ts";
 import { COORDINATE_LIMIT, VALUE_LIMIT } from "../numbers.ts";
-import type { Crs, TrendName, KernelName } from "../types.ts";
+import { jsonErrorPlace } from "../json_syntax.ts";
+import type { Crs, PointText, TrendName, KernelName } from "../types.ts";
 
 export const MODEL_FORMAT = "rbfield-model";
 export const MODEL_VERSION = 2;
@@ -69,13 +71,54 @@ export interface ModelDiagnostics {
   /** The robust fit (--robust): passes, whether it settled, and the input lines down-weighted below 0.5, lowest first. */
   robust: { passes: number; converged: boolean; downweighted: number[] } | null;
   warnings: string[];
-  /** GCV curve over λ. */
+  /** GCV curve over λ (empty for the local method, whose λ is chosen per patch). */
   gcvCurve: { lambda: number; gcv: number; edf: number }[];
+  /** Which method made the surface and why (absent in files written before the local method). */
+  methodChoice?: string;
+  /** The local method's figures (local models only). */
+  local?: LocalDiagnostics;
+}
+
+/** What the local (partition-of-unity) method reports about its patches. */
+export interface LocalDiagnostics {
+  patches: number;
+  /** Settings: patch discs grown to hold at least patchPoints points; 2-d tree cells split above leafPoints; disc radius = overlap × cell half-diagonal. */
+  patchPoints: number;
+  leafPoints: number;
+  overlap: number;
+  pointsPerPatch: { min: number; median: number; max: number };
+  /** λ of the patches, map-unit convention. */
+  lambda: { min: number; median: number; max: number };
+  /** RMSE of the blended leave-one-out residuals (exact for the blended surface with the patch λs fixed). */
+  loocvRmse: number;
+  /** Patches whose λ sits at the numerical floor, patches whose given λ was raised, patches enlarged because their points could not carry the model. */
+  heldAtFloor: number;
+  raised: number;
+  /**
+   * Patches whose GCV curve had several local minima and whose λ the exact leave-one-out error took
+   * from another minimum than GCV's lowest (near-coincident readings; fit/local/patch_fit.ts).
+   */
+  lambdaByLeaveOneOut: number;
+  enlarged: number;
+  /** Critical values of Pope's τ over the patches (each point is tested with its home patch's degrees of freedom). */
+  critical: { min: number; max: number } | null;
+  /**
+   * How kernel, trend and shape were chosen: every candidate ranked on `samples` patches, their
+   * leave-one-out errors pooled over those patches' `points`, the selection rule applied to the pooled
+   * scores (diagnostics.selection), the shape the median of the samples' shapes.
+   */
+  consensus: {
+    samples: number;
+    rule: string;
+    points: number;
+    /** The shapes (ε per map unit) the sample patches found for the chosen kernel; null when it has none or it was given. */
+    shapes: number[] | null;
+  } | null;
 }
 
 /** Fitting methods a model can come from; each stores its own part (see DEVELOPERS.md, "Model file"). */
-export type MethodName = "global";
-export const METHODS: readonly MethodName[] = ["global"];
+export type MethodName = "global" | "local";
+export const METHODS: readonly MethodName[] = ["global", "local"];
 
 /** What every model holds, whatever the method that made it. */
 export interface ModelBase {
@@ -102,9 +145,11 @@ export interface ModelBase {
   transform: "none" | "log";
   /**
    * Data after cleaning, in map units, with the input line of each point; `weight` the weights as
-   * fitted (normalised to mean 1), `robustWeight` the robustness weights of a robust fit (else null).
+   * fitted (normalised to mean 1), `robustWeight` the robustness weights of a robust fit (else null);
+   * `text` (optional, additive in version 2) the text columns carried with the points (point ids, codes,
+   * qualifiers), one string per point.
    */
-  points: { x: number[]; y: number[]; z: number[]; line: number[]; weight: number[] | null; robustWeight: number[] | null };
+  points: { x: number[]; y: number[]; z: number[]; line: number[]; weight: number[] | null; robustWeight: number[] | null; text?: PointText[] };
   /** Fitted value and leave-one-out residual z − f₍₋ᵢ₎(xᵢ) at every point, value units. */
   fitted: number[];
   loo: number[];
@@ -123,8 +168,14 @@ export interface GlobalModel extends ModelBase {
   global: GlobalPart;
 }
 
-/** A saved surface, whatever method made it (only "global" so far). */
-export type SurfaceModel = GlobalModel;
+/** A model made by the local (partition-of-unity) method: overlapping patches blended by Wendland weights. */
+export interface LocalModel extends ModelBase {
+  method: "local";
+  local: LocalPart;
+}
+
+/** A saved surface, whatever method made it. */
+export type SurfaceModel = GlobalModel | LocalModel;
 
 /** Serialise a model as pretty JSON (deterministic key order: as built). */
 export function modelToJson(model: SurfaceModel): string {
@@ -141,14 +192,8 @@ export function modelFromJson(text: string, file: string): SurfaceModel {
     if (!trimmed.startsWith("{")) {
       throw inputError("not an rbfield model file (not JSON); give the model file written by 'rbfield fit'", { file });
     }
-    const pos = /position (\d+)/.exec(String((e as Error).message));
-    const place = pos
-      ? (() => {
-        const offset = Number(pos[1]);
-        const before = text.slice(0, offset);
-        return { file, line: before.split("\n").length, column: offset - before.lastIndexOf("\n") };
-      })()
-      : { file };
+    const { line, column } = jsonErrorPlace(text, e);
+    const place = { file, line, column };
     throw inputError("not a valid rbfield model file (JSON syntax error; the file may be truncated): refit the points", place);
   }
   const m = data as Record<string, unknown>;
@@ -178,11 +223,16 @@ export function modelFromJson(text: string, file: string): SurfaceModel {
     throw bad("point weights are not positive numbers");
   }
   if (!Array.isArray(pts.line) || pts.line.length !== n) throw bad("point line numbers missing");
+  if (pts.text !== undefined && !(Array.isArray(pts.text) && pts.text.every((t) =>
+    t && typeof t === "object" && typeof t.name === "string" && typeof t.role === "string" && Array.isArray(t.values) &&
+    t.values.length === n && t.values.every((v) => typeof v === "string")
+  ))) throw bad("point texts are not one string per point");
   if (m.version !== 1 && pts.robustWeight !== null && !(finiteArray(pts.robustWeight, n) && pts.robustWeight.every((w) => w > 0 && w <= 1))) {
     throw bad("robustness weights are not numbers between 0 and 1");
   }
   if (!METHODS.includes(m.method as MethodName)) throw bad(`unknown method ${JSON.stringify(m.method)}`);
-  checkGlobalPart(m.global, n, m.trend as TrendName, bad);
+  if (m.method === "local") checkLocalPart(m.local, n, m.trend as TrendName, bad);
+  else checkGlobalPart(m.global, n, m.trend as TrendName, bad);
   const an = m.stretch as SurfaceModel["stretch"] | undefined;
   if (an !== null && an !== undefined) {
     if (typeof an !== "object" || ![an.azimuth, an.x0, an.y0].every((v) => finite(v) && Math.abs(v) <= COORDINATE_LIMIT) || !(finite(an.factor) && an.factor >= 1 && an.factor <= 1e6)) {

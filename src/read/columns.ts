@@ -4,7 +4,7 @@ import { ExitCode, inputError, opt, RbfieldError } from "../errors.ts";
 import { messageText } from "../text.ts";
 import type { ColumnFound, SourcePlace, TypedTable } from "../types.ts";
 import { looksNumeric } from "./cells.ts";
-import { isIdentifierName, LAT_NAMES, LON_NAMES, normalizeName, X_NAMES, Y_NAMES, Z_NAMES } from "./names.ts";
+import { isCodeName, isDetectionLimitName, isIdentifierName, LAT_NAMES, LON_NAMES, normalizeName, X_NAMES, Y_NAMES, Z_NAMES } from "./names.ts";
 import type { ReadOptions } from "./reader.ts";
 
 export interface ChoiceContext {
@@ -35,36 +35,15 @@ const POSITION = /^\d+$/;
  * a number wins over the position only when it equals the option exactly.
  */
 export function chooseColumns(columns: string[], rows: string[][], options: ReadOptions, ctx: ChoiceContext): Choice {
-  const shown = columns.slice(0, 20).map((c) => `'${messageText(c, 40)}'`);
-  if (columns.length > 20) shown.push(`and ${columns.length - 20} more`);
-  const list = shown.join(", ");
+  const list = columnList(columns);
   const place = { file: ctx.file, line: ctx.headerLine };
   const needValue = options.needValue ?? true;
   if (!ctx.hasHeader) refuseUnnamed(options, needValue, ctx, place);
 
   const named = (flag: Flag): { j: number; how: ColumnFound } => {
-    const want = options[flag]!.trim();
-    const exact = columns.findIndex((c) => c.toLowerCase() === want.toLowerCase());
-    if (exact >= 0) return { j: exact, how: ctx.hasHeader ? "named" : "position" };
-    if (POSITION.test(want)) {
-      const p = Number(want);
-      if (p >= 1 && p <= columns.length) return { j: p - 1, how: "position" };
-      throw new RbfieldError(
-        `${opt(flag)} ${messageText(want, 20)}: there is no column at that position; the ${columns.length} columns, ` +
-          `numbered from 1, are: ${list}`,
-        ExitCode.input,
-        place,
-        flag,
-      );
-    }
-    const j = columns.findIndex((c) => normalizeName(c) === normalizeName(want));
-    if (j < 0) {
-      throw inputError(
-        `${opt(flag)} column '${messageText(want, 40)}' not found; the columns are: ${list} (names are matched ignoring case)`,
-        place,
-      );
-    }
-    return { j, how: "named" };
+    const j = columnByOption(columns, options[flag]!, flag, place);
+    const byPosition = !ctx.hasHeader || (POSITION.test(options[flag]!.trim()) && columns[j].toLowerCase() !== options[flag]!.trim().toLowerCase());
+    return { j, how: byPosition ? "position" : "named" };
   };
   const byName = (names: string[], allowed: (j: number) => boolean): number => {
     for (const name of names) {
@@ -110,7 +89,8 @@ export function chooseColumns(columns: string[], rows: string[][], options: Read
     if (z.j < 0 && ctx.zDefault !== undefined && ctx.zDefault >= 0) z = { j: ctx.zDefault, how: "coordinate" };
     if (z.j < 0 && needValue && ctx.numericFallback) {
       const j = columns.findIndex((c, k) =>
-        free(k) && candidates.has(k) && !isIdentifierName(c) && looksNumeric(rows, k, ctx.decimalComma)
+        // Laboratory values count as numbers; a column of detection limits is never the value.
+        free(k) && candidates.has(k) && !isIdentifierName(c) && !isDetectionLimitName(c) && looksNumeric(rows, k, ctx.decimalComma, true)
       );
       z = { j, how: "first numeric" };
     }
@@ -130,6 +110,78 @@ export function chooseColumns(columns: string[], rows: string[][], options: Read
     columnChoice: anyNamed ? "named" : "detected",
     chosenBy: { x: x.how, y: y.how, z: z.how },
   };
+}
+
+/**
+ * The point id and description code columns (-1 when there is none): as named by the options (by
+ * name or position), else the code is the first column named code, desc or description and the id
+ * the first other column with an identifier name (id, point, pt, name, station … in names.ts). Never
+ * the x, y or value column. A file without a header row has no names, so only named columns count.
+ */
+export function chooseTextColumns(
+  table: Pick<TypedTable, "file" | "columns" | "xColumn" | "yColumn" | "zColumn">,
+  options: { id?: string; code?: string },
+): { id: number; code: number } {
+  const place = { file: table.file };
+  const taken = [table.xColumn, table.yColumn, table.zColumn];
+  const pick = (option: "id" | "code", found: (name: string, j: number) => boolean): number => {
+    const named = options[option];
+    if (named === undefined) return table.columns.findIndex((c, j) => !taken.includes(j) && found(c, j));
+    const j = columnByOption(table.columns, named, option, place);
+    if (taken.includes(j)) {
+      throw new RbfieldError(
+        `${opt(option)} '${messageText(named, 40)}' is the x, y or value column; name the column of ${option === "id" ? "point ids" : "codes"}`,
+        ExitCode.input,
+        place,
+        option,
+      );
+    }
+    return j;
+  };
+  const code = pick("code", (c) => isCodeName(c));
+  const id = pick("id", (c, j) => j !== code && isIdentifierName(c) && !isCodeName(c));
+  return { id, code };
+}
+
+/** "'a', 'b', …" for messages: the first 20 column names. */
+function columnList(columns: string[]): string {
+  const shown = columns.slice(0, 20).map((c) => `'${messageText(c, 40)}'`);
+  if (columns.length > 20) shown.push(`and ${columns.length - 20} more`);
+  return shown.join(", ");
+}
+
+/**
+ * The 0-based index of the column an option names (the rule of every option that takes a column:
+ * --x, --y, --z, --weight, --id, --code, --where …): its name ignoring case, then ignoring spaces,
+ * underscores and units in brackets, or its 1-based position; a column name that is a number wins
+ * over the position only when it equals the option exactly. An error names the option and lists
+ * the columns.
+ */
+export function columnByOption(columns: string[], wanted: string, option: string, place: SourcePlace): number {
+  const want = wanted.trim();
+  const exact = columns.findIndex((c) => c.toLowerCase() === want.toLowerCase());
+  if (exact >= 0) return exact;
+  if (POSITION.test(want)) {
+    const p = Number(want);
+    if (p >= 1 && p <= columns.length) return p - 1;
+    throw new RbfieldError(
+      `${opt(option)} ${messageText(want, 20)}: there is no column at that position; the ${columns.length} columns, ` +
+        `numbered from 1, are: ${columnList(columns)}`,
+      ExitCode.input,
+      place,
+      option,
+    );
+  }
+  const j = columns.findIndex((c) => normalizeName(c) === normalizeName(want));
+  if (j < 0) {
+    throw new RbfieldError(
+      `${opt(option)} column '${messageText(want, 40)}' not found; the columns are: ${columnList(columns)} (names are matched ignoring case)`,
+      ExitCode.input,
+      place,
+      option,
+    );
+  }
+  return j;
 }
 
 /**

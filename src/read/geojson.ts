@@ -139,7 +139,7 @@ function cellText(v: unknown): string {
 }
 
 /** EPSG code from a GeoJSON 2008 "crs" member (RFC 7946 dropped it, but files still carry it). */
-function readCrs(crs: unknown): Crs | undefined {
+export function readCrs(crs: unknown): Crs | undefined {
   let name: unknown = crs;
   if (crs && typeof crs === "object") {
     const props = (crs as { properties?: Record<string, unknown> }).properties;

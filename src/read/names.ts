@@ -12,9 +12,20 @@ export const Z_NAMES = [
   "h", "val", "reading", "concentration", "head",
 ];
 const ID_NAMES = new Set([
-  "id", "fid", "oid", "objectid", "pointid", "ptid", "pt", "point", "no", "num", "number",
-  "index", "idx", "name", "label", "station", "site", "code",
+  "id", "fid", "oid", "objectid", "pointid", "ptid", "pt", "point", "pointno", "pointnumber", "ptno", "ptnum", "no", "num", "number",
+  "index", "idx", "name", "label", "station", "site", "code", "desc", "descr", "description",
 ]);
+/** Description codes of survey shots (GS, KB …): the code column named in blunder flags. */
+export const CODE_NAMES = ["code", "desc", "descr", "description"];
+/**
+ * Columns of laboratory detection limits: DL, LOD (limit of detection), MDL (method detection
+ * limit), reporting limit, LOQ/PQL (quantitation limits), NWG and BG (German Nachweis- and
+ * Bestimmungsgrenze). Not "RL": surveyors use it for the reduced level (a value column).
+ */
+export const DETECTION_LIMIT_NAMES = [
+  "dl", "detectionlimit", "lod", "limitofdetection", "mdl", "methoddetectionlimit", "reportinglimit",
+  "loq", "pql", "nwg", "nachweisgrenze", "bg", "bestimmungsgrenze",
+];
 
 /** Lower case, without units in brackets, spaces, underscores or hyphens. */
 export function normalizeName(name: string): string {
@@ -25,4 +36,14 @@ export function normalizeName(name: string): string {
 /** A name of point numbers, labels or codes ("Point ID", "code", "station"…). */
 export function isIdentifierName(name: string): boolean {
   return ID_NAMES.has(normalizeName(name));
+}
+
+/** A name of description codes ("code", "desc", "Description"). */
+export function isCodeName(name: string): boolean {
+  return CODE_NAMES.includes(normalizeName(name));
+}
+
+/** A name of a detection-limit column ("DL", "LOD", "Nachweisgrenze" …). */
+export function isDetectionLimitName(name: string): boolean {
+  return DETECTION_LIMIT_NAMES.includes(normalizeName(name));
 }

@@ -9,6 +9,7 @@ import { renderReport, type ReportInput } from "./report.ts";
 import { estimatesCsv } from "./csv.ts";
 import { encodeGeoTiff } from "./geotiff.ts";
 import { residualsCsv } from "./residuals.ts";
+import { type DuplicateGroup, duplicatesCsv, type SkippedEntry, skippedCsv } from "./tables.ts";
 
 /** Everything a run has computed, which the outputs render. */
 export interface RunProducts {
@@ -20,6 +21,8 @@ export interface RunProducts {
   /** The locations table and the columns added to it. */
   estimates: { table: PointTable; columns: { name: string; values: Float64Array | number[] | string[]; digits?: number }[] };
   summary: string;
+  /** Every skipped input row, and every group of coincident points merged. */
+  input: { skipped: SkippedEntry[]; duplicates: DuplicateGroup[] };
   /** The map's input (surface, contours, points, title block) and the report's extra parts. */
   map: MapInput;
   report: Omit<ReportInput, "model" | "map">;
@@ -48,6 +51,8 @@ export const RUN_OUTPUTS: readonly OutputWriter[] = [
   { key: "bands", file: "bands.geojson", label: "bands", render: (p) => p.bands },
   { key: "estimates", file: "estimates.csv", label: "estimates", render: (p) => estimatesCsv(p.estimates.table, p.estimates.columns) },
   { key: "residuals", file: "residuals.csv", label: "residuals", render: (p) => residualsCsv(p.model) },
+  { key: "skipped", file: "skipped.csv", label: "skipped", render: (p) => skippedCsv(p.input.skipped) },
+  { key: "duplicates", file: "duplicates.csv", label: "duplicates", render: (p) => duplicatesCsv(p.input.duplicates) },
   { key: "map", file: "map.pdf", label: "map", render: (p) => mapToPdf(renderMap(p.map, RUN_MAP_OPTIONS), { creationDate: new Date(`${p.date}T00:00:00Z`) }) },
   { key: "report", file: "report.html", label: "report", render: (p) => renderReport({ model: p.model, map: p.map, ...p.report }) },
   // Not "summary.txt": GDAL reads a file of that name beside a GeoTIFF as satellite (ALOS) metadata.
@@ -59,8 +64,15 @@ export function fileListLines(files: Record<string, string>): string[] {
   return ["Files:", ...RUN_OUTPUTS.map((o) => `  ${o.label.padEnd(11)}${files[o.key]}`)];
 }
 
-/** The output file names joined for help texts: "a, b, … and z". */
-export function outputNamesText(): string {
+/** The output file names joined for help texts: "a, b, … and z", in lines of at most `width` characters. */
+export function outputNamesText(width = 100): string {
   const names = RUN_OUTPUTS.map((o) => o.file);
-  return `${names.slice(0, -1).join(", ")} and ${names.at(-1)}`;
+  const words = `${names.slice(0, -1).join(", ")} and ${names.at(-1)}`.split(" ");
+  const lines = [""];
+  for (const w of words) {
+    const last = lines.length - 1;
+    if (lines[last] && lines[last].length + 1 + w.length > width) lines.push(w);
+    else lines[last] = lines[last] ? `${lines[last]} ${w}` : w;
+  }
+  return lines.join("\n");
 }

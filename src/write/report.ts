@@ -4,6 +4,7 @@
 // input (file and column names, CRS text, skipped-row reasons, warnings) is escaped.
 import { createHash } from "node:crypto";
 import { CAUTION } from "../caution.ts";
+import { printable } from "../errors.ts";
 import type { SurfaceModel } from "../model/model.ts";
 import type { GridValues, MergedGroup, SkippedRow } from "../types.ts";
 import { contoured, finiteRange, type MapInput, type MapOptions, renderMap } from "./map.ts";
@@ -204,15 +205,18 @@ export function renderReport(input: ReportInput): string {
     : `|standardised leave-one-out residual| above ${sig(f.critical, 3)}.`;
   const flaggedIdx = pts.line.map((l, i) => (flaggedLines.has(l) ? i : -1)).filter((i) => i >= 0);
   const dx = (v: number) => esc(formatFixed(v, 3, "-"));
+  // Point ids and codes, where the input had them: surveyors find shots by point number.
+  const named = (pts.text ?? []).filter((t) => t.role === "id" || t.role === "code");
   sections.push({
     id: "flagged",
     title: "Possible blunders",
     html: `<p class="note">${esc(test)} Flagged points are kept in the fit: check them in the field book, correct or remove them, and refit.</p>` +
       (flaggedIdx.length
         ? table(
-          ["input line", "x", "y", "reading", "fitted", `leave-one-out residual${ruText}`, "τ"],
+          ["input line", ...named.map((t) => (t.role === "id" ? "point" : "code")), "x", "y", "reading", "fitted", `leave-one-out residual${ruText}`, "τ"],
           flaggedIdx.map((i) => [
             String(pts.line[i]),
+            ...named.map((t) => esc(printable(t.values[i]).slice(0, 40))),
             dx(pts.x[i]),
             dx(pts.y[i]),
             esc(sig(pts.z[i], 6)),
@@ -220,7 +224,7 @@ export function renderReport(input: ReportInput): string {
             esc(sig(loo[i], 3)),
             esc(sig(model.looStandardised[i], 3)),
           ]),
-          [true, true, true, true, true, true, true],
+          [true, ...named.map(() => false), true, true, true, true, true, true],
         )
         : "<p>No point is flagged.</p>"),
   });

@@ -40,6 +40,27 @@ export function contourText(rule: LevelRule, levels: number): string {
 }
 
 
+/**
+ * How people find a point: "point 1047 (code GS, line 52)" with a point id, "line 52 (code GS)" with a
+ * code only, "line 52" otherwise (README "Points": the id and code columns).
+ */
+export function pointLabel(model: SurfaceModel, i: number): string {
+  const texts = model.points.text ?? [];
+  const text = (role: string) => {
+    const t = texts.find((c) => c.role === role)?.values[i]?.trim();
+    return t ? printableText(t).slice(0, 40) : undefined;
+  };
+  const id = text("id"), code = text("code"), line = `line ${model.points.line[i]}`;
+  if (id !== undefined) return `point ${id} (${code !== undefined ? `code ${code}, ` : ""}${line})`;
+  return code !== undefined ? `${line} (code ${code})` : line;
+}
+
+/** pointLabel of the point at an input line (the flags and robust lists hold lines). */
+function labelOfLine(model: SurfaceModel): (line: number) => string {
+  const at = new Map(model.points.line.map((l, i) => [l, i]));
+  return (line) => (at.has(line) ? pointLabel(model, at.get(line)!) : `line ${line}`);
+}
+
 /** Lines describing the model and its diagnostics. */
 export function modelSummaryLines(model: SurfaceModel): string[] {
   const d = model.diagnostics;
@@ -53,7 +74,11 @@ export function modelSummaryLines(model: SurfaceModel): string[] {
     const byText = sel.by === "gcv" ? "GCV score" : sel.by === "loocv" ? "leave-one-out RMSE" : "leave-one-out RMSE, simplest within one standard error of the best";
     lines.push(
       `Selection: ${sel.ranking.length} candidate models ranked by ${byText}` +
-        (sel.onSubsample ? ` on a ${sel.onSubsample}-point subsample` : "") + " (best first):",
+        (sel.onSubsample
+          ? model.method === "local" && d.local?.consensus
+            ? ` on the ${sel.onSubsample} points of ${d.local.consensus.samples} sample patches (leave-one-out errors pooled)`
+            : ` on a ${sel.onSubsample}-point subsample`
+          : "") + " (best first):",
     );
     lines.push("  kernel                trend      shape ε     λ           edf      GCV         LOO RMSE ± SE         note");
     for (const c of sel.ranking) {
@@ -78,6 +103,18 @@ export function modelSummaryLines(model: SurfaceModel): string[] {
     }
   }
   lines.push(`Model: ${KERNEL_TABLE[model.kernel].text}, ${model.trend} trend, ${d.n} points`);
+  if (d.methodChoice) lines.push(`  ${d.methodChoice}`);
+  if (d.local) {
+    const l = d.local;
+    lines.push(
+      `  ${l.patches} patches of ${l.pointsPerPatch.min}–${l.pointsPerPatch.max} points (median ${fmt(l.pointsPerPatch.median)}) blended with Wendland weights; ` +
+        `λ by GCV in each patch from ${fmt(l.lambda.min)} to ${fmt(l.lambda.max)} (the λ below is their median)`,
+    );
+    if (l.lambdaByLeaveOneOut) {
+      lines.push(`  ${l.lambdaByLeaveOneOut} patches had two GCV minima (near-coincident readings); their λ was taken where the leave-one-out error is smaller`);
+    }
+    lines.push("  blunder test: Pope's τ of each point in its nearest patch, at the survey-wide level (not iterated)");
+  }
   if (model.transform === "log") {
     lines.push("  values fitted as ln z; estimates back-transformed as exp(f + σ²/2) (lognormal bias correction); σ, GCV and residuals are in log units");
   }
@@ -99,7 +136,7 @@ export function modelSummaryLines(model: SurfaceModel): string[] {
   if (order.length > 0) {
     lines.push(
       "  largest leave-one-out residuals: " +
-        order.map((i) => `line ${model.points.line[i]}: ${model.loo[i] >= 0 ? "+" : ""}${fmt(model.loo[i], 3)}`).join("; "),
+        order.map((i) => `${pointLabel(model, i)}: ${model.loo[i] >= 0 ? "+" : ""}${fmt(model.loo[i], 3)}`).join("; "),
     );
   }
   lines.push(...blunderLines(model));
@@ -123,19 +160,25 @@ function blunderLines(model: SurfaceModel): string[] {
   const d = model.diagnostics;
   const f = d.flags;
   const lines: string[] = [];
-  const list = (l: number[]) => `${l.slice(0, 10).join(", ")}${l.length > 10 ? `, … (${l.length} in all)` : ""}`;
+  const label = labelOfLine(model);
+  const named = (model.points.text ?? []).some((t) => t.role === "id" || t.role === "code");
+  // With point ids or codes each point is its label, separated by semicolons; else line numbers.
+  const list = (l: number[]) =>
+    named
+      ? `${l.slice(0, 10).map(label).join("; ")}${l.length > 10 ? `; … (${l.length} in all)` : ""}`
+      : `lines ${l.slice(0, 10).join(", ")}${l.length > 10 ? `, … (${l.length} in all)` : ""}`;
   if (f.critical === null) return ["  no blunder test: too few points are left over after the trend for Pope's tau test"];
   const test = f.test === "tau"
     ? `Pope's tau test on studentised leave-one-out residuals, ${fmt(100 * f.level!)}% false-alarm rate for the whole survey, critical value ${fmt(f.critical, 3)}`
     : `|standardised leave-one-out residual| > ${fmt(f.critical)}`;
   if (f.lines.length) {
-    lines.push(`  possible blunders (${test}): lines ${list(f.lines)}`);
+    lines.push(`  possible blunders (${test}): ${list(f.lines)}`);
     if (!d.robust) lines.push("  check them in the field book; --robust refits with blunders down-weighted");
   } else lines.push(`  no possible blunder (${test})`);
   if (d.robust) {
     lines.push(
       `  robust fit (Tukey's biweight, ${d.robust.passes} passes): ` +
-        (d.robust.downweighted.length ? `down-weighted below 0.5: lines ${list(d.robust.downweighted)}` : "no point down-weighted below 0.5"),
+        (d.robust.downweighted.length ? `down-weighted below 0.5: ${list(d.robust.downweighted)}` : "no point down-weighted below 0.5"),
     );
   }
   return lines;

@@ -1,0 +1,248 @@
+// The local method's evaluator: f(x) = Σⱼ ψⱼ(x) fⱼ(x) / Σⱼ ψⱼ(x) over the patches whose disc holds x
+// (partition of unity with Shepard normalisation, Wendland's C² ψ; see fit/local/patches.ts). The
+// model is packed into typed arrays (what worker threads receive); the evaluator builds a flatbush
+// index of the patch discs from the packed form, so the main thread and the workers run the same
+// code on the same numbers. The covering patches are summed in ascending patch order, so every
+// value is the same whichever thread computes it.
+//
+// Beyond the data's bounding box the discs thin out and their union has corners, where a plain
+// partition of unity jumps between patches. Every place of the bounding box lies within the fraction
+// c = 1/overlap of some patch's radius (`coverage`); where the smallest relative distance τ(x) =
+// minⱼ ‖x − cⱼ‖/ρⱼ exceeds c, all discs are enlarged by the same factor τ(x)/c, so the nearest
+// patch reaches x at relative distance c. The weights are continuous in x (τ is), equal the plain
+// ones wherever τ ≤ c (every data point and the whole bounding box), and never all vanish.
+import type Flatbush from "flatbush";
+import { discIndex, wendlandOfSquared } from "../fit/local/patches.ts";
+import { trendRow, trendTerms } from "../fit/kernels.ts";
+import type { LocalModel } from "../model/model.ts";
+import type { KernelName } from "../types.ts";
+import { coordinateMapper, type Evaluator, evaluatorOfRaw, mappedPoints } from "./global.ts";
+
+/** The local model as typed arrays and a few numbers: all its evaluator needs. */
+export interface PackedLocal {
+  method: "local";
+  kernel: KernelName;
+  /** Trend terms per patch. */
+  m: number;
+  scaling: { cx: number; cy: number; s: number };
+  stretch: LocalModel["stretch"];
+  /** exp(σ²/2) for log fits (lognormal bias correction), else 0 (no back-transform). */
+  logBias: number;
+  /** Relative distance within which every place of the bounding box is covered (1/overlap). */
+  coverage: number;
+  /** Per patch: disc centre and radius (global scaled frame), value centring and scale, ε². */
+  cu: Float64Array;
+  cv: Float64Array;
+  radius: Float64Array;
+  zc: Float64Array;
+  zs: Float64Array;
+  e2: Float64Array;
+  /** Compressed rows: patch j's members are start[j] … start[j+1]). */
+  start: Int32Array;
+  /** Per member: position in its patch's own frame ((u − cⱼ)/ρⱼ) and RBF weight. */
+  pu: Float64Array;
+  pv: Float64Array;
+  w: Float64Array;
+  /** m trend coefficients per patch. */
+  c: Float64Array;
+}
+
+/** Scaled coordinates (global frame) of the model's data points: the same arithmetic as the fit. */
+export function localCentres(model: LocalModel): { u: Float64Array; v: Float64Array } {
+  return mappedPoints(model.points, localMapper(model.local.scaling, model.stretch));
+}
+
+function localMapper(scaling: { cx: number; cy: number; s: number }, stretch: LocalModel["stretch"]) {
+  return coordinateMapper({ scaling: { ...scaling, zc: 0, zs: 1 }, stretch });
+}
+
+export function packLocal(model: LocalModel): PackedLocal {
+  const l = model.local;
+  const { u, v } = localCentres(model);
+  const p = l.radius.length;
+  const total = l.start[p];
+  const pu = new Float64Array(total), pv = new Float64Array(total);
+  for (let j = 0; j < p; j++) {
+    for (let k = l.start[j]; k < l.start[j + 1]; k++) {
+      const i = l.index[k];
+      pu[k] = (u[i] - l.cu[j]) / l.radius[j];
+      pv[k] = (v[i] - l.cv[j]) / l.radius[j];
+    }
+  }
+  return {
+    method: "local",
+    kernel: model.kernel,
+    m: trendTerms(model.trend),
+    scaling: { ...l.scaling },
+    stretch: model.stretch ? { ...model.stretch } : null,
+    logBias: model.transform === "log" ? Math.exp(0.5 * model.diagnostics.sigma ** 2) : 0,
+    coverage: l.coverage,
+    cu: Float64Array.from(l.cu),
+    cv: Float64Array.from(l.cv),
+    radius: Float64Array.from(l.radius),
+    zc: Float64Array.from(l.zc),
+    zs: Float64Array.from(l.zs),
+    e2: Float64Array.from(l.epsilonScaled, (e) => e * e),
+    start: Int32Array.from(l.start),
+    pu,
+    pv,
+    w: Float64Array.from(l.weights),
+    c: Float64Array.from(l.trendCoefficients),
+  };
+}
+
+/** The typed arrays of a packed local model, for postMessage transfer lists. */
+export function localBuffers(p: PackedLocal): ArrayBuffer[] {
+  return [p.cu, p.cv, p.radius, p.zc, p.zs, p.e2, p.start, p.pu, p.pv, p.w, p.c].map((a) => a.buffer as ArrayBuffer);
+}
+
+/** Which patches blend at a place, with their normalised weights (ascending patch order). */
+export interface Blender {
+  /** Map coordinates → global scaled frame. */
+  map(x: number, y: number, out: Float64Array): void;
+  /** Fill ids and weights (Σ = 1) of the patches blended at scaled (u, v); returns their number. */
+  cover(u: number, v: number): number;
+  ids: Int32Array;
+  weights: Float64Array;
+}
+
+export function makeBlender(p: Pick<PackedLocal, "cu" | "cv" | "radius" | "scaling" | "stretch" | "coverage">): Blender {
+  const { cu, cv, radius, coverage } = p;
+  const count = cu.length;
+  let largest = 0;
+  for (const r of radius) largest = Math.max(largest, r);
+  const c2 = coverage * coverage;
+  const index: Flatbush = discIndex(cu, cv, radius);
+  let ids = new Int32Array(16);
+  let weights = new Float64Array(16);
+  let found = 0;
+  const blender: Blender = {
+    map: localMapper(p.scaling, p.stretch),
+    ids,
+    weights,
+    cover(u, v) {
+      found = 0;
+      index.search(u, v, u, v, collect);
+      sortFound();
+      let total = 0;
+      let inside = 0;
+      let nearest = Infinity;
+      for (let a = 0; a < found; a++) {
+        const j = ids[a];
+        const du = u - cu[j], dv = v - cv[j];
+        const t = (du * du + dv * dv) / (radius[j] * radius[j]);
+        const psi = wendlandOfSquared(t);
+        nearest = Math.min(nearest, t);
+        if (psi > 0) {
+          ids[inside] = j;
+          weights[inside++] = psi;
+          total += psi;
+        }
+      }
+      found = inside;
+      if (found === 0 || nearest > c2) return enlarged(u, v);
+      for (let a = 0; a < found; a++) weights[a] /= total;
+      return found;
+    },
+  };
+  function collect(j: number): boolean {
+    if (found === ids.length) {
+      const more = new Int32Array(2 * ids.length);
+      more.set(ids);
+      ids = blender.ids = more;
+      const mw = new Float64Array(2 * weights.length);
+      mw.set(weights);
+      weights = blender.weights = mw;
+    }
+    ids[found++] = j;
+    return false;
+  }
+  function sortFound(): void {
+    for (let a = 1; a < found; a++) {
+      const x = ids[a];
+      let b = a - 1;
+      while (b >= 0 && ids[b] > x) {
+        ids[b + 1] = ids[b];
+        b--;
+      }
+      ids[b + 1] = x;
+    }
+  }
+  const ratioOf = (u: number, v: number, j: number) => Math.hypot(u - cu[j], v - cv[j]) / radius[j];
+  /** Weights with every disc enlarged by τ/c (see the top of this file). */
+  function enlarged(u: number, v: number): number {
+    if (count === 0) return 0;
+    // τ ≤ the ratio of the nearest disc by bounding box; a disc with ratio below τ/c has its box
+    // within (τ/c − 1)·ρmax of (u, v).
+    const bound = ratioOf(u, v, index.neighbors(u, v, 1)[0]);
+    const near = index.neighbors(u, v, Infinity, Math.max(0, (bound / coverage - 1) * largest) * (1 + 1e-12));
+    let tau = Infinity;
+    for (const j of near) tau = Math.min(tau, ratioOf(u, v, j));
+    const k = tau / coverage;
+    found = 0;
+    for (const j of near) if (ratioOf(u, v, j) < k) collect(j);
+    sortFound();
+    let total = 0;
+    for (let a = 0; a < found; a++) {
+      const x = wendlandOfSquared((ratioOf(u, v, ids[a]) / k) ** 2);
+      weights[a] = x;
+      total += x;
+    }
+    for (let a = 0; a < found; a++) weights[a] /= total;
+    return found;
+  }
+  return blender;
+}
+
+export function localEvaluator(p: PackedLocal): Evaluator {
+  const { start, pu, pv, w, c, zc, zs, e2, cu, cv, radius } = p;
+  const m = p.m;
+  const row = new Float64Array(Math.max(m, 1));
+  const blender = makeBlender(p);
+  const uv = new Float64Array(2);
+  // Kernel loops written out per kernel (as in global.ts) so the JIT sees one monomorphic loop each.
+  const patchValue = (j: number, u: number, v: number): number => {
+    const x = (u - cu[j]) / radius[j], y = (v - cv[j]) / radius[j];
+    const a = start[j], b = start[j + 1];
+    const eps2 = e2[j];
+    let sum = 0;
+    switch (p.kernel) {
+      case "thin-plate":
+        for (let k = a; k < b; k++) {
+          const du = x - pu[k], dv = y - pv[k];
+          const rho = du * du + dv * dv;
+          if (rho > 0) sum += w[k] * 0.5 * rho * Math.log(rho);
+        }
+        break;
+      case "gaussian":
+        for (let k = a; k < b; k++) {
+          const du = x - pu[k], dv = y - pv[k];
+          sum += w[k] * Math.exp(-eps2 * (du * du + dv * dv));
+        }
+        break;
+      case "multiquadric":
+        for (let k = a; k < b; k++) {
+          const du = x - pu[k], dv = y - pv[k];
+          sum -= w[k] * Math.sqrt(1 + eps2 * (du * du + dv * dv));
+        }
+        break;
+      case "inverse-multiquadric":
+        for (let k = a; k < b; k++) {
+          const du = x - pu[k], dv = y - pv[k];
+          sum += w[k] / Math.sqrt(1 + eps2 * (du * du + dv * dv));
+        }
+        break;
+    }
+    trendRow(x, y, m, row);
+    for (let t = 0; t < m; t++) sum += c[j * m + t] * row[t];
+    return zc[j] + zs[j] * sum;
+  };
+  const raw = (x: number, y: number): number => {
+    blender.map(x, y, uv);
+    const count = blender.cover(uv[0], uv[1]);
+    let f = 0;
+    for (let a = 0; a < count; a++) f += blender.weights[a] * patchValue(blender.ids[a], uv[0], uv[1]);
+    return count > 0 ? f : NaN;
+  };
+  return evaluatorOfRaw(raw, p.logBias);
+}

@@ -1,0 +1,532 @@
+// The local method for large surveys: partition of unity over overlapping patches (patches.ts), each
+// fitted by the global method's own code (patch_fit.ts), blended with Wendland's C² weights.
+//
+// Choosing the model once: every candidate of the global method's automatic selection is ranked
+// (rankGroup) on up to SAMPLE_PATCHES patches spread over the domain; their leave-one-out errors are
+// pooled and the global method's rule (chooseCandidate) chooses (see consensus). The shape is the
+// median, in map units, of the shapes the samples found for that kernel. A named kernel, trend or
+// shape is used as given.
+// λ is chosen by GCV in every patch, the exact leave-one-out error deciding where GCV has several
+// local minima (fitPatchSmoothing), or given, in map units, the same in every patch.
+//
+// Diagnostics of the blended surface f(x) = Σⱼ wⱼ(x) fⱼ(x) (Σⱼ wⱼ = 1; wⱼ(xᵢ) > 0 exactly when
+// point i belongs to patch j), with every patch's λ fixed:
+//   fitted value      f(xᵢ) = Σⱼ wⱼ(xᵢ) fⱼ(xᵢ);
+//   leave-one-out     leaving point i out changes only the patches that contain it, and the blended
+//                     prediction at xᵢ is Σⱼ wⱼ(xᵢ) fⱼ⁽⁻ⁱ⁾(xᵢ), so eᵢ = yᵢ − f⁽⁻ⁱ⁾(xᵢ) = Σⱼ wⱼ(xᵢ) eᵢⱼ
+//                     with eᵢⱼ the patch's own exact leave-one-out residual (Rippa 1999). This is
+//                     exact for the blended surface given the patch λs (and the patch layout);
+//   edf               the trace of the blended smoother: ∂f(xᵢ)/∂yᵢ = Σⱼ wⱼ(xᵢ) Aᵢᵢ⁽ʲ⁾, summed over i;
+//   GCV               N·Σωᵢrᵢ² / (N − edf)², the GCV score of that linear smoother (Craven & Wahba 1979);
+//   σ                 √(Σωᵢrᵢ² / (N − edf)), as for the global method;
+//   τ                 Pope's τ of point i in its home patch (the patch whose centre is nearest), tested
+//                     at the survey-wide level α₀ = 1 − (1 − α)^{1/N} with that patch's ν = nⱼ − m
+//                     degrees of freedom. Not iterated (no data snooping): a blunder's neighbours in
+//                     the same patch can be flagged with it.
+import { ExitCode, opt, RbfieldError } from "../../errors.ts";
+import { boundingBox, convexHullRing, medianSpacing, pointIndex } from "../../geometry.ts";
+import type { LocalDiagnostics, LocalModel, ModelDiagnostics } from "../../model/model.ts";
+import { MODEL_FORMAT, MODEL_VERSION } from "../../model/model.ts";
+import type { CleanPoints, KernelName, TrendName } from "../../types.ts";
+import { runWorker, workersAvailable } from "../../workers.ts";
+import type { CandidateScore } from "../candidate.ts";
+import { hasShape, trendTerms } from "../kernels.ts";
+import type { FitOptions, SelectRule } from "../options.ts";
+import type { Prepared } from "../prepare.ts";
+import { chooseCandidate, kernelGroups } from "../select.ts";
+import { perTestLevel, tauCritical } from "../tau.ts";
+import {
+  fitPatchBlock,
+  MEMBER_FIELDS,
+  PATCH_BLOCK,
+  type PatchBlock,
+  type PatchData,
+  patchFailure,
+  type PatchGeometry,
+  type PatchModel,
+  rankPatch,
+  SCALARS,
+  smoothingChoiceOf,
+} from "./patch_fit.ts";
+import { buildPatches, compress, growPatch, type PatchLayout, patchWeight, samplePatches } from "./patches.ts";
+import type { FitJob, RankJob } from "./patch_worker.ts";
+
+/**
+ * Points above which method "auto" uses the local method. Measured (bench/local.ts --threshold,
+ * Franke's function with noise, automatic selection): see DEVELOPERS.md, "Local method".
+ */
+export const LOCAL_AUTO_POINTS = 2000;
+/**
+ * Default points per patch (every patch disc is grown to hold at least this many). Measured with
+ * bench/local.ts: see DEVELOPERS.md, "Local method".
+ */
+export const DEFAULT_PATCH_POINTS = 150;
+/**
+ * Leaf capacity of the 2-d tree as a fraction of patchPoints: a disc of 1.4 half-diagonals over a
+ * square cell covers 3.1 cells' area, so cells of up to a third of patchPoints give discs of about
+ * patchPoints points before growing.
+ */
+const LEAF_FRACTION = 1 / 3;
+/** Default disc radius as a multiple of the tree cell's half-diagonal. */
+export const DEFAULT_OVERLAP = 1.4;
+/** Patches the model choice is made on. */
+export const SAMPLE_PATCHES = 8;
+/** A patch whose points cannot carry the model is enlarged by this factor, at most GROW_TRIES times. */
+const GROW_FACTOR = 1.5;
+const GROW_TRIES = 4;
+/** Robustness weight below which a point is listed as down-weighted (as in the global method). */
+const DOWNWEIGHTED = 0.5;
+
+/** What the fit stage has settled before the local method starts (validated options, prepared data). */
+export interface LocalInput {
+  points: CleanPoints;
+  options: FitOptions;
+  prep: Prepared;
+  trendOpt: TrendName | "auto";
+  candidates: { kernel: KernelName; trend: TrendName }[];
+  shapeOpt: "auto" | number;
+  smoothing: "gcv" | number;
+  select: SelectRule;
+  transform: "none" | "log";
+  methodChoice: string;
+}
+
+interface Settings {
+  leafPoints: number;
+  minPoints: number;
+  overlap: number;
+}
+
+function settings(options: FitOptions): Settings {
+  const minPoints = options.patchPoints ?? DEFAULT_PATCH_POINTS;
+  const leafPoints = options.leafPoints ?? Math.max(1, Math.round(minPoints * LEAF_FRACTION));
+  const overlap = options.overlap ?? DEFAULT_OVERLAP;
+  if (!(Number.isInteger(minPoints) && minPoints >= 3)) throw new RbfieldError(`${opt("patchPoints")} must be a whole number ≥ 3, not ${minPoints}`, ExitCode.usage);
+  if (!(Number.isInteger(leafPoints) && leafPoints >= 1)) throw new RbfieldError(`${opt("leafPoints")} must be a whole number ≥ 1, not ${leafPoints}`, ExitCode.usage);
+  if (!(overlap > 1 && overlap <= 4)) throw new RbfieldError(`${opt("overlap")} must lie above 1 and at most 4, not ${overlap}`, ExitCode.usage);
+  return { leafPoints, minPoints, overlap };
+}
+
+interface Stage {
+  input: LocalInput;
+  settings: Settings;
+  layout: PatchLayout;
+  data: PatchData;
+  groups: ReturnType<typeof kernelGroups>;
+  samples: number[];
+}
+
+function stage(input: LocalInput): Stage {
+  const s = settings(input.options);
+  const { prep } = input;
+  const minPoints = Math.max(s.minPoints, trendTerms(input.trendOpt === "auto" ? "quadratic" : input.trendOpt) + 2);
+  const layout = buildPatches(prep.u, prep.v, { leafPoints: s.leafPoints, minPoints, overlap: s.overlap });
+  const data: PatchData = { u: prep.u, v: prep.v, values: prep.values, sqrtW: prep.sqrtW, s: prep.s };
+  const needShape = input.shapeOpt === "auto" && input.candidates.some((c) => hasShape(c.kernel));
+  const ranks = input.candidates.length > 1 || needShape;
+  return { input, settings: s, layout, data, groups: kernelGroups(input.candidates), samples: ranks ? samplePatches(layout, SAMPLE_PATCHES) : [] };
+}
+
+function geometryOf(layout: PatchLayout): (j: number) => PatchGeometry {
+  return (j) => ({ cu: layout.cu[j], cv: layout.cv[j], radius: layout.radius[j], members: layout.index.subarray(layout.start[j], layout.start[j + 1]) });
+}
+
+/** Fixed blocks of patch numbers (PATCH_BLOCK each), whatever the number of threads. */
+function blocksOf(count: number): number[][] {
+  const out: number[][] = [];
+  for (let b = 0; b * PATCH_BLOCK < count; b++) out.push(Array.from({ length: Math.min(PATCH_BLOCK, count - b * PATCH_BLOCK) }, (_, k) => b * PATCH_BLOCK + k));
+  return out;
+}
+
+/** Fit the local model in this thread. */
+export function fitLocal(input: LocalInput): LocalModel {
+  const st = stage(input);
+  const { layout, data } = st;
+  const geometry = geometryOf(layout);
+  input.options.progress?.(`local method: ${layout.count} patches; choosing the model on ${st.samples.length} of them`);
+  const rows = st.samples.map((j) => rankPatch(data, geometry(j), st.groups, input.shapeOpt, input.smoothing));
+  const choice = consensus(st, rows);
+  input.options.progress?.(`fitting ${layout.count} patches`);
+  const blocks = blocksOf(layout.count).map((b) => fitPatchBlock(data, geometry, b, choice.model));
+  return assemble(st, choice, blocks);
+}
+
+/** The same fit with the sample ranking and the patch fits in worker threads; identical result. */
+export async function fitLocalParallel(input: LocalInput, threads: number): Promise<LocalModel> {
+  const st = stage(input);
+  const { layout, data } = st;
+  const geometry = geometryOf(layout);
+  const blocks = blocksOf(layout.count);
+  if (!workersAvailable(threads) || blocks.length < 2) return fitLocal(input);
+  const url = new URL("./patch_worker.ts", import.meta.url);
+  const workers = Math.min(threads, blocks.length);
+  try {
+    input.options.progress?.(`local method: ${layout.count} patches; choosing the model on ${st.samples.length} of them (${workers} threads)`);
+    const rows: CandidateScore[][] = new Array(st.samples.length);
+    await Promise.all(Array.from({ length: Math.min(workers, st.samples.length) }, async (_, t) => {
+      const mine = st.samples.map((_, k) => k).filter((k) => k % workers === t);
+      const job: RankJob = { kind: "rank", data, geometries: mine.map((k) => geometry(st.samples[k])), groups: st.groups, shapeOpt: input.shapeOpt, smoothing: input.smoothing };
+      const reply = await runWorker<{ rows: CandidateScore[][] }>(url, job);
+      mine.forEach((k, i) => (rows[k] = reply.rows[i]));
+    }));
+    const choice = consensus(st, rows);
+    input.options.progress?.(`fitting ${layout.count} patches in ${blocks.length} blocks on ${workers} threads`);
+    const results: PatchBlock[] = new Array(blocks.length);
+    await Promise.all(Array.from({ length: workers }, async (_, t) => {
+      const mine = blocks.map((_, b) => b).filter((b) => b % workers === t);
+      const job: FitJob = {
+        kind: "fit",
+        data,
+        cu: layout.cu,
+        cv: layout.cv,
+        radius: layout.radius,
+        start: layout.start,
+        index: layout.index,
+        blocks: mine.map((b) => blocks[b]),
+        model: choice.model,
+      };
+      const reply = await runWorker<{ blocks: PatchBlock[] }>(url, job);
+      mine.forEach((b, i) => (results[b] = reply.blocks[i]));
+    }));
+    return assemble(st, choice, results);
+  } catch (e) {
+    if (e instanceof RbfieldError) throw e;
+    input.options.progress?.(`worker threads unavailable (${(e as Error).message}); fitting in one thread`);
+    return fitLocal(input);
+  }
+}
+
+interface Choice {
+  model: PatchModel;
+  selection: ModelDiagnostics["selection"];
+  consensus: LocalDiagnostics["consensus"];
+}
+
+const median = (a: ArrayLike<number>): number => {
+  const s = Float64Array.from(a).sort();
+  if (s.length === 0) return NaN;
+  const h = s.length >> 1;
+  return s.length % 2 ? s[h] : 0.5 * (s[h - 1] + s[h]);
+};
+
+/**
+ * The model chosen on the sample patches. Every candidate is fitted to every sample patch by the
+ * global method's own ranking (rankGroup: shape and λ by GCV, exact leave-one-out residuals); the
+ * leave-one-out mean squared errors are pooled over the samples' points (MSE = Σ nₛ MSEₛ / Σ nₛ,
+ * its standard error from the samples' by Var = Σ nₛ² Var(MSEₛ) / (Σ nₛ)², the samples being
+ * disjoint in the main), and the global method's rule (chooseCandidate: one-standard-error by
+ * default) chooses on the pooled scores. Pooling gives the rule the power of all the samples' points;
+ * a vote among per-patch winners let parsimony win on each small patch. The shape is the median,
+ * in map units, of the shapes the samples found for the chosen kernel. A candidate that cannot be
+ * fitted on every sample patch is not eligible.
+ */
+function consensus(st: Stage, rows: CandidateScore[][]): Choice {
+  const { input } = st;
+  const base = { smoothing: input.smoothing, robust: input.options.robust ?? false };
+  if (st.samples.length === 0) {
+    const c = input.candidates[0];
+    return { model: { ...base, kernel: c.kernel, trend: c.trend, shape: hasShape(c.kernel) ? input.shapeOpt as number : null }, selection: null, consensus: null };
+  }
+  const shapeGiven = input.shapeOpt !== "auto";
+  const sizeOf = (s: number) => st.layout.start[st.samples[s] + 1] - st.layout.start[st.samples[s]];
+  // Samples on which some candidate could be fitted.
+  const used = rows.map((_, s) => s).filter((s) => rows[s].some((x) => Number.isFinite(x.loocvRmse)));
+  if (used.length === 0) throw new RbfieldError("no candidate model could be fitted to the sample patches of the local method", ExitCode.numerical);
+  const pooledPoints = used.reduce((a, s) => a + sizeOf(s), 0);
+  const pooled: CandidateScore[] = input.candidates.map((c) => {
+    const mine = used.map((s) => ({ n: sizeOf(s), row: rows[s].find((x) => x.kernel === c.kernel && x.trend === c.trend) }));
+    const complete = mine.every((x) => x.row && Number.isFinite(x.row.loocvRmse) && Number.isFinite(x.row.gcv));
+    let mse = 0, varMse = 0, gcv = 0;
+    for (const { n, row } of complete ? mine : []) {
+      const r = row!;
+      mse += (n * r.loocvRmse ** 2) / pooledPoints;
+      varMse += (n * 2 * r.loocvRmse * r.loocvSe / pooledPoints) ** 2;
+      gcv += (n * r.gcv) / pooledPoints;
+    }
+    const rmse = Math.sqrt(mse);
+    const found = mine.map((x) => x.row).filter((x): x is CandidateScore => x !== undefined);
+    const med = (f: (x: CandidateScore) => number) => median(found.map(f).filter(Number.isFinite));
+    return {
+      kernel: c.kernel,
+      trend: c.trend,
+      shape: hasShape(c.kernel) ? (shapeGiven ? input.shapeOpt as number : med((x) => x.shape ?? NaN)) : null,
+      lambda: med((x) => x.lambda),
+      edf: med((x) => x.edf),
+      gcv: complete ? gcv : NaN,
+      loocvRmse: complete ? rmse : NaN,
+      loocvSe: complete && rmse > 0 ? Math.sqrt(varMse) / (2 * rmse) : complete ? 0 : NaN,
+      heldAtFloor: found.filter((x) => x.heldAtFloor).length * 2 > found.length,
+      excluded: complete ? null : "could not be fitted on every sample patch",
+      chosen: false,
+    };
+  });
+  const outcome = chooseCandidate(pooled, input.select, shapeGiven, pooledPoints);
+  const winner = outcome.ranking.find((r) => r.chosen)!;
+  const shapes = hasShape(winner.kernel) && !shapeGiven
+    ? used.map((s) => rows[s].find((x) => x.kernel === winner.kernel && x.shape !== null)?.shape).filter((x): x is number => typeof x === "number")
+    : null;
+  return {
+    model: { ...base, kernel: winner.kernel, trend: winner.trend, shape: winner.shape },
+    selection: { by: input.select, onSubsample: pooledPoints, ranking: outcome.ranking, decision: outcome.decision, best: { kernel: outcome.best.kernel, trend: outcome.best.trend } },
+    consensus: {
+      samples: used.length,
+      rule: "leave-one-out errors pooled over the sample patches' points, then the selection rule; shape the median of the samples' shapes",
+      points: pooledPoints,
+      shapes,
+    },
+  };
+}
+
+/** Blend the patch results into the model record. */
+function assemble(st: Stage, choice: Choice, blocks: PatchBlock[]): LocalModel {
+  const { input, layout, data } = st;
+  const { points, options, prep } = input;
+  const n = prep.n;
+  const p = layout.count;
+  const m = trendTerms(choice.model.trend);
+  const scalars = new Float64Array(p * SCALARS);
+  const trendCoef = new Float64Array(p * m);
+  const lists: Int32Array[] = [];
+  const member: Float64Array[] = [];
+  const failed: { patch: number; message: string }[] = [];
+  for (const b of blocks) {
+    let o = 0;
+    b.patches.forEach((j, k) => {
+      scalars.set(b.scalars.subarray(k * SCALARS, (k + 1) * SCALARS), j * SCALARS);
+      trendCoef.set(b.trend.subarray(k * m, (k + 1) * m), j * m);
+      const len = (layout.start[j + 1] - layout.start[j]) * MEMBER_FIELDS;
+      member[j] = b.members.subarray(o, o + len);
+      lists[j] = layout.index.subarray(layout.start[j], layout.start[j + 1]);
+      o += len;
+    });
+    failed.push(...b.failed);
+  }
+  // Patches whose points cannot carry the model (on a line, too few for the trend): enlarge and
+  // refit, in patch order in this thread, so the result does not depend on the workers.
+  let enlarged = 0;
+  if (failed.length) {
+    const index = pointIndex(data.u, data.v);
+    failed.sort((a, b) => a.patch - b.patch);
+    for (const f of failed) {
+      let message = f.message;
+      let done = false;
+      for (let t = 0; t < GROW_TRIES && !done; t++) {
+        const members = growPatch(layout, f.patch, data.u, data.v, index, GROW_FACTOR);
+        const g: PatchGeometry = { cu: layout.cu[f.patch], cv: layout.cv[f.patch], radius: layout.radius[f.patch], members };
+        const r = fitPatchBlock(data, () => g, [f.patch], choice.model);
+        if (r.failed.length) {
+          message = r.failed[0].message;
+          continue;
+        }
+        scalars.set(r.scalars, f.patch * SCALARS);
+        trendCoef.set(r.trend, f.patch * m);
+        member[f.patch] = r.members;
+        lists[f.patch] = members;
+        done = true;
+      }
+      if (!done) throw patchFailure(f.patch, message);
+      enlarged++;
+    }
+  }
+  const { start, index } = compress(lists);
+
+  // Blending weights at the data points, in patch order (a fixed summation order).
+  const psi = new Float64Array(index.length);
+  const total = new Float64Array(n);
+  const home = new Int32Array(n).fill(-1);
+  const homeD = new Float64Array(n).fill(Infinity);
+  const homeK = new Int32Array(n);
+  for (let j = 0; j < p; j++) {
+    for (let k = start[j]; k < start[j + 1]; k++) {
+      const i = index[k];
+      psi[k] = patchWeight(data.u[i], data.v[i], layout.cu[j], layout.cv[j], layout.radius[j]);
+      total[i] += psi[k];
+      const du = data.u[i] - layout.cu[j], dv = data.v[i] - layout.cv[j];
+      const d = du * du + dv * dv;
+      if (d < homeD[i]) {
+        homeD[i] = d;
+        home[i] = j;
+        homeK[i] = k;
+      }
+    }
+  }
+  const fitted = new Float64Array(n), loo = new Float64Array(n), hat = new Float64Array(n);
+  const fieldOf = (k: number, j: number, f: number) => member[j][(k - start[j]) * MEMBER_FIELDS + f];
+  for (let j = 0; j < p; j++) {
+    for (let k = start[j]; k < start[j + 1]; k++) {
+      const i = index[k];
+      const w = psi[k] / total[i];
+      fitted[i] += w * fieldOf(k, j, 1);
+      loo[i] += w * fieldOf(k, j, 2);
+      hat[i] += w * fieldOf(k, j, 4);
+    }
+  }
+  const patchOf = (j: number, f: number) => scalars[j * SCALARS + f];
+  // Observation weights as fitted: the user's, times the home patch's robustness weight (mean 1).
+  const robustWeight = options.robust ? Float64Array.from({ length: n }, (_, i) => fieldOf(homeK[i], home[i], 5)) : null;
+  let omega: Float64Array | null = null;
+  if (prep.sqrtW || robustWeight) {
+    omega = Float64Array.from({ length: n }, (_, i) => (prep.sqrtW ? prep.sqrtW[i] ** 2 : 1) * (robustWeight ? robustWeight[i] : 1));
+    let mean = 0;
+    for (const w of omega) mean += w / n;
+    for (let i = 0; i < n; i++) omega[i] /= mean;
+  }
+  // Residuals, edf, GCV and σ of the blended smoother.
+  let rss = 0, wrss = 0, edf = 0, looSs = 0, looN = 0;
+  for (let i = 0; i < n; i++) {
+    const r = prep.values[i] - fitted[i];
+    rss += r * r;
+    wrss += r * r * (omega ? omega[i] : 1);
+    edf += hat[i];
+    if (!Number.isNaN(loo[i])) {
+      looSs += loo[i] * loo[i];
+      looN++;
+    }
+  }
+  const dof = n - edf;
+  const looRmse = looN > 0 ? Math.sqrt(looSs / looN) : 0;
+  // Pope's τ from the home patch, tested at the survey-wide level with that patch's ν.
+  const level = options.flagLevel ?? 0.05;
+  const alpha0 = perTestLevel(level, n);
+  const criticalOf = new Map<number, number>();
+  const critical = (nu: number) => {
+    if (!criticalOf.has(nu)) criticalOf.set(nu, tauCritical(nu, alpha0));
+    return criticalOf.get(nu)!;
+  };
+  const tau = new Float64Array(n);
+  const flagged: number[] = [];
+  for (let i = 0; i < n; i++) {
+    const j = home[i];
+    tau[i] = fieldOf(homeK[i], j, 3);
+    if (Math.abs(tau[i]) > critical(patchOf(j, 8))) flagged.push(i);
+  }
+  flagged.sort((a, b) => Math.abs(tau[b]) - Math.abs(tau[a]) || a - b);
+  const usedCritical = [...new Set(Array.from({ length: p }, (_, j) => critical(patchOf(j, 8))))].filter(Number.isFinite);
+  const nus = Float64Array.from({ length: p }, (_, j) => patchOf(j, 8));
+  const medianCritical = critical(Math.round(median(nus)));
+
+  // Per-patch figures.
+  const counts = Float64Array.from({ length: p }, (_, j) => start[j + 1] - start[j]);
+  const lambdas = Float64Array.from({ length: p }, (_, j) => patchOf(j, 4));
+  let condition = 0, held = 0, raised = 0, passes = 0, converged = true, moved = 0;
+  for (let j = 0; j < p; j++) {
+    condition = Math.max(condition, patchOf(j, 5));
+    if (patchOf(j, 6)) held++;
+    if (smoothingChoiceOf(patchOf(j, 7)) === "given-raised") raised++;
+    passes = Math.max(passes, patchOf(j, 10));
+    if (!patchOf(j, 11)) converged = false;
+    if (patchOf(j, 12)) moved++;
+  }
+  const range = (a: Float64Array) => {
+    let lo = Infinity, hi = -Infinity;
+    for (const x of a) {
+      lo = Math.min(lo, x);
+      hi = Math.max(hi, x);
+    }
+    return { min: lo, median: median(a), max: hi };
+  };
+  const warnings: string[] = [];
+  if (held) warnings.push(`${held} of ${p} patches hold λ at the numerical floor (GCV asked for less smoothing than double precision resolves there)`);
+  if (raised) warnings.push(`${raised} of ${p} patches raised the given smoothing to their numerical floor so that their systems stay stable`);
+  if (enlarged) warnings.push(`${enlarged} patches were enlarged because their points could not carry the ${choice.model.trend} trend`);
+  if (looN < n) warnings.push(`${n - looN} points have no leave-one-out residual (without them a patch cannot carry the ${choice.model.trend} trend)`);
+  if (condition > 1e10) warnings.push(`a patch system is close to ill-conditioned (condition estimate ${condition.toExponential(2)})`);
+  if (robustWeight && !converged) warnings.push(`the robust fit did not settle in ${passes} passes in every patch; its weights may still change`);
+
+  const kernel = choice.model.kernel;
+  const shapeChoice: "auto" | "given" | "none" = !hasShape(kernel) ? "none" : input.shapeOpt === "auto" ? "auto" : "given";
+  const smoothingChoice = input.smoothing === "gcv" ? "gcv" as const : raised ? "given-raised" as const : "given" as const;
+  const local: LocalDiagnostics = {
+    patches: p,
+    leafPoints: st.settings.leafPoints,
+    patchPoints: st.settings.minPoints,
+    overlap: st.settings.overlap,
+    pointsPerPatch: range(counts),
+    lambda: range(lambdas),
+    loocvRmse: looRmse,
+    heldAtFloor: held,
+    raised,
+    lambdaByLeaveOneOut: moved,
+    enlarged,
+    critical: usedCritical.length ? { min: Math.min(...usedCritical), max: Math.max(...usedCritical) } : null,
+    consensus: choice.consensus,
+  };
+  const weights = new Float64Array(index.length);
+  const memberWeights = omega ? new Float64Array(index.length) : null;
+  for (let j = 0; j < p; j++) {
+    for (let k = start[j]; k < start[j + 1]; k++) {
+      weights[k] = fieldOf(k, j, 0);
+      if (memberWeights) memberWeights[k] = fieldOf(k, j, 6);
+    }
+  }
+  const model: LocalModel = {
+    format: MODEL_FORMAT,
+    version: MODEL_VERSION,
+    method: "local",
+    kernel,
+    shape: choice.model.shape,
+    trend: choice.model.trend,
+    lambda: median(lambdas),
+    crs: options.crs ?? { label: "local site grid (no EPSG code)" },
+    source: options.source ?? { file: "", x: "x", y: "y", z: "z" },
+    stretch: prep.stretch,
+    transform: input.transform,
+    points: {
+      x: Array.from(points.x),
+      y: Array.from(points.y),
+      z: Array.from(points.z),
+      line: points.lines.slice(),
+      weight: omega ? Array.from(omega) : null,
+      robustWeight: robustWeight ? Array.from(robustWeight) : null,
+    },
+    fitted: Array.from(fitted),
+    loo: Array.from(loo, (e) => (Number.isNaN(e) ? null : e)) as number[],
+    looStandardised: Array.from(tau, (t) => (Number.isNaN(t) ? null : t)) as number[],
+    diagnostics: {
+      n,
+      edf,
+      gcv: dof > 1e-9 ? (n * wrss) / (dof * dof) : 0,
+      loocvRmse: looRmse,
+      rmse: Math.sqrt(rss / n),
+      sigma: dof > 1e-9 ? Math.sqrt(wrss / dof) : 0,
+      condition,
+      smoothingChoice,
+      heldAtFloor: held > 0,
+      shapeChoice,
+      selection: choice.selection,
+      flags: { test: "tau", level, critical: Number.isFinite(medianCritical) ? medianCritical : null, lines: flagged.map((i) => points.lines[i]), truncated: false },
+      robust: robustWeight
+        ? {
+          passes,
+          converged,
+          downweighted: Array.from(robustWeight.keys()).filter((i) => robustWeight[i] < DOWNWEIGHTED)
+            .sort((a, b) => robustWeight[a] - robustWeight[b] || a - b).map((i) => points.lines[i]),
+        }
+        : null,
+      warnings,
+      gcvCurve: [],
+      methodChoice: input.methodChoice,
+      local,
+    },
+    extent: boundingBox(points.x, points.y),
+    hull: convexHullRing(points.x, points.y),
+    spacing: medianSpacing(points.x, points.y),
+    local: {
+      scaling: { cx: prep.cx, cy: prep.cy, s: prep.s },
+      coverage: 1 / st.settings.overlap,
+      cu: Array.from(layout.cu),
+      cv: Array.from(layout.cv),
+      radius: Array.from(layout.radius),
+      zc: Array.from({ length: p }, (_, j) => patchOf(j, 0)),
+      zs: Array.from({ length: p }, (_, j) => patchOf(j, 1)),
+      epsilonScaled: Array.from({ length: p }, (_, j) => patchOf(j, 2)),
+      lambdaScaled: Array.from({ length: p }, (_, j) => patchOf(j, 3)),
+      start: Array.from(start),
+      index: Array.from(index),
+      weights: Array.from(weights),
+      memberWeights: memberWeights ? Array.from(memberWeights) : null,
+      trendCoefficients: Array.from(trendCoef),
+    },
+  };
+  return model;
+}

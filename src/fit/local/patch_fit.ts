@@ -1,0 +1,258 @@
+// One patch of the local method: the global method's own fit (fitOne → fitCore, same kernels,
+// trends and GCV) on the points of one disc, in coordinates centred on the disc and scaled by its
+// radius, values centred and scaled within the patch; then the patch quantities the blended model
+// needs: leave-one-out residuals (Rippa 1999), the hat diagonal, Pope's τ and the process scale.
+// Patches are fitted in fixed blocks (PATCH_BLOCK), in this thread or in workers: each patch's
+// result depends only on its own points, so the model does not depend on the number of workers.
+import { ExitCode, RbfieldError } from "../../errors.ts";
+import { medianSpacing } from "../../geometry.ts";
+import type { KernelName, TrendName } from "../../types.ts";
+import { type FittedCandidate, fitOne, type KernelGroup, rankGroup, type CandidateScore } from "../candidate.ts";
+import { influenceComplementDiagonal, influenceDiagonal, leaveOneOutResiduals, processScale, rotatedBasis } from "../influence.ts";
+import { solveTridiagonal } from "../linalg.ts";
+import { hasShape, trendTerms } from "../kernels.ts";
+import type { Prepared } from "../prepare.ts";
+import { robustFit } from "../robust.ts";
+
+/** Patches per block of work (a worker takes whole blocks, so the split does not follow the thread count). */
+export const PATCH_BLOCK = 64;
+
+/** The data every patch draws on: the prepared points in the global scaled frame. */
+export interface PatchData {
+  u: Float64Array;
+  v: Float64Array;
+  values: Float64Array;
+  sqrtW?: Float64Array;
+  /** Map units per global scaled unit. */
+  s: number;
+}
+
+/** The model every patch fits: kernel, trend, shape (ε per map unit; null without shape), smoothing. */
+export interface PatchModel {
+  kernel: KernelName;
+  trend: TrendName;
+  shape: number | null;
+  smoothing: "gcv" | number;
+  robust: boolean;
+}
+
+/** A disc and its points. */
+export interface PatchGeometry {
+  cu: number;
+  cv: number;
+  radius: number;
+  members: Int32Array;
+}
+
+/** A patch's points as prepared data in the patch's own frame: ((u − cu)/ρ, (v − cv)/ρ). */
+export function patchPrepared(data: PatchData, g: PatchGeometry, needSpacing: boolean): Prepared {
+  const n = g.members.length;
+  const u = new Float64Array(n), v = new Float64Array(n), values = new Float64Array(n);
+  const sqrtW = data.sqrtW ? new Float64Array(n) : undefined;
+  for (let k = 0; k < n; k++) {
+    const i = g.members[k];
+    u[k] = (data.u[i] - g.cu) / g.radius;
+    v[k] = (data.v[i] - g.cv) / g.radius;
+    values[k] = data.values[i];
+    if (sqrtW) sqrtW[k] = data.sqrtW![i];
+  }
+  return {
+    n,
+    u,
+    v,
+    values,
+    sqrtW,
+    spacingScaled: needSpacing ? medianSpacing(u, v) : 0,
+    s: data.s * g.radius,
+    cx: 0,
+    cy: 0,
+    stretch: null,
+  };
+}
+
+/** Smoothing choices coded as numbers for transfer. */
+const CHOICES = ["gcv", "given", "given-raised"] as const;
+
+/** The fitted patches of one block, as typed arrays (transferable); per-point arrays follow the members. */
+export interface PatchBlock {
+  /** Patch numbers in this block. */
+  patches: Int32Array;
+  /** Per patch: zc, zs, epsilonScaled, lambdaScaled, λ in map units, condition, heldAtFloor, smoothing choice, ν = n − m, process scale b̂, robust passes, converged, λ moved by the leave-one-out guard. */
+  scalars: Float64Array;
+  /** Per patch, m trend coefficients. */
+  trend: Float64Array;
+  /**
+   * Per member of each patch in order: RBF weight, fitted value, leave-one-out residual, τ, hat
+   * diagonal Aᵢᵢ, robustness weight (1 without robust), observation weight ω as fitted (1 without weights).
+   */
+  members: Float64Array;
+  /** Patches whose fit failed, with the reason (the caller grows and refits them). */
+  failed: { patch: number; message: string }[];
+}
+
+export const SCALARS = 13;
+export const MEMBER_FIELDS = 7;
+
+/**
+ * λ by GCV, with the exact leave-one-out error deciding between GCV's local minima. Two readings
+ * much closer together than the rest (common among thousands of patches) give B a tiny eigenvalue;
+ * for λ just above it tr(I − A) ≈ 1 while the residual is only the pair's difference, so GCV has a
+ * second, spurious minimum at near-interpolation, and in a patch of ~150 points it wins whenever the
+ * pair happens to agree to better than about σ/10 (GCV replaces each point's leverage by the mean;
+ * the same failure select.ts guards against between candidates). The exact leave-one-out residuals
+ * (Rippa 1999) at every local minimum of GCV's λ grid cost O(n²) each once Zᵀ = HᵀQ₂ᵀ is formed
+ * (rotatedBasis, O(n³), only for patches whose GCV curve has several minima); the minimum with the
+ * smallest leave-one-out mean square is kept (the chosen one refined as fitCore refines it, another
+ * one at its grid λ).
+ */
+export function fitPatchSmoothing(prep: Prepared, kernel: KernelName, trend: TrendName, shape: "auto" | number, smoothing: "gcv" | number): { fitted: FittedCandidate; moved: boolean } {
+  const first = fitOne(prep, kernel, trend, shape, smoothing);
+  const kept = { fitted: first, moved: false };
+  if (smoothing !== "gcv") return kept;
+  const curve = first.fit.curve;
+  const minima: number[] = [];
+  for (let i = 0; i < curve.length; i++) {
+    if ((i === 0 || curve[i].gcv < curve[i - 1].gcv) && (i === curve.length - 1 || curve[i].gcv <= curve[i + 1].gcv)) minima.push(i);
+  }
+  if (minima.length < 2) return kept;
+  const st = first.fit.state;
+  const zt = rotatedBasis(st);
+  const n = st.n, nb = n - st.m;
+  const t = new Float64Array(nb);
+  const looMse = (lambda: number): number => {
+    const gii = influenceComplementDiagonal(st, zt, lambda);
+    solveTridiagonal(st.tri.d, st.tri.e, lambda, st.h, t);
+    let gmax = 0;
+    for (const g of gii) gmax = Math.max(gmax, Math.abs(g));
+    let ss = 0, count = 0;
+    for (let i = 0; i < n; i++) {
+      if (!(gii[i] > 1e-12 * gmax)) continue;
+      // w̃ = Z (T + λI)⁻¹ h; eᵢ = w̃ᵢ / (Dᵢ G̃ᵢᵢ) (leaveOneOutResiduals).
+      let w = 0;
+      for (let k = 0; k < nb; k++) w += zt[k * n + i] * t[k];
+      const e = w / ((st.sqrtW ? st.sqrtW[i] : 1) * gii[i]);
+      ss += e * e;
+      count++;
+    }
+    return count > 0 ? ss / count : Infinity;
+  };
+  const chosenScaled = first.fit.lambdaScaled;
+  let best = { lambda: chosenScaled, mse: looMse(chosenScaled) };
+  for (const i of minima) {
+    const lambda = curve[i].lambda / first.lambdaToUser;
+    // The chosen minimum's own grid point lies within a grid step of it.
+    if (Math.abs(Math.log(lambda / chosenScaled)) < Math.log(curve[1].lambda / curve[0].lambda) * 1.5) continue;
+    const mse = looMse(lambda);
+    if (mse < best.mse) best = { lambda, mse };
+  }
+  if (best.lambda === chosenScaled) return kept;
+  const refit = fitOne(prep, kernel, trend, shape, best.lambda * first.lambdaToUser);
+  return { fitted: { ...refit, fit: { ...refit.fit, smoothingChoice: "gcv", curve } }, moved: true };
+}
+
+/** Fit one patch and return what the blended model needs. */
+export function fitPatch(data: PatchData, g: PatchGeometry, model: PatchModel): { fitted: FittedCandidate; scalars: number[]; members: Float64Array } {
+  const prep = patchPrepared(data, g, false);
+  const shape: "auto" | number = hasShape(model.kernel) ? model.shape! : 1;
+  let fitted: FittedCandidate;
+  let moved: boolean;
+  let robustWeights: Float64Array | undefined;
+  let sqrtW = prep.sqrtW;
+  let passes = 0, converged = 1;
+  if (model.robust) {
+    // Robustness weights from the global method's reweighting (robust.ts); the final fit at those
+    // weights then chooses λ with the guard below, like every other patch.
+    const r = robustFit(prep, model.kernel, model.trend, shape, model.smoothing);
+    robustWeights = r.weights;
+    sqrtW = r.sqrtW;
+    ({ fitted, moved } = fitPatchSmoothing({ ...prep, sqrtW }, model.kernel, model.trend, shape, model.smoothing));
+    passes = r.passes;
+    converged = r.converged ? 1 : 0;
+  } else ({ fitted, moved } = fitPatchSmoothing(prep, model.kernel, model.trend, shape, model.smoothing));
+  const { fit, zs } = fitted;
+  const n = prep.n;
+  const gii = influenceDiagonal(fit);
+  const loo = leaveOneOutResiduals(fit, zs, gii);
+  const b = processScale(fit.state);
+  let gmax = 0;
+  for (const x of gii) gmax = Math.max(gmax, Math.abs(x));
+  const out = new Float64Array(n * MEMBER_FIELDS);
+  for (let k = 0; k < n; k++) {
+    const o = k * MEMBER_FIELDS;
+    out[o] = fit.weights[k];
+    out[o + 1] = prep.values[k] - fit.residual[k] * zs;
+    out[o + 2] = loo[k];
+    // Pope's τ in the patch: w̃ᵢ/√(b̂ G̃ᵢᵢ) (blunders.ts, first round of the data snooping).
+    out[o + 3] = gii[k] > 1e-12 * gmax && b > 0 ? fit.state.wTilde[k] / Math.sqrt(b * gii[k]) : NaN;
+    // (I − A)ᵢᵢ = λ G̃ᵢᵢ for the weighted system (the residual is λ D⁻¹G̃Dy).
+    out[o + 4] = 1 - fit.lambdaScaled * gii[k];
+    out[o + 5] = robustWeights ? robustWeights[k] : 1;
+    out[o + 6] = sqrtW ? sqrtW[k] * sqrtW[k] : 1;
+  }
+  const scalars = [
+    fitted.scaling.zc,
+    zs,
+    fit.epsilonScaled,
+    fit.lambdaScaled,
+    fit.lambdaScaled * fitted.lambdaToUser,
+    fit.condition,
+    fit.heldAtFloor ? 1 : 0,
+    CHOICES.indexOf(fit.smoothingChoice),
+    n - trendTerms(model.trend),
+    b,
+    passes,
+    converged,
+    moved ? 1 : 0,
+  ];
+  // The fit's own warnings (λ held at the floor or raised) are counted from the scalars by the caller.
+  return { fitted, scalars, members: out };
+}
+
+export function smoothingChoiceOf(code: number): (typeof CHOICES)[number] {
+  return CHOICES[code];
+}
+
+/** Fit a list of patches (one block) into typed arrays. */
+export function fitPatchBlock(data: PatchData, geometry: (j: number) => PatchGeometry, patches: number[], model: PatchModel): PatchBlock {
+  const m = trendTerms(model.trend);
+  const scalars = new Float64Array(patches.length * SCALARS);
+  const trend = new Float64Array(patches.length * m);
+  const parts: Float64Array[] = [];
+  const failed: PatchBlock["failed"] = [];
+  patches.forEach((j, b) => {
+    const g = geometry(j);
+    try {
+      const r = fitPatch(data, g, model);
+      scalars.set(r.scalars, b * SCALARS);
+      trend.set(r.fitted.fit.trendCoefficients, b * m);
+      parts.push(r.members);
+    } catch (e) {
+      if (!(e instanceof RbfieldError)) throw e;
+      failed.push({ patch: j, message: e.template });
+      parts.push(new Float64Array(g.members.length * MEMBER_FIELDS).fill(NaN));
+    }
+  });
+  const members = new Float64Array(parts.reduce((s, p) => s + p.length, 0));
+  let o = 0;
+  for (const p of parts) {
+    members.set(p, o);
+    o += p.length;
+  }
+  return { patches: Int32Array.from(patches), scalars, trend, members, failed };
+}
+
+/** The transferable buffers of a block. */
+export function blockBuffers(b: PatchBlock): ArrayBuffer[] {
+  return [b.patches.buffer, b.scalars.buffer, b.trend.buffer, b.members.buffer] as ArrayBuffer[];
+}
+
+/** Rank the candidate models on one patch (the global method's automatic selection, rankGroup). */
+export function rankPatch(data: PatchData, g: PatchGeometry, groups: KernelGroup[], shapeOpt: "auto" | number, smoothing: "gcv" | number): CandidateScore[] {
+  const prep = patchPrepared(data, g, true);
+  return groups.flatMap((group) => rankGroup(prep, group, shapeOpt, smoothing));
+}
+
+/** A patch whose points cannot carry the model even after growing. */
+export function patchFailure(j: number, message: string): RbfieldError {
+  return new RbfieldError(`the local fit failed on patch ${j + 1} even after enlarging it: ${message}`, ExitCode.numerical);
+}
