@@ -1,0 +1,153 @@
+// The whole job on a points file into an output folder: fit, grid, contours, estimates, standard
+// errors, map, report, summary — every file of RUN_OUTPUTS written as one step.
+import * as fs from "node:fs";
+import * as path from "node:path";
+import { makeExtrapolationCheck } from "../evaluate/extrapolation.ts";
+import { gridModelParallel } from "../evaluate/parallel.ts";
+import { gridStandardError, makeErrorEstimator } from "../evaluate/stderr.ts";
+import type { GridOptions } from "../evaluate/grid.ts";
+import { valueRange } from "../numbers.ts";
+import { type MaskFile } from "../read/mask.ts";
+import { contourGeoJson } from "../write/contours.ts";
+import { chooseLevelRule } from "../write/levels.ts";
+import { fileListLines, type RunProducts, RUN_OUTPUTS } from "../write/outputs.ts";
+import { mapInputFromModel } from "../write/map.ts";
+import { type FitOptions } from "../fit/surface.ts";
+import { type SurfaceModel } from "../model/model.ts";
+import { checkWritableFolder, ensureFolder, refuseFolderAsOutput, refuseInputAsOutput, writeFilesAtomic } from "../write/atomic.ts";
+import { contourText, fmt, gridText, modelSummaryLines, summaryText } from "../write/summary.ts";
+import { fitPointsFile, gridOptionsFor, inputJson, isolationNotes, pointNotes, type PointsSource } from "./points.ts";
+import { estimateColumns, estimateSummaryLines, estimateTable, estimateWarnings, readLocations, standardErrorLines } from "./estimates.ts";
+
+export interface RunOptions extends PointsSource {
+  outDir: string;
+  fit?: FitOptions;
+  grid?: Omit<GridOptions, "progress">;
+  /** Contour interval; default about ten levels over the range (log-spaced for log fits). */
+  interval?: number;
+  base?: number;
+  /** Contour levels listed instead of an interval (e.g. thresholds 1, 10, 100, 1000). */
+  levels?: number[];
+  /** Contour lines with the level as a third coordinate. */
+  threeD?: boolean;
+  /** Locations to estimate at (CSV); default: the input points themselves. */
+  locations?: string;
+  /** Other files read by this run (e.g. a mask), which no output may overwrite. */
+  otherInputs?: string[];
+  /** A mask polygon file as read (readMask): projected into the points' CRS when it is in another. */
+  mask?: MaskFile;
+  /** Title of the map and the report (default: the value column and the points file). */
+  title?: string;
+  /** Date printed on the map and the report, YYYY-MM-DD (default today, UTC). */
+  date?: string;
+  /** Progress of long steps: a message and, where a loop knows it, the fraction done. */
+  progress?: (message: string, fraction?: number) => void;
+}
+
+export interface RunResult {
+  model: SurfaceModel;
+  /** Output key → path (see RUN_OUTPUTS). */
+  files: Record<string, string>;
+  summary: string;
+  /** Warnings for stderr (rows left empty, standard errors that are all zero, wild estimates). */
+  warnings: string[];
+  /** The input rows for --json (inputJson). */
+  input: Record<string, unknown>;
+}
+
+/** The whole job on a points file into an output folder (files: RUN_OUTPUTS). */
+export async function runJob(opts: RunOptions): Promise<RunResult> {
+  const out = opts.outDir;
+  const files = Object.fromEntries(RUN_OUTPUTS.map((o) => [o.key, path.join(out, o.file)]));
+  const inputs = [opts.file, ...(opts.locations ? [opts.locations] : []), ...(opts.mask ? [opts.mask.file] : []), ...(opts.otherInputs ?? [])];
+  const created = !fs.existsSync(out);
+  ensureFolder(out);
+  try {
+    return await runInto(opts, files, inputs);
+  } catch (e) {
+    // Leave no empty folder behind when this run made it.
+    if (created) {
+      try {
+        fs.rmdirSync(out);
+      } catch { /* not empty or already gone */ }
+    }
+    throw e;
+  }
+}
+
+async function runInto(opts: RunOptions, files: Record<string, string>, inputs: string[]): Promise<RunResult> {
+  for (const f of Object.values(files)) {
+    refuseInputAsOutput(f, inputs);
+    refuseFolderAsOutput(f);
+  }
+  checkWritableFolder(files.model);
+
+  opts.progress?.(`reading ${opts.file}`);
+  const fitted = await fitPointsFile(opts, { ...opts.fit, progress: opts.progress });
+  const model = fitted.model;
+  const locTable = opts.locations ? await readLocations(opts.locations, model, { x: opts.x, y: opts.y, header: opts.header, crs: opts.crs }) : fitted.table;
+  const masked = await gridOptionsFor(model, { ...opts.grid, progress: opts.progress }, opts.mask);
+  opts.progress?.("gridding");
+  const grid = await gridModelParallel(model, masked.grid);
+  const rule = chooseLevelRule(opts, grid.values, model.transform);
+  const lines = contourGeoJson(grid, rule, { threeD: opts.threeD, progress: opts.progress });
+  const bands = contourGeoJson(grid, rule, { bands: true, progress: opts.progress });
+  opts.progress?.("standard errors");
+  // One error estimator serves the estimates table and the error grid, from the fit's own factors.
+  const errorEstimator = makeErrorEstimator(model, fitted.factors);
+  const est = estimateTable(model, locTable, errorEstimator);
+  const errors = gridStandardError(model, grid, opts.progress, errorEstimator);
+  const seRange = valueRange(errors.grid.values);
+  const gridRange = valueRange(grid.values);
+  const check = makeExtrapolationCheck(model);
+
+  const s = grid.spec;
+  let maskedCells = 0;
+  for (const v of grid.values) if (Number.isNaN(v)) maskedCells++;
+  const summary = summaryText("rbfield run summary", [
+    [...pointNotes(fitted, opts, true), ...isolationNotes(fitted, model, Boolean(opts.keepIsolated))],
+    modelSummaryLines(model),
+    [
+      ...masked.notes,
+      `Grid: ${gridText(s, model.crs)}; ${maskedCells} cells masked`,
+      `Grid values from ${fmt(gridRange.lo)} to ${fmt(gridRange.hi)} (readings from ${fmt(check.range.lo)} to ${fmt(check.range.hi)})`,
+      ...(check.outOfRange(gridRange.lo) || check.outOfRange(gridRange.hi)
+        ? ["WARNING: the grid reaches far outside the range of the readings; look at the cells far from readings before using them"]
+        : []),
+      ...standardErrorLines(seRange, errors.stride),
+      ...(model.method === "local" ? ["  local method: the standard error blends the patches' own (an upper bound on the blended estimate's)"] : []),
+      `Contours: ${contourText(rule, lines.levels.length)}; bands between them`,
+      ...estimateSummaryLines(est, model),
+    ],
+    fileListLines(files),
+  ]);
+  const date = opts.date ?? new Date().toISOString().slice(0, 10);
+  const products: RunProducts = {
+    model,
+    grid,
+    stderrGrid: errors.grid,
+    contours: lines.text,
+    bands: bands.text,
+    estimates: { table: locTable, columns: estimateColumns(est) },
+    summary,
+    input: fitted.input,
+    map: mapInputFromModel(model, grid, { rule, title: opts.title, date }),
+    report: {
+      stderrGrid: errors.grid,
+      stderrNote: errors.stride > 1 ? `computed every ${errors.stride} cells and interpolated` : undefined,
+      cleaning: { rowsRead: fitted.points.rowsRead, skipped: fitted.points.skipped, merged: fitted.points.merged },
+      warnings: estimateWarnings(est),
+      title: opts.title ?? `${model.source.z} surface, ${model.source.file}`,
+      date,
+    },
+    date,
+  };
+  const rendered: [string, string | Uint8Array][] = [];
+  for (const [i, o] of RUN_OUTPUTS.entries()) {
+    opts.progress?.("writing the map, the report and the other files", i / RUN_OUTPUTS.length);
+    rendered.push([files[o.key], await o.render(products)]);
+  }
+  // Everything is computed; write all files as one step (temporary files, then renames).
+  writeFilesAtomic(rendered);
+  return { model, files, summary, warnings: estimateWarnings(est), input: inputJson(fitted, model) };
+}
