@@ -207,3 +207,13 @@ export async function writeJson(path: string, data: unknown): Promise<void> {
   if (dir && dir !== path) await Deno.mkdir(dir, { recursive: true });
   await Deno.writeTextFile(path, JSON.stringify(data, null, 1) + "\n");
 }
+
+/** Peak resident set of this process so far (VmHWM), MiB; NaN where /proc is unavailable. */
+export function peakRss(): number {
+  try {
+    const m = /VmHWM:\s+(\d+) kB/.exec(Deno.readTextFileSync("/proc/self/status"));
+    return m ? Number(m[1]) / 1024 : NaN;
+  } catch {
+    return NaN;
+  }
+}

@@ -23,6 +23,7 @@ import { modelFromJson, modelToJson, type SurfaceModel } from "../src/model/mode
 import type { CleanPoints, GridValues } from "../src/types.ts";
 import { gaussian, mulberry32 } from "../src/random.ts";
 import { franke } from "../test/helpers.ts";
+import { peakRss } from "./harness.ts";
 
 const SITE = 1000;
 const args = new Set(Deno.args);
@@ -38,16 +39,6 @@ function sitePoints(n: number, seed: number): CleanPoints {
     z[i] = truth(x[i], y[i]) + 0.05 * g();
   }
   return { x, y, z, lines: Array.from({ length: n }, (_, i) => i + 2), skipped: [], merged: [], rowsRead: n };
-}
-
-/** Peak resident set of this process so far (VmHWM), MiB; NaN where /proc is unavailable. */
-function peakRss(): number {
-  try {
-    const m = /VmHWM:\s+(\d+) kB/.exec(Deno.readTextFileSync("/proc/self/status"));
-    return m ? Number(m[1]) / 1024 : NaN;
-  } catch {
-    return NaN;
-  }
 }
 
 /** Time a stage, sampling the resident set while it runs (when the main thread is free) and at its end. */

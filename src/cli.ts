@@ -15,13 +15,15 @@ import { type ProgressReporter, progressReporter, type TerminalWriter } from "./
 import { messageText } from "./text.ts";
 import { MODEL_VERSION } from "./model/model.ts";
 import type { KernelName, TrendName } from "./types.ts";
-import { contourVerb, fitVerb, gridVerb, mapVerb, predictVerb, runVerb, type VerbResult } from "./verbs.ts";
+import { contourVerb, fitVerb, gridVerb, mapVerb, predictVerb, runVerb, tilesVerb, type VerbResult } from "./verbs.ts";
+import { DEFAULT_TILE_SIZE } from "./evaluate/tiles.ts";
+import { parseSize } from "./job/memory.ts";
 import type { MapOptions } from "./write/map.ts";
 import { outputNamesText } from "./write/outputs.ts";
 
 type Spec = Record<string, { type: "string" | "boolean"; multiple?: boolean }>;
 
-const COMMON: Spec = { help: { type: "boolean" }, json: { type: "boolean" }, debug: { type: "boolean" }, quiet: { type: "boolean" } };
+const COMMON: Spec = { help: { type: "boolean" }, json: { type: "boolean" }, debug: { type: "boolean" }, quiet: { type: "boolean" }, "max-memory": { type: "string" } };
 const POINTS: Spec = {
   x: { type: "string" },
   y: { type: "string" },
@@ -57,6 +59,7 @@ const MODEL: Spec = {
 };
 const GRID: Spec = { cell: { type: "string" }, extent: { type: "string" }, mask: { type: "string" }, force: { type: "boolean" } };
 const STDERR: Spec = { stderr: { type: "string" } };
+const TILE: Spec = { tile: { type: "string" }, "tile-size": { type: "string" } };
 const TITLE: Spec = { title: { type: "string" }, date: { type: "string" } };
 const SHEET: Spec = { paper: { type: "string" }, orientation: { type: "string" }, scale: { type: "string" }, relief: { type: "boolean" }, "label-points": { type: "boolean" } };
 const LEVELS: Spec = { interval: { type: "string" }, base: { type: "string" }, levels: { type: "string" } };
@@ -119,6 +122,10 @@ const GRID_HELP = `  --cell SIZE               cell size in map units (default: 
   --force                   allow grids above 100 million cells`;
 const STDERR_HELP = `  --stderr FILE.tif         also write the standard error of the estimate as a second GeoTIFF
                             (model-based, not a survey tolerance; see README)`;
+const TILE_HELP = `  --tile COL,ROW            write only this tile of the grid (0-based, from the north-west corner),
+                            computed from the points that reach it; 'rbfield tiles' puts the tiles
+                            together, byte for byte the grid written whole
+  --tile-size N             tile side in cells (default ${DEFAULT_TILE_SIZE})`;
 const TITLE_HELP = `  --title TEXT              title of the map (and of the report)
   --date YYYY-MM-DD         date in the title block (default today, UTC; give it for byte-identical
                             outputs on another day)`;
@@ -128,7 +135,9 @@ const LEVELS_HELP = `  --interval DZ             contour interval (default: a ro
                             index contour
   --levels L1,L2,…          contour exactly these levels instead (e.g. thresholds 1,10,100,1000;
                             each is an index contour)`;
-const COMMON_HELP = `  --json                    print a machine-readable JSON summary on stdout
+const COMMON_HELP = `  --max-memory SIZE         refuse work whose estimated peak memory is larger (default: half of the
+                            machine's memory; e.g. 8GiB, 512MiB; K, M, G, T are powers of 1024)
+  --json                    print a machine-readable JSON summary on stdout
   --quiet                   no progress on stderr (otherwise a bar when stderr is a terminal,
                             else one line per step)
   --debug                   show a stack trace on internal errors
@@ -144,6 +153,7 @@ Verbs:
   grid MODEL --out FILE.tif       evaluate the surface on a georeferenced grid (GeoTIFF)
   contour MODEL|FILE.tif --out FILE.geojson                contour lines or filled bands
   predict MODEL LOCATIONS.csv --out FILE.csv                estimates at listed places
+  tiles TILE.tif… --out FILE.tif  put tiles written by 'grid --tile' together into the whole grid
   map MODEL|FILE.tif --out FILE.pdf|.svg|.png              a contour map to print
   run POINTS --out DIR            the whole job: model, grid, contours, estimates, map, report, summary
 
@@ -170,6 +180,15 @@ areas; nodata -9999 for masked cells; CRS keys from the model's EPSG code).
 
 ${GRID_HELP}
 ${STDERR_HELP}
+${TILE_HELP}
+${COMMON_HELP}
+`,
+  tiles: `Usage: deno task rbfield tiles TILE.tif [TILE.tif …] --out FILE.tif [options]
+
+Puts the tiles written by 'grid MODEL --tile COL,ROW' (or their standard-error tiles) together into
+the whole grid: the same bytes as 'grid MODEL' without --tile. Every tile of the grid must be given
+once.
+
 ${COMMON_HELP}
 `,
   contour: `Usage: deno task rbfield contour MODEL|FILE.tif --out FILE.geojson [options]
@@ -247,6 +266,28 @@ function patchPointsOption(v: Record<string, unknown>): number | undefined {
   const p = num(v["patch-points"] as string | undefined, "patch-points");
   if (p !== undefined && !(Number.isInteger(p) && p >= 3)) throw usage("--patch-points must be a whole number ≥ 3, such as 150");
   return p;
+}
+
+function tileOption(v: Record<string, unknown>): { col: number; row: number; size: number } | undefined {
+  const text = v.tile as string | undefined;
+  const sizeText = v["tile-size"] as string | undefined;
+  if (text === undefined) {
+    if (sizeText !== undefined) throw usage("--tile-size goes with --tile COL,ROW");
+    return undefined;
+  }
+  const parts = text.split(",").map((t) => (/^\s*\d+\s*$/.test(t) ? Number(t) : NaN));
+  if (parts.length !== 2 || !parts.every(Number.isSafeInteger)) throw usage(`--tile must be COL,ROW, whole numbers from 0 (e.g. 0,0 or 3,2), not "${messageText(text, 20)}"`);
+  const size = sizeText === undefined ? DEFAULT_TILE_SIZE : Number(sizeText);
+  if (!(Number.isSafeInteger(size) && size >= 1 && /^\s*\d+\s*$/.test(sizeText ?? "1"))) throw usage(`--tile-size must be a whole number of cells ≥ 1, such as 1024, not "${messageText(sizeText ?? "", 20)}"`);
+  return { col: parts[0], row: parts[1], size };
+}
+
+function maxMemoryOption(v: Record<string, unknown>): number | undefined {
+  const text = v["max-memory"] as string | undefined;
+  if (text === undefined) return undefined;
+  const bytes = parseSize(text);
+  if (bytes === undefined) throw usage(`--max-memory must be a size such as 8GiB, 512MiB or 2G, not "${messageText(text, 20)}"`);
+  return bytes;
 }
 
 function classOption(v: Record<string, unknown>): number[] | undefined {
@@ -428,10 +469,11 @@ export async function main(args: string[], io: Io): Promise<number> {
       io.out(HELP.main);
       return verb === undefined ? ExitCode.usage : 0;
     }
-    if (!(verb in HELP) || verb === "main") throw usage(`unknown verb "${verb}"; verbs: fit, grid, contour, predict, map, run (see --help)`);
+    if (!(verb in HELP) || verb === "main") throw usage(`unknown verb "${verb}"; verbs: fit, grid, contour, predict, map, run, tiles (see --help)`);
     const specs: Record<string, Spec> = {
       fit: { ...COMMON, ...POINTS, ...MODEL, out: { type: "string" } },
-      grid: { ...COMMON, ...GRID, ...STDERR, out: { type: "string" } },
+      grid: { ...COMMON, ...GRID, ...STDERR, ...TILE, out: { type: "string" } },
+      tiles: { ...COMMON, out: { type: "string" } },
       contour: { ...COMMON, ...GRID, ...CONTOUR, out: { type: "string" } },
       predict: { ...COMMON, x: { type: "string" }, y: { type: "string" }, header: { type: "string" }, crs: { type: "string" }, out: { type: "string" } },
       run: { ...COMMON, ...POINTS, ...MODEL, ...GRID, ...CONTOUR, ...TITLE, out: { type: "string" }, locations: { type: "string" } },
@@ -467,16 +509,19 @@ export async function main(args: string[], io: Io): Promise<number> {
     reporter = progressReporter({ quiet: Boolean(v.quiet), terminal: io.terminal, line: io.err });
     const progress = reporter.progress;
     const wantPositionals = verb === "predict" ? 2 : 1;
-    if (pos.length !== wantPositionals) {
-      throw usage(`${verb} takes ${wantPositionals === 2 ? "MODEL and LOCATIONS" : "one input file"}, got ${pos.length} (see 'deno task rbfield ${verb} --help')`);
+    if (verb === "tiles" ? pos.length === 0 : pos.length !== wantPositionals) {
+      throw usage(`${verb} takes ${verb === "tiles" ? "one or more tile files" : wantPositionals === 2 ? "MODEL and LOCATIONS" : "one input file"}, got ${pos.length} (see 'deno task rbfield ${verb} --help')`);
     }
     const out = v.out as string | undefined;
     if (!out) throw usage(`${verb} needs --out (see 'deno task rbfield ${verb} --help')`);
     const mask = maskOption(v);
     let result: VerbResult;
-    if (verb === "fit") result = await fitVerb(pointsSource(pos[0], v), { ...fitOptions(v), progress }, out);
+    const maxMemory = maxMemoryOption(v);
+    if (verb === "fit") result = await fitVerb(pointsSource(pos[0], v), { ...fitOptions(v), progress }, out, [], maxMemory);
     else if (verb === "grid") {
-      result = await gridVerb({ model: pos[0], out, stderr: v.stderr as string | undefined, grid: { ...gridOptions(v), progress }, mask });
+      result = await gridVerb({ model: pos[0], out, stderr: v.stderr as string | undefined, grid: { ...gridOptions(v), progress }, mask, tile: tileOption(v), maxMemory });
+    } else if (verb === "tiles") {
+      result = await tilesVerb({ tiles: pos, out, maxMemory });
     } else if (verb === "contour") {
       result = await contourVerb({
         input: pos[0],
@@ -486,6 +531,7 @@ export async function main(args: string[], io: Io): Promise<number> {
         threeD: Boolean(v["3d"]),
         grid: { ...gridOptions(v), progress },
         mask,
+        maxMemory,
       });
     } else if (verb === "map") {
       result = await mapVerb({
@@ -497,9 +543,20 @@ export async function main(args: string[], io: Io): Promise<number> {
         sheet: sheetOptions(v),
         grid: { ...gridOptions(v), progress },
         mask,
+        maxMemory,
       });
     } else if (verb === "predict") {
-      result = await predictVerb({ model: pos[0], locations: pos[1], out, x: v.x as string | undefined, y: v.y as string | undefined, header: headerOption(v), crs: v.crs as string | undefined, progress });
+      result = await predictVerb({
+        model: pos[0],
+        locations: pos[1],
+        out,
+        x: v.x as string | undefined,
+        y: v.y as string | undefined,
+        header: headerOption(v),
+        crs: v.crs as string | undefined,
+        progress,
+        maxMemory,
+      });
     } else {
       result = await runVerb({
         ...pointsSource(pos[0], v),
@@ -513,6 +570,7 @@ export async function main(args: string[], io: Io): Promise<number> {
         title: v.title as string | undefined,
         date: dateOption(v),
         progress,
+        maxMemory,
       });
     }
     reporter.clear();

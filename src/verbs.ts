@@ -1,12 +1,14 @@
 // The verbs' workflows as library calls: each reads its inputs, computes, writes its files as one
 // step and returns what the CLI prints (text for people, a record for --json) and warnings for
 // stderr. The CLI (src/cli.ts) only parses arguments and prints.
+import * as fs from "node:fs";
 import * as path from "node:path";
 import { CAUTION } from "./caution.ts";
 import { ExitCode, opt, RbfieldError } from "./errors.ts";
 import { gridModelParallel } from "./evaluate/parallel.ts";
-import { gridStandardError } from "./evaluate/stderr.ts";
-import type { GridOptions } from "./evaluate/grid.ts";
+import { gridStandardErrorParallel } from "./evaluate/stderr.ts";
+import { gridLayout, type GridOptions } from "./evaluate/grid.ts";
+import { checkMemory, estimateMemory, memoryAdvice, type MemoryLimit, memoryLimit, methodFor, peakResidentBytes } from "./job/memory.ts";
 import type { FitOptions } from "./fit/surface.ts";
 import {
   estimateColumns,
@@ -23,16 +25,18 @@ import {
   runJob,
   type RunOptions,
 } from "./job.ts";
-import { modelToJson, type SurfaceModel } from "./model/model.ts";
+import { modelFiles, type SurfaceModel } from "./model/model.ts";
+import { sidecarPath } from "./model/binary.ts";
 import type { MaskFile } from "./read/mask.ts";
-import { checkWritableFolder, refuseInputAsOutput, writeFileAtomic, writeFilesAtomic } from "./write/atomic.ts";
+import { checkWritableFolder, refuseFolderAsOutput, refuseInputAsOutput, writeFileAtomic, writeFilesAtomic } from "./write/atomic.ts";
 import { contourGeoJson } from "./write/contours.ts";
 import { chooseLevelRule, describeLevels, type LevelRule } from "./write/levels.ts";
 import { crsText } from "./text.ts";
 import { mapInputFromGrid, mapInputFromModel, type MapInput, type MapOptions, renderMap } from "./write/map.ts";
 import { mapToPdf, mapToPng } from "./write/map/print.ts";
 import { estimatesCsv } from "./write/csv.ts";
-import { encodeGeoTiff } from "./write/geotiff.ts";
+import { encodeGeoTiff, geoTiffTags } from "./write/geotiff.ts";
+import { assembleTiles, gridTile, tileDescription, type TileFile, tileStandardError } from "./evaluate/tiles.ts";
 import { contourText, gridText, modelSummaryLines, pointLabel } from "./write/summary.ts";
 
 /** What a verb hands back to the CLI. */
@@ -90,19 +94,39 @@ function flaggedPoints(model: SurfaceModel): { line: number; point: string | nul
   });
 }
 
+/** The files a model or grid input reads: a GeoTIFF alone, a model file with its binary part's path. */
+function modelInputs(input: string): string[] {
+  return /\.tiff?$/i.test(input) ? [input] : [input, sidecarPath(input)];
+}
+
 /** Refuse an output that would overwrite an input, and check its folder before long work. */
 function prepareOutput(out: string, inputs: string[]): void {
   refuseInputAsOutput(out, inputs);
   checkWritableFolder(out);
 }
 
-export async function fitVerb(src: PointsSource, fit: FitOptions, out: string, otherInputs: string[] = []): Promise<VerbResult> {
-  prepareOutput(out, [src.file, ...otherInputs]);
-  const r = await fitPointsFile(src, fit);
-  writeFileAtomic(out, modelToJson(r.model));
+export async function fitVerb(src: PointsSource, fit: FitOptions, out: string, otherInputs: string[] = [], maxMemory?: number): Promise<VerbResult> {
+  const inputs = [src.file, ...otherInputs];
+  prepareOutput(out, inputs);
+  // A local model's binary part goes beside the model file (model/binary.ts): it must not overwrite an input either.
+  refuseInputAsOutput(sidecarPath(out), inputs);
+  refuseFolderAsOutput(sidecarPath(out));
+  const limit = memoryLimit(maxMemory);
+  let estimate = 0;
+  const r = await fitPointsFile(src, fit, (loaded) => {
+    const n = loaded.points.x.length;
+    const method = methodFor(n, fit.method);
+    const e = estimateMemory({ points: n, method, patchPoints: fit.patchPoints, fits: true });
+    estimate = e.bytes;
+    const local = method === "global" ? estimateMemory({ points: n, method: "local", patchPoints: fit.patchPoints, fits: true }) : undefined;
+    checkMemory(e, limit, memoryAdvice(e, { local }));
+  });
+  const files = modelFiles(out, r.model);
+  writeFilesAtomic(files);
+  const data = files[1]?.[0] ?? null;
   return {
-    text: [...r.notes, ...modelSummaryLines(r.model), `Model written to ${out}`, "", CAUTION, ""].join("\n"),
-    json: { ...modelJson(r.model), input: inputJson(r, r.model), model: out },
+    text: [...r.notes, ...modelSummaryLines(r.model), `Model written to ${out}${data ? ` (its arrays in ${data})` : ""}`, "", CAUTION, ""].join("\n"),
+    json: { ...modelJson(r.model), input: inputJson(r, r.model), model: out, modelData: data, memory: memoryJson(estimate, limit) },
     warnings: [],
   };
 }
@@ -117,16 +141,22 @@ export interface GridVerbOptions {
   otherInputs?: string[];
   /** A mask polygon file as read (readMask), brought into the model's CRS. */
   mask?: MaskFile;
+  /** Write only this tile of the grid (evaluate/tiles.ts): 0-based column and row, side in cells. */
+  tile?: { col: number; row: number; size: number };
+  /** Memory limit in bytes (default: half of the machine's memory; job/memory.ts). */
+  maxMemory?: number;
 }
 
 export async function gridVerb(o: GridVerbOptions): Promise<VerbResult> {
-  const inputs = [o.model, ...(o.mask ? [o.mask.file] : []), ...(o.otherInputs ?? [])];
+  const inputs = [o.model, sidecarPath(o.model), ...(o.mask ? [o.mask.file] : []), ...(o.otherInputs ?? [])];
   prepareOutput(o.out, inputs);
   if (o.stderr) prepareOutput(o.stderr, [...inputs, o.out]);
   const model = readModel(o.model);
   const masked = await gridOptionsFor(model, o.grid, o.mask);
+  const memory = checkGridMemory(model, masked.grid, o.maxMemory, { stderr: Boolean(o.stderr), tile: o.tile });
+  if (o.tile) return await tileVerb(o, model, masked, memory);
   const grid = await gridModelParallel(model, masked.grid);
-  const se = o.stderr ? gridStandardError(model, grid, o.grid.progress) : undefined;
+  const se = o.stderr ? await gridStandardErrorParallel(model, grid, o.grid.progress) : undefined;
   writeFilesAtomic([[o.out, encodeGeoTiff(grid)], ...(o.stderr && se ? [[o.stderr, encodeGeoTiff(se.grid)] as [string, Uint8Array]] : [])]);
   const s = grid.spec;
   const seLine = o.stderr && se
@@ -144,8 +174,111 @@ export async function gridVerb(o: GridVerbOptions): Promise<VerbResult> {
       file: o.out,
       stderrFile: o.stderr ?? null,
       stderrStride: se?.stride ?? null,
+      memory: memory(),
       caution: CAUTION,
     },
+    warnings: [],
+  };
+}
+
+/**
+ * Check before gridding that the grid (or tile) fits the memory limit; returns what --json reports
+ * (called at the end, so the peak measured includes the work).
+ */
+function checkGridMemory(
+  model: SurfaceModel,
+  grid: GridOptions,
+  maxMemory: number | undefined,
+  o: { stderr?: boolean; tile?: { col: number; row: number; size: number }; extra?: number },
+): () => Record<string, unknown> {
+  const spec = gridLayout(model, o.tile ? { ...grid, force: true } : grid);
+  const cells = o.tile ? Math.min(spec.cols, o.tile.size) * Math.min(spec.rows, o.tile.size) : spec.cols * spec.rows;
+  const limit = memoryLimit(maxMemory);
+  const e = estimateMemory({ points: model.points.x.length, method: model.method, cells, stderr: o.stderr });
+  if (o.extra) e.bytes += o.extra;
+  checkMemory(e, limit, memoryAdvice(e, { tiles: !o.tile }));
+  return () => memoryJson(e.bytes, limit);
+}
+
+/** What --json says about memory: the estimate, the limit and where it comes from, the peak resident set measured (null where unreadable). */
+function memoryJson(estimate: number, limit: MemoryLimit): Record<string, unknown> {
+  return { estimate, limit: limit.bytes, limitSource: limit.source, peak: peakResidentBytes() };
+}
+
+/** grid --tile: one tile of the grid, computed from the part of the model that reaches it. */
+async function tileVerb(o: GridVerbOptions, model: SurfaceModel, masked: { grid: GridOptions; notes: string[] }, memory: () => Record<string, unknown>): Promise<VerbResult> {
+  const t = await gridTile(model, masked.grid, o.tile!);
+  const se = o.stderr ? await tileStandardError(model, t) : undefined;
+  const description = tileDescription(t);
+  writeFilesAtomic([
+    [o.out, encodeGeoTiff(t.grid, { description })],
+    ...(o.stderr && se ? [[o.stderr, encodeGeoTiff(se.grid, { description })] as [string, Uint8Array]] : []),
+  ]);
+  const w = t.window, s = t.grid.spec;
+  const from = t.patches === null ? `all ${t.points.toLocaleString("en")} points` : `${t.patches.toLocaleString("en")} patches holding ${t.points.toLocaleString("en")} of ${model.points.x.length.toLocaleString("en")} points`;
+  const seLine = o.stderr && se
+    ? `Standard error of the estimate for the tile written to ${o.stderr}${se.stride > 1 ? ` (computed every ${se.stride} cells of the whole grid and interpolated)` : ""}\n`
+    : "";
+  return {
+    text: `${masked.notes.map((n) => `${n}\n`).join("")}Tile ${t.col},${t.row} of ${t.tiles.cols} × ${t.tiles.rows} (columns ${w.c0 + 1}–${w.c1}, rows ${w.r0 + 1}–${w.r1} ` +
+      `of the ${t.whole.cols} × ${t.whole.rows} grid) written to ${o.out}; computed from ${from}\n${seLine}` +
+      `Put the tiles together with 'rbfield tiles TILE.tif … --out GRID.tif'\n\n${CAUTION}\n`,
+    json: {
+      tile: { col: t.col, row: t.row, size: t.size, tiles: t.tiles, columns: [w.c0, w.c1], rows: [w.r0, w.r1] },
+      grid: { cols: t.whole.cols, rows: t.whole.rows, cell: t.whole.cell, extent: [t.whole.xmin, t.whole.ymin, t.whole.xmax, t.whole.ymax] },
+      cols: s.cols,
+      rows: s.rows,
+      extent: [s.xmin, s.ymin, s.xmax, s.ymax],
+      patches: t.patches,
+      points: t.points,
+      crs: t.grid.crs,
+      file: o.out,
+      stderrFile: o.stderr ?? null,
+      stderrStride: se?.stride ?? null,
+      memory: memory(),
+      caution: CAUTION,
+    },
+    warnings: [],
+  };
+}
+
+export interface TilesVerbOptions {
+  /** Tile GeoTIFFs written by grid --tile. */
+  tiles: string[];
+  out: string;
+  maxMemory?: number;
+}
+
+/** Put tiles written by grid --tile together into the whole grid (byte-identical to gridding it whole). */
+export async function tilesVerb(o: TilesVerbOptions): Promise<VerbResult> {
+  prepareOutput(o.out, o.tiles);
+  // The tiles' cells, read and assembled (8 bytes each, twice) and written (4): from the files' sizes.
+  const limit = memoryLimit(o.maxMemory);
+  let cells = 0;
+  for (const file of o.tiles) {
+    try {
+      cells += fs.statSync(file).size / 4;
+    } catch { /* readGrid names a missing file */ }
+  }
+  const estimate = estimateMemory({ points: 0, method: "global", cells: 3 * cells / 2 });
+  checkMemory(estimate, limit, []);
+  const files: TileFile[] = [];
+  for (const file of o.tiles) {
+    const grid = await readGrid(file);
+    let tags;
+    try {
+      tags = await geoTiffTags(fs.readFileSync(file));
+    } catch (e) {
+      throw new RbfieldError(`cannot read the GeoTIFF tags (${(e as Error).message})`, ExitCode.input, { file });
+    }
+    files.push({ file, grid: { ...grid, crs: tags.crs }, description: tags.description });
+  }
+  const grid = assembleTiles(files);
+  writeFileAtomic(o.out, encodeGeoTiff(grid));
+  const s = grid.spec;
+  return {
+    text: `${o.tiles.length} tiles put together: grid of ${gridText(s, grid.crs)} written to ${o.out} (CRS ${crsText(grid.crs)})\n\n${CAUTION}\n`,
+    json: { tiles: o.tiles.length, cols: s.cols, rows: s.rows, cell: s.cell, extent: [s.xmin, s.ymin, s.xmax, s.ymax], crs: grid.crs, file: o.out, memory: memoryJson(estimate.bytes, limit), caution: CAUTION },
     warnings: [],
   };
 }
@@ -166,14 +299,17 @@ export interface ContourVerbOptions {
   otherInputs?: string[];
   /** A mask polygon file as read (readMask); applies when the input is a model. */
   mask?: MaskFile;
+  maxMemory?: number;
 }
 
 export async function contourVerb(o: ContourVerbOptions): Promise<VerbResult> {
-  prepareOutput(o.out, [o.input, ...(o.mask ? [o.mask.file] : []), ...(o.otherInputs ?? [])]);
+  prepareOutput(o.out, [...modelInputs(o.input), ...(o.mask ? [o.mask.file] : []), ...(o.otherInputs ?? [])]);
   const isTiff = /\.tiff?$/i.test(o.input);
   if (o.threeD && o.bands) throw new RbfieldError(`${opt("threeD")} applies to contour lines; filled bands lie between two levels`, ExitCode.usage);
   const model = isTiff ? undefined : readModel(o.input);
-  const grid = model ? await gridModelParallel(model, (await gridOptionsFor(model, o.grid, o.mask)).grid) : await readGrid(o.input);
+  const gridOpts = model ? (await gridOptionsFor(model, o.grid, o.mask)).grid : undefined;
+  if (model) checkGridMemory(model, gridOpts!, o.maxMemory, {});
+  const grid = model ? await gridModelParallel(model, gridOpts) : await readGrid(o.input);
   const rule = chooseLevelRule(o, grid.values, model?.transform);
   const r = contourGeoJson(grid, rule, { bands: o.bands, threeD: o.threeD, progress: o.grid.progress });
   writeFileAtomic(o.out, r.text);
@@ -196,11 +332,16 @@ export interface PredictVerbOptions {
   /** CRS of the locations when it is not the model's (e.g. EPSG:4326 for latitude/longitude). */
   crs?: string;
   progress?: (message: string, fraction?: number) => void;
+  maxMemory?: number;
 }
 
 export async function predictVerb(o: PredictVerbOptions): Promise<VerbResult> {
-  prepareOutput(o.out, [o.model, o.locations]);
+  prepareOutput(o.out, [o.model, sidecarPath(o.model), o.locations]);
   const model = readModel(o.model);
+  // The standard errors refactorise the model (a global model's N² matrices; a local model's patches).
+  const memory = memoryLimit(o.maxMemory);
+  const estimate = estimateMemory({ points: model.points.x.length, method: model.method, stderr: true });
+  checkMemory(estimate, memory, []);
   const table = await readLocations(o.locations, model, { x: o.x, y: o.y, header: o.header, crs: o.crs });
   o.progress?.(`estimates and standard errors at ${table.rows.length} places`);
   const est = estimateTable(model, table);
@@ -208,12 +349,13 @@ export async function predictVerb(o: PredictVerbOptions): Promise<VerbResult> {
   return {
     text: [...estimateSummaryLines(est, model), `Written to ${o.out}`, "", CAUTION, ""].join("\n"),
     json: {
-      rows: table.rows.length,
+      rows: table.lines.length,
       unusableLines: est.unusable,
       outsideHullLines: est.outsideHull,
       farFromDataLines: est.farFromData,
       outOfRangeLines: est.outOfRange,
       file: o.out,
+      memory: memoryJson(estimate.bytes, memory),
       caution: CAUTION,
     },
     // Empty or all-zero standard errors never pass without a reason on stderr.
@@ -239,6 +381,7 @@ export interface MapVerbOptions {
   otherInputs?: string[];
   /** A mask polygon file as read (readMask); applies when the input is a model. */
   mask?: MaskFile;
+  maxMemory?: number;
 }
 
 /** The interval of an interval rule (--json's "interval"), else null. */
@@ -250,7 +393,7 @@ function intervalOf(rule: LevelRule): number | null {
 export async function mapVerb(o: MapVerbOptions): Promise<VerbResult> {
   const format = /\.(svg|pdf|png)$/i.exec(o.out)?.[1].toLowerCase();
   if (!format) throw new RbfieldError(`the map is written as .svg, .pdf or .png (by the ending of ${opt("out")}), not "${o.out}"`, ExitCode.usage);
-  prepareOutput(o.out, [o.input, ...(o.mask ? [o.mask.file] : []), ...(o.otherInputs ?? [])]);
+  prepareOutput(o.out, [...modelInputs(o.input), ...(o.mask ? [o.mask.file] : []), ...(o.otherInputs ?? [])]);
   const date = o.date ?? new Date().toISOString().slice(0, 10);
   const isTiff = /\.tiff?$/i.test(o.input);
   let input: MapInput;
@@ -260,7 +403,9 @@ export async function mapVerb(o: MapVerbOptions): Promise<VerbResult> {
     input = mapInputFromGrid(grid, { rule, title: o.title ?? path.basename(o.input), dataFile: path.basename(o.input), date });
   } else {
     const model = readModel(o.input);
-    const grid = await gridModelParallel(model, (await gridOptionsFor(model, o.grid, o.mask)).grid);
+    const gridOpts = (await gridOptionsFor(model, o.grid, o.mask)).grid;
+    checkGridMemory(model, gridOpts, o.maxMemory, {});
+    const grid = await gridModelParallel(model, gridOpts);
     input = mapInputFromModel(model, grid, { rule: chooseLevelRule(o, grid.values, model.transform), title: o.title, date });
   }
   o.grid.progress?.(`drawing the map${format === "svg" ? "" : ` and writing it as ${format.toUpperCase()}`}`);
@@ -286,5 +431,5 @@ export async function mapVerb(o: MapVerbOptions): Promise<VerbResult> {
 
 export async function runVerb(o: RunOptions): Promise<VerbResult> {
   const r = await runJob(o);
-  return { text: r.summary, json: { ...modelJson(r.model), input: r.input, files: r.files }, warnings: r.warnings };
+  return { text: r.summary, json: { ...modelJson(r.model), input: r.input, files: r.files, memory: r.memory }, warnings: r.warnings };
 }

@@ -90,9 +90,26 @@ export function gridLayout(model: SurfaceModel, options: GridLayoutOptions = {})
  * across polygons), by scanline crossing (common practice; O(cells + edges·rows)).
  */
 export function polygonMask(spec: GridSpec, polygons: PolygonRings[]): Uint8Array {
-  const inside = new Uint8Array(spec.cols * spec.rows);
+  return polygonMaskWindow(spec, polygons, { r0: 0, r1: spec.rows, c0: 0, c1: spec.cols });
+}
+
+/** Rows [r0, r1) and columns [c0, c1) of a grid: a tile, or the whole grid. */
+export interface GridWindow {
+  r0: number;
+  r1: number;
+  c0: number;
+  c1: number;
+}
+
+/**
+ * polygonMask for a window of the grid only (row-major over the window). The crossings are
+ * computed from the whole grid's rows, so every cell gets the same answer as in the whole mask.
+ */
+export function polygonMaskWindow(spec: GridSpec, polygons: PolygonRings[], w: GridWindow): Uint8Array {
+  const width = w.c1 - w.c0;
+  const inside = new Uint8Array(width * (w.r1 - w.r0));
   const xs: number[] = [];
-  for (let r = 0; r < spec.rows; r++) {
+  for (let r = w.r0; r < w.r1; r++) {
     const yc = spec.ymax - (r + 0.5) * spec.cell;
     for (const poly of polygons) {
       xs.length = 0;
@@ -106,10 +123,10 @@ export function polygonMask(spec: GridSpec, polygons: PolygonRings[]): Uint8Arra
       }
       xs.sort((a, b) => a - b);
       for (let k = 0; k + 1 < xs.length; k += 2) {
-        // columns whose centre x lies in [xs[k], xs[k+1])
-        const c0 = Math.max(0, Math.ceil((xs[k] - spec.xmin) / spec.cell - 0.5));
-        const c1 = Math.min(spec.cols - 1, Math.ceil((xs[k + 1] - spec.xmin) / spec.cell - 0.5) - 1);
-        for (let c = c0; c <= c1; c++) inside[r * spec.cols + c] = 1;
+        // columns whose centre x lies in [xs[k], xs[k+1]), within the window
+        const c0 = Math.max(w.c0, Math.ceil((xs[k] - spec.xmin) / spec.cell - 0.5));
+        const c1 = Math.min(w.c1 - 1, Math.ceil((xs[k + 1] - spec.xmin) / spec.cell - 0.5) - 1);
+        for (let c = c0; c <= c1; c++) inside[(r - w.r0) * width + c - w.c0] = 1;
       }
     }
   }
@@ -160,11 +177,14 @@ export function evaluateRows(
   mask: Uint8Array | null | undefined,
   out: Float64Array,
   onRow?: (row: number) => void,
+  cols: { c0: number; c1: number } = { c0: 0, c1: spec.cols },
 ): void {
+  // Cell centres from the whole grid's origin, so a tile's cells are the whole grid's, bit for bit.
+  const width = cols.c1 - cols.c0;
   for (let r = rowStart; r < rowEnd; r++) {
     const yc = spec.ymax - (r + 0.5) * spec.cell;
-    for (let c = 0; c < spec.cols; c++) {
-      const k = (r - rowStart) * spec.cols + c;
+    for (let c = cols.c0; c < cols.c1; c++) {
+      const k = (r - rowStart) * width + c - cols.c0;
       out[k] = mask && !mask[k] ? NaN : ev.at(spec.xmin + (c + 0.5) * spec.cell, yc);
     }
     onRow?.(r);

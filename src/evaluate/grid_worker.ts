@@ -1,4 +1,5 @@
-// Worker for parallel gridding: evaluates a block of grid rows of a packed surface (see parallel.ts).
+// Worker for parallel gridding: evaluates a block of grid rows (within columns [c0, c1)) of a packed
+// surface (see parallel.ts).
 import type { GridSpec } from "../types.ts";
 import { evaluatorOf, type PackedSurface } from "./evaluate.ts";
 import { evaluateRows } from "./grid.ts";
@@ -9,14 +10,15 @@ interface Job {
   spec: GridSpec;
   rowStart: number;
   rowEnd: number;
+  c0: number;
+  c1: number;
   mask: Uint8Array | null;
 }
 
-
 globalThis.addEventListener("message", (e: Event) => {
   const event = e as MessageEvent<Job>;
-  const { surface, spec, rowStart, rowEnd, mask } = event.data;
-  const values = new Float64Array((rowEnd - rowStart) * spec.cols);
-  evaluateRows(evaluatorOf(surface), spec, rowStart, rowEnd, mask, values);
+  const { surface, spec, rowStart, rowEnd, c0, c1, mask } = event.data;
+  const values = new Float64Array((rowEnd - rowStart) * (c1 - c0));
+  evaluateRows(evaluatorOf(surface), spec, rowStart, rowEnd, mask, values, undefined, { c0, c1 });
   workerPort.postMessage(values, [values.buffer]);
 });

@@ -246,3 +246,37 @@ export function localEvaluator(p: PackedLocal): Evaluator {
   };
   return evaluatorOfRaw(raw, p.logBias);
 }
+
+/** A packed local model cut down to some of its patches (ascending): their arrays, unchanged. */
+export function subsetPatches(p: PackedLocal, patches: Int32Array): PackedLocal {
+  const pick = (a: Float64Array) => Float64Array.from(patches, (j) => a[j]);
+  const m = p.m;
+  const start = new Int32Array(patches.length + 1);
+  patches.forEach((j, a) => (start[a + 1] = start[a] + p.start[j + 1] - p.start[j]));
+  const members = start[patches.length];
+  const pu = new Float64Array(members), pv = new Float64Array(members), w = new Float64Array(members);
+  const c = new Float64Array(patches.length * m);
+  patches.forEach((j, a) => {
+    const from = p.start[j], to = p.start[j + 1];
+    pu.set(p.pu.subarray(from, to), start[a]);
+    pv.set(p.pv.subarray(from, to), start[a]);
+    w.set(p.w.subarray(from, to), start[a]);
+    c.set(p.c.subarray(j * m, j * m + m), a * m);
+  });
+  return {
+    ...p,
+    scaling: { ...p.scaling },
+    stretch: p.stretch ? { ...p.stretch } : null,
+    cu: pick(p.cu),
+    cv: pick(p.cv),
+    radius: pick(p.radius),
+    zc: pick(p.zc),
+    zs: pick(p.zs),
+    e2: pick(p.e2),
+    start,
+    pu,
+    pv,
+    w,
+    c,
+  };
+}

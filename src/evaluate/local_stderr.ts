@@ -2,8 +2,7 @@
 //
 // Inside patch j the global method's formula holds for fⱼ (stderr.ts: the fit read as kriging with
 // generalised covariance bⱼ·φ, flat prior on the trend, noise bⱼ·λⱼ/ωᵢ):
-//   seⱼ(x)² = zsⱼ² · b̂ⱼ · (φ(0) − sᵀ Mⱼ⁻¹ s),
-// computed from patch j's own bordered inverse (borderedInverse) and process scale (processScale).
+//   seⱼ(x)² = zsⱼ² · b̂ⱼ · (φ(0) − sᵀ Mⱼ⁻¹ s),  s = [D k(x); p(x)],  Mⱼ = [DKD + λI, DP; (DP)ᵀ, 0].
 // The blended estimate is f = Σⱼ wⱼ fⱼ with weights that do not depend on the data, so its error is
 // the weighted sum of the patch errors eⱼ, and by Minkowski's inequality
 //   sd(Σⱼ wⱼ eⱼ) ≤ Σⱼ wⱼ sd(eⱼ)   (wⱼ ≥ 0):
@@ -11,106 +10,316 @@
 // correlated, which neighbouring patches sharing most of their points nearly are). Measured against
 // the global method's standard error: see DEVELOPERS.md, "Local method".
 //
-// A patch's system is refactorised at its stored shape and λ when first needed (O(n³) for n points)
-// and kept in a bounded least-recently-used cache, so a grid traversed row by row factorises each
-// patch about once and memory stays bounded whatever the number of patches.
+// Each patch's quadratic form comes from one Cholesky factor (the null-space method, Golub & Van Loan
+// §12.1): with the trend's QR factorisation DP = Q[R; 0], Â = Qᵀ(DKD + λI)Q in blocks A₁₁ (m×m),
+// A₂₁ and B = A₂₂ = LLᵀ, and t = Qᵀ D k(x), a₁ = R⁻ᵀ p(x),
+//   sᵀM⁻¹s = 2 t₁ᵀa₁ − a₁ᵀA₁₁a₁ + ‖L⁻¹(t₂ − A₂₁a₁)‖²,
+// and the process scale b̂ = ỹᵀw̃/(n − m) = ‖L⁻¹ (Qᵀ D y)₂‖²/(n − m) (processScale). That is n³/6
+// multiply-adds per patch (the fit's tridiagonal reduction and explicit inverse took about 5n³)
+// and (n − m)²/2 per patch and place (the explicit inverse took n²). Where the Cholesky factorisation
+// fails (B not numerically positive definite) the patch is refitted and its bordered inverse formed
+// as before (fitCore, borderedInverse).
+//
+// At a data point xᵢ the patch quantity is known from the fit itself: φ(0) − sᵀMⱼ⁻¹s = λⱼ Aᵢᵢ⁽ʲ⁾/ωᵢ
+// (Aᵢᵢ the hat diagonal, as for the leave-one-out residuals), so the fit stores the blended error at
+// every data point (local.pointStdErrors) and the estimator returns it there without refactorising.
+//
+// A patch is factorised when first needed and kept in a bounded least-recently-used cache, so a
+// grid traversed row by row factorises each patch about once and memory stays bounded whatever the
+// number of patches. The estimator is built from packed typed arrays (packLocalErrors), which worker
+// threads receive (stderr_worker.ts): every value is computed by the same code on the same numbers,
+// whichever thread computes it.
 import { fitCore } from "../fit/core.ts";
 import { type BorderedInverse, borderedInverse, borderedQuadratic, processScale } from "../fit/influence.ts";
-import { kernelOfSquared, trendRow } from "../fit/kernels.ts";
+import { cholesky, householderQR, type Reflector, reflectSymmetric, applyReflector } from "../fit/linalg.ts";
+import { kernelOfSquared, trendRow, weightedKernelMatrix } from "../fit/kernels.ts";
 import { transformedValues } from "../fit/prepare.ts";
 import type { LocalModel } from "../model/model.ts";
-import { makeEvaluator } from "./evaluate.ts";
-import { makeBlender, packLocal } from "./local.ts";
+import type { TrendName } from "../types.ts";
+import { localBuffers, localEvaluator, makeBlender, type PackedLocal, packLocal, subsetPatches } from "./local.ts";
 import type { ErrorEstimator } from "./stderr.ts";
 
-/** Bytes of bordered inverses kept at once (least recently used dropped first). */
+/** Bytes of patch factors kept at once (least recently used dropped first). */
 const CACHE_BYTES = 256 * 2 ** 20;
 
-interface PatchErrors {
-  inv: BorderedInverse;
-  /** Process scale b̂ⱼ (scaled units). */
-  b: number;
-  sqrtW?: Float64Array;
+/** The local model packed for its error estimator: the surface's own arrays and what refactorising needs. */
+export interface PackedLocalErrors {
+  surface: PackedLocal;
+  trend: TrendName;
+  /** Number of data points. */
+  points: number;
+  /** Per patch member: its value centred and scaled by the patch ((z − zcⱼ)/zsⱼ, after the transform). */
+  y: Float64Array;
+  /** Per patch member: √ω as the patch fitted it; empty when every weight is 1. */
+  sqrtW: Float64Array;
+  /** Per patch: λ in its own scaled units. */
+  lambda: Float64Array;
+  /** Per data point, the blended standard error there (log units for log fits), from the fit; empty when the model has none. */
+  pointSe: Float64Array;
+  /** Data points' map coordinates (to recognise a data point), empty with pointSe. */
+  px: Float64Array;
+  py: Float64Array;
 }
 
-export function localErrorEstimator(model: LocalModel): ErrorEstimator {
-  const packed = packLocal(model);
+export function packLocalErrors(model: LocalModel): PackedLocalErrors {
   const l = model.local;
-  const { start, pu, pv, zc, zs, e2, m, cu, cv, radius } = packed;
+  const surface = packLocal(model);
   const values = transformedValues({ z: Float64Array.from(model.points.z), lines: model.points.line }, model.transform);
+  const y = new Float64Array(l.index.length);
+  for (let j = 0; j + 1 < l.start.length; j++) {
+    for (let k = l.start[j]; k < l.start[j + 1]; k++) y[k] = (values[l.index[k]] - l.zc[j]) / l.zs[j];
+  }
+  const withPoints = Array.isArray(l.pointStdErrors) && l.pointStdErrors.length === model.points.x.length;
+  return {
+    surface,
+    trend: model.trend,
+    points: model.points.x.length,
+    y,
+    sqrtW: l.memberWeights ? Float64Array.from(l.memberWeights, Math.sqrt) : new Float64Array(0),
+    lambda: Float64Array.from(l.lambdaScaled),
+    pointSe: withPoints ? Float64Array.from(l.pointStdErrors!) : new Float64Array(0),
+    px: withPoints ? Float64Array.from(model.points.x) : new Float64Array(0),
+    py: withPoints ? Float64Array.from(model.points.y) : new Float64Array(0),
+  };
+}
+
+/** The transferable buffers of packed local errors (postMessage). */
+export function localErrorBuffers(p: PackedLocalErrors): ArrayBuffer[] {
+  return [...localBuffers(p.surface), ...[p.y, p.sqrtW, p.lambda, p.pointSe, p.px, p.py].map((a) => a.buffer as ArrayBuffer)];
+}
+
+/** One patch's factors: from the Cholesky route, or (fallback) the bordered inverse. */
+type PatchFactor =
+  | { kind: "cholesky"; n: number; nb: number; m: number; qr: Reflector[]; rInv: Float64Array; a11: Float64Array; a21: Float64Array; l: Float64Array; b: number; bytes: number }
+  | { kind: "bordered"; inv: BorderedInverse; b: number; bytes: number };
+
+export function localErrorEstimator(model: LocalModel): ErrorEstimator {
+  return localErrorEstimatorPacked(packLocalErrors(model));
+}
+
+/** The error estimator of packed local errors (the same code in the main thread and in workers). */
+export function localErrorEstimatorPacked(pe: PackedLocalErrors): ErrorEstimator {
+  const packed = pe.surface;
+  const { start, pu, pv, zs, e2, m, cu, cv, radius } = packed;
   const blender = makeBlender(packed);
-  const cache = new Map<number, PatchErrors>();
+  const phi = kernelOfSquared(packed.kernel, 1);
+  const phi0 = phi(0);
+  const cache = new Map<number, PatchFactor>();
   let cachedBytes = 0;
-  const patchErrors = (j: number): PatchErrors => {
+
+  /** Patch j by the Cholesky route (see the top of this file); undefined when B is not positive definite. */
+  const choleskyFactor = (j: number): PatchFactor | undefined => {
+    const a = start[j], n = start[j + 1] - a, nb = n - m;
+    const u = pu.subarray(a, a + n), v = pv.subarray(a, a + n);
+    const sw = pe.sqrtW.length ? pe.sqrtW.subarray(a, a + n) : undefined;
+    const row = new Float64Array(Math.max(m, 1));
+    const p = new Float64Array(n * m);
+    for (let i = 0; i < n; i++) {
+      trendRow(u[i], v[i], m, row);
+      for (let t = 0; t < m; t++) p[i * m + t] = row[t] * (sw ? sw[i] : 1);
+    }
+    const { reflectors: qr, r } = householderQR(p, n, m);
+    // φ at ε²ρ with φ written for ε = 1 (the thin-plate spline's patches have ε = 1).
+    const k = weightedKernelMatrix(packed.kernel, Math.sqrt(e2[j]), u, v, sw);
+    for (let i = 0; i < n; i++) k[i * n + i] += pe.lambda[j];
+    for (const refl of qr) reflectSymmetric(k, n, refl);
+    const a11 = new Float64Array(m * m), a21 = new Float64Array(nb * m), l = new Float64Array(nb * nb);
+    for (let i = 0; i < m; i++) for (let t = 0; t < m; t++) a11[i * m + t] = k[i * n + t];
+    for (let i = 0; i < nb; i++) {
+      for (let t = 0; t < m; t++) a21[i * m + t] = k[(m + i) * n + t];
+      for (let t = 0; t <= i; t++) l[i * nb + t] = k[(m + i) * n + m + t];
+    }
+    if (!cholesky(l, nb)) return undefined;
+    // R⁻¹ (upper triangular), so that a₁ = R⁻ᵀp costs m² per place.
+    const rInv = new Float64Array(m * m);
+    for (let c = 0; c < m; c++) {
+      for (let i = c; i >= 0; i--) {
+        let s = i === c ? 1 : 0;
+        for (let t = i + 1; t <= c; t++) s -= r[i * m + t] * rInv[t * m + c];
+        rInv[i * m + c] = s / r[i * m + i];
+      }
+    }
+    // b̂ = ‖L⁻¹ (Qᵀ D y)₂‖² / (n − m).
+    const qy = Float64Array.from(pe.y.subarray(a, a + n));
+    if (sw) for (let i = 0; i < n; i++) qy[i] *= sw[i];
+    for (const refl of qr) applyReflector(refl, qy);
+    const z = forward(l, nb, qy.subarray(m));
+    let zz = 0;
+    for (let i = 0; i < nb; i++) zz += z[i] * z[i];
+    const b = Math.max(zz, 0) / Math.max(n - m, 1);
+    const bytes = 8 * (nb * nb + nb * m + 2 * m * m + m * n);
+    return { kind: "cholesky", n, nb, m, qr, rInv, a11, a21, l, b, bytes };
+  };
+
+  /** Patch j refitted at its own shape and λ, with its bordered inverse (the fit's own route). */
+  const borderedFactor = (j: number): PatchFactor => {
+    const a = start[j], b = start[j + 1];
+    const u = pu.slice(a, b), v = pv.slice(a, b);
+    const sw = pe.sqrtW.length ? pe.sqrtW.slice(a, b) : undefined;
+    const fit = fitCore(u, v, pe.y.slice(a, b), zs[j], {
+      kernel: packed.kernel,
+      trend: pe.trend,
+      epsilonScaled: Math.sqrt(e2[j]),
+      smoothing: pe.lambda[j],
+      lambdaToUser: 1,
+      sqrtWeights: sw,
+    });
+    const inv = borderedInverse(fit, u, v);
+    return { kind: "bordered", inv, b: processScale(fit.state), bytes: 8 * (inv.n * (inv.n + inv.m) + inv.m * inv.m) };
+  };
+
+  const factorOf = (j: number): PatchFactor => {
     const hit = cache.get(j);
     if (hit) {
       cache.delete(j);
       cache.set(j, hit);
       return hit;
     }
-    const a = start[j], b = start[j + 1];
-    const u = pu.slice(a, b), v = pv.slice(a, b);
-    const y = new Float64Array(b - a);
-    for (let k = a; k < b; k++) y[k - a] = (values[l.index[k]] - zc[j]) / zs[j];
-    const sqrtW = l.memberWeights ? Float64Array.from(l.memberWeights.slice(a, b), Math.sqrt) : undefined;
-    const fit = fitCore(u, v, y, zs[j], {
-      kernel: model.kernel,
-      trend: model.trend,
-      epsilonScaled: l.epsilonScaled[j],
-      smoothing: l.lambdaScaled[j],
-      lambdaToUser: 1,
-      sqrtWeights: sqrtW,
-    });
-    const entry: PatchErrors = { inv: borderedInverse(fit, u, v), b: processScale(fit.state), sqrtW };
-    const bytes = 8 * ((b - a) * (b - a + m) + m * m);
+    const entry = choleskyFactor(j) ?? borderedFactor(j);
     cache.set(j, entry);
-    cachedBytes += bytes;
+    cachedBytes += entry.bytes;
     for (const [key, old] of cache) {
       if (cachedBytes <= CACHE_BYTES || key === j) break;
       cache.delete(key);
-      cachedBytes -= 8 * (old.inv.n * (old.inv.n + old.inv.m) + old.inv.m * old.inv.m);
+      cachedBytes -= old.bytes;
     }
     return entry;
   };
+
   let longest = 0;
   for (let j = 0; j + 1 < start.length; j++) longest = Math.max(longest, start[j + 1] - start[j]);
   const kv = new Float64Array(longest);
-  const row = new Float64Array(Math.max(m, 1));
-  const phi = kernelOfSquared(model.kernel, 1);
+  const zv = new Float64Array(longest);
+  const tr = new Float64Array(Math.max(m, 1));
+  const a1 = new Float64Array(Math.max(m, 1));
   const uv = new Float64Array(2);
-  const patchSe = (j: number, u: number, v: number): number => {
-    const pe = patchErrors(j);
+
+  /** φ(0) − sᵀMⱼ⁻¹s for patch j at global scaled (u, v). */
+  const patchVariance = (j: number, u: number, v: number): { rest: number; b: number } => {
+    const f = factorOf(j);
     const x = (u - cu[j]) / radius[j], y = (v - cv[j]) / radius[j];
     const a = start[j], n = start[j + 1] - a;
-    // φ at ε²ρ with φ written for ε = 1 (the thin-plate spline's patches have ε = 1).
     const eps2 = e2[j];
     const k = kv.subarray(0, n);
     for (let t = 0; t < n; t++) {
       const du = x - pu[a + t], dv = y - pv[a + t];
-      k[t] = phi(eps2 * (du * du + dv * dv)) * (pe.sqrtW ? pe.sqrtW[t] : 1);
+      k[t] = phi(eps2 * (du * du + dv * dv)) * (pe.sqrtW.length ? pe.sqrtW[a + t] : 1);
     }
-    trendRow(x, y, m, row);
-    const q = borderedQuadratic(pe.inv, k, row);
-    return zs[j] * Math.sqrt(Math.max(pe.b * (phi(0) - q), 0));
+    trendRow(x, y, m, tr);
+    if (f.kind === "bordered") return { rest: phi0 - borderedQuadratic(f.inv, k, tr), b: f.b };
+    for (const refl of f.qr) applyReflector(refl, k);
+    // a₁ = R⁻ᵀ p; q = 2 t₁ᵀa₁ − a₁ᵀA₁₁a₁ + ‖L⁻¹(t₂ − A₂₁a₁)‖².
+    let q = 0;
+    for (let i = 0; i < m; i++) {
+      let s = 0;
+      for (let t = 0; t <= i; t++) s += f.rInv[t * m + i] * tr[t];
+      a1[i] = s;
+      q += 2 * k[i] * s;
+    }
+    for (let i = 0; i < m; i++) for (let t = 0; t < m; t++) q -= a1[i] * f.a11[i * m + t] * a1[t];
+    const nb = f.nb, l = f.l, z = zv;
+    for (let i = 0; i < nb; i++) {
+      let s = k[m + i];
+      for (let t = 0; t < m; t++) s -= f.a21[i * m + t] * a1[t];
+      const row = i * nb;
+      for (let t = 0; t < i; t++) s -= l[row + t] * z[t];
+      z[i] = s / l[row + i];
+      q += z[i] * z[i];
+    }
+    return { rest: phi0 - q, b: f.b };
   };
-  const estimate = model.transform === "log" ? makeEvaluator(model) : undefined;
-  // Work of one estimate in multiply-adds: about (points covering a place) × n² per patch.
-  let work = 0;
-  const p = radius.length;
-  for (let j = 0; j < p; j++) work += (start[j + 1] - start[j]) ** 3;
-  work /= Math.max(model.points.x.length, 1);
+
+  // Data points by their map coordinates, for the errors the fit stored there.
+  const pointAt = new Map<number, number[]>();
+  for (let i = 0; i < pe.px.length; i++) {
+    const list = pointAt.get(pe.px[i]);
+    if (list) list.push(i);
+    else pointAt.set(pe.px[i], [i]);
+  }
+  const atPoint = (x: number, y: number): number => {
+    const list = pointAt.get(x);
+    if (list) for (const i of list) if (pe.py[i] === y) return pe.pointSe[i];
+    return NaN;
+  };
+
+  const estimate = packed.logBias ? localEvaluator(packed) : undefined;
+  const work = localErrorWork(pe);
   return {
     processScale: NaN,
     work,
     at(x, yy) {
-      blender.map(x, yy, uv);
-      const count = blender.cover(uv[0], uv[1]);
-      let se = 0;
-      for (let a = 0; a < count; a++) se += blender.weights[a] * patchSe(blender.ids[a], uv[0], uv[1]);
-      if (count === 0) return NaN;
+      let se = atPoint(x, yy);
+      if (Number.isNaN(se)) {
+        blender.map(x, yy, uv);
+        const count = blender.cover(uv[0], uv[1]);
+        if (count === 0) return NaN;
+        se = 0;
+        for (let c = 0; c < count; c++) {
+          const j = blender.ids[c];
+          const { rest, b } = patchVariance(j, uv[0], uv[1]);
+          se += blender.weights[c] * zs[j] * Math.sqrt(Math.max(b * rest, 0));
+        }
+      }
       if (!estimate) return se;
       // Lognormal back-transform, as for the global method (stderr.ts).
       return estimate.at(x, yy) * Math.sqrt(Math.expm1(se * se));
     },
   };
+}
+
+/**
+ * Multiply-adds of one estimate: (patches covering a place, about members / points) × the mean
+ * per-patch cost ((n − m)²/2 for the solve, 2mn for the reflectors and the border).
+ */
+export function localErrorWork(pe: PackedLocalErrors): number {
+  const { start, m } = pe.surface;
+  const p = start.length - 1;
+  let perPatch = 0;
+  for (let j = 0; j < p; j++) {
+    const n = start[j + 1] - start[j];
+    perPatch += ((n - m) * (n - m)) / 2 + 2 * m * n;
+  }
+  return (start[p] / Math.max(pe.points, 1)) * (perPatch / Math.max(p, 1));
+}
+
+/**
+ * Packed local errors cut down to some patches (ascending; subsetPatches for the surface) and to the
+ * data points inside `box` (map units), whose stored errors are all a window inside it can meet.
+ */
+export function subsetLocalErrors(pe: PackedLocalErrors, patches: Int32Array, box: { xmin: number; ymin: number; xmax: number; ymax: number }): PackedLocalErrors {
+  const s = pe.surface;
+  const members = patches.reduce((t, j) => t + s.start[j + 1] - s.start[j], 0);
+  const y = new Float64Array(members), sqrtW = new Float64Array(pe.sqrtW.length ? members : 0);
+  let o = 0;
+  for (const j of patches) {
+    const from = s.start[j], to = s.start[j + 1];
+    y.set(pe.y.subarray(from, to), o);
+    if (sqrtW.length) sqrtW.set(pe.sqrtW.subarray(from, to), o);
+    o += to - from;
+  }
+  const inside: number[] = [];
+  for (let i = 0; i < pe.px.length; i++) if (pe.px[i] >= box.xmin && pe.px[i] <= box.xmax && pe.py[i] >= box.ymin && pe.py[i] <= box.ymax) inside.push(i);
+  return {
+    surface: subsetPatches(s, patches),
+    trend: pe.trend,
+    points: pe.points,
+    y,
+    sqrtW,
+    lambda: Float64Array.from(patches, (j) => pe.lambda[j]),
+    pointSe: Float64Array.from(inside, (i) => pe.pointSe[i]),
+    px: Float64Array.from(inside, (i) => pe.px[i]),
+    py: Float64Array.from(inside, (i) => pe.py[i]),
+  };
+}
+
+/** Forward substitution L z = r for lower-triangular L (row-major nb×nb). */
+function forward(l: Float64Array, nb: number, r: Float64Array): Float64Array {
+  const z = new Float64Array(nb);
+  for (let i = 0; i < nb; i++) {
+    let s = r[i];
+    const row = i * nb;
+    for (let t = 0; t < i; t++) s -= l[row + t] * z[t];
+    z[i] = s / l[row + i];
+  }
+  return z;
 }

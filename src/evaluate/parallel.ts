@@ -1,10 +1,11 @@
-// Parallel gridding: the rows of a grid are split into one block per core and evaluated in Web
-// Workers. Each cell is computed by the same code as gridModel, so results are identical.
+// Parallel gridding: the rows of a grid (or of a window of it: a tile) are split into one block per
+// core and evaluated in Web Workers. Each cell is computed by the same code as gridModel, so results
+// are identical.
 import type { SurfaceModel } from "../model/model.ts";
-import type { GridValues } from "../types.ts";
+import type { GridSpec, GridValues } from "../types.ts";
 import { runWorker, workersAvailable } from "../workers.ts";
-import { packSurface, surfaceBuffers } from "./evaluate.ts";
-import { checkFiniteCells, gridLayout, gridModel, type GridOptions, startGrid } from "./grid.ts";
+import { evaluatorOf, type PackedSurface, packSurface, surfaceBuffers } from "./evaluate.ts";
+import { checkFiniteCells, evaluateRows, gridLayout, gridModel, type GridOptions, type GridWindow, startGrid } from "./grid.ts";
 
 /** Cells × centres below which one thread is faster than starting workers. */
 const PARALLEL_WORK = 2e7;
@@ -14,22 +15,8 @@ export async function gridModelParallel(model: SurfaceModel, options: GridOption
   const work = spec.cols * spec.rows * model.points.x.length;
   if (!workersAvailable(threads) || work < PARALLEL_WORK) return gridModel(model, options);
   const { values, mask } = startGrid(model, options);
-  const blocks = Math.min(threads, spec.rows);
-  const per = Math.ceil(spec.rows / blocks);
-  options.progress?.(`gridding ${spec.cols} × ${spec.rows} cells on ${blocks} threads`);
-  const jobs: Promise<unknown>[] = [];
-  for (let b = 0; b < blocks; b++) {
-    const rowStart = b * per, rowEnd = Math.min(spec.rows, rowStart + per);
-    if (rowStart >= rowEnd) continue;
-    // The model goes as typed arrays (transferred, not copied): the worker needs only its evaluator.
-    const surface = packSurface(model);
-    const rowsMask = mask ? mask.slice(rowStart * spec.cols, rowEnd * spec.cols) : null;
-    const url = new URL("./grid_worker.ts", import.meta.url);
-    const transfer = [...surfaceBuffers(surface), ...(rowsMask ? [rowsMask.buffer] : [])];
-    jobs.push(runWorker<Float64Array>(url, { surface, spec, rowStart, rowEnd, mask: rowsMask }, transfer).then((block) => values.set(block, rowStart * spec.cols)));
-  }
   try {
-    await Promise.all(jobs);
+    await evaluateWindow(() => packSurface(model), spec, { r0: 0, r1: spec.rows, c0: 0, c1: spec.cols }, mask, values, threads, options.progress);
   } catch (e) {
     // Workers unavailable in this host (e.g. restricted permissions): compute in this thread.
     options.progress?.(`worker threads unavailable (${(e as Error).message}); gridding in one thread`);
@@ -37,4 +24,41 @@ export async function gridModelParallel(model: SurfaceModel, options: GridOption
   }
   checkFiniteCells(spec, values, mask);
   return { spec, values, crs: model.crs };
+}
+
+/**
+ * Evaluate the cells of a window of a grid into `values` (row-major over the window; masked cells,
+ * `mask` over the same window, NaN), its rows split over `threads` workers when there are at least
+ * two, else in this thread. `pack` makes the packed surface each worker receives (transferred).
+ */
+export async function evaluateWindow(
+  pack: () => PackedSurface,
+  spec: GridSpec,
+  w: GridWindow,
+  mask: Uint8Array | undefined,
+  values: Float64Array,
+  threads: number,
+  progress?: (message: string) => void,
+): Promise<void> {
+  const rows = w.r1 - w.r0, width = w.c1 - w.c0;
+  if (!workersAvailable(threads) || rows < 2) {
+    evaluateRows(evaluatorOf(pack()), spec, w.r0, w.r1, mask, values, undefined, w);
+    return;
+  }
+  const blocks = Math.min(threads, rows);
+  const per = Math.ceil(rows / blocks);
+  progress?.(`gridding ${width} × ${rows} cells on ${blocks} threads`);
+  const jobs: Promise<unknown>[] = [];
+  for (let b = 0; b < blocks; b++) {
+    const rowStart = w.r0 + b * per, rowEnd = Math.min(w.r1, rowStart + per);
+    if (rowStart >= rowEnd) continue;
+    // The model goes as typed arrays (transferred, not copied): the worker needs only its evaluator.
+    const surface = pack();
+    const rowsMask = mask ? mask.slice((rowStart - w.r0) * width, (rowEnd - w.r0) * width) : null;
+    const url = new URL("./grid_worker.ts", import.meta.url);
+    const transfer = [...surfaceBuffers(surface), ...(rowsMask ? [rowsMask.buffer] : [])];
+    const job = { surface, spec, rowStart, rowEnd, c0: w.c0, c1: w.c1, mask: rowsMask };
+    jobs.push(runWorker<Float64Array>(url, job, transfer).then((block) => values.set(block, (rowStart - w.r0) * width)));
+  }
+  await Promise.all(jobs);
 }

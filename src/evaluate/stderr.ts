@@ -19,10 +19,12 @@ import { borderedInverse, borderedQuadratic, processScale } from "../fit/influen
 import { kernelOfSquared, trendRow, trendTerms } from "../fit/kernels.ts";
 import { transformedValues } from "../fit/prepare.ts";
 import type { GlobalModel, SurfaceModel } from "../model/model.ts";
-import type { GridValues } from "../types.ts";
+import type { GridSpec, GridValues } from "../types.ts";
+import type { GridWindow } from "./grid.ts";
 import { makeEvaluator } from "./evaluate.ts";
 import { coordinateMapper, scaledCentres } from "./global.ts";
-import { localErrorEstimator } from "./local_stderr.ts";
+import { localErrorBuffers, localErrorEstimator, type PackedLocalErrors, packLocalErrors } from "./local_stderr.ts";
+import { runWorker, workersAvailable } from "../workers.ts";
 
 export interface ErrorEstimator {
   /** Standard error of the estimate at a map coordinate (value units; back-transformed for log fits). */
@@ -101,11 +103,120 @@ function globalErrorEstimator(model: GlobalModel, factors: GlobalFactors = refac
 /** Work (cells × the estimator's work per cell, N² for the global method) above which the error grid is computed on a coarser lattice and interpolated. */
 export const STDERR_FULL_WORK = 4e9;
 
+/** Every `stride`-th cell in each direction of a grid, with its last row and column: where errors are computed. */
+export interface Lattice {
+  stride: number;
+  /** Grid rows and columns of the lattice nodes. */
+  rows: Int32Array;
+  cols: Int32Array;
+}
+
+/** The lattice of a grid for an estimator: stride from the work of all cells (STDERR_FULL_WORK). */
+export function errorLattice(spec: GridSpec, est: Pick<ErrorEstimator, "work">, points: number): Lattice {
+  const cells = spec.cols * spec.rows;
+  const stride = Math.max(1, Math.ceil(Math.sqrt((cells * (est.work ?? points * points)) / STDERR_FULL_WORK)));
+  const along = (count: number) => Int32Array.from({ length: Math.ceil((count - 1) / stride) + 1 }, (_, i) => Math.min(i * stride, count - 1));
+  return { stride, rows: along(spec.rows), cols: along(spec.cols) };
+}
+
 /**
- * Standard-error grid on the same cells and mask as a surface grid. When cells·N² (cells × the
- * estimator's work per cell) exceeds
- * STDERR_FULL_WORK, errors are computed every `stride` cells in each direction and filled in
- * bilinearly (the error surface is smooth away from data points; the stride is reported).
+ * Standard errors at the lattice nodes of rows [from, to) of the lattice, row by row into `out`.
+ * With stride 1 the nodes are the cells, and masked cells (`masked`, for those rows) are left NaN;
+ * with a coarser lattice every node is computed (the fill needs the corners around unmasked cells).
+ * Shared by the main thread and the worker threads (stderr_worker.ts), so the values never depend
+ * on which thread computes them.
+ */
+export function errorsAtNodes(
+  est: ErrorEstimator,
+  spec: GridSpec,
+  lattice: Lattice,
+  from: number,
+  to: number,
+  masked: Uint8Array | null,
+  out: Float64Array,
+  onRow?: (row: number) => void,
+): void {
+  const { rows, cols, stride } = lattice;
+  for (let i = from; i < to; i++) {
+    const y = spec.ymax - (rows[i] + 0.5) * spec.cell;
+    for (let j = 0; j < cols.length; j++) {
+      const k = (i - from) * cols.length + j;
+      out[k] = stride === 1 && masked && masked[k] ? NaN : est.at(spec.xmin + (cols[j] + 0.5) * spec.cell, y);
+    }
+    onRow?.(i);
+  }
+}
+
+/** The grid's standard errors from those at the lattice nodes: copied (stride 1) or filled bilinearly between them. */
+export function fillFromLattice(surface: GridValues, lattice: Lattice, nodes: Float64Array): GridValues {
+  const { spec } = surface;
+  const values = fillWindow(surface.values, { r0: 0, r1: spec.rows, c0: 0, c1: spec.cols }, lattice, nodes, 0, 0, lattice.cols.length);
+  return { spec, values, crs: surface.crs };
+}
+
+/**
+ * fillFromLattice for a window of the grid (a tile): `surface` and the result over the window only,
+ * `nodes` the lattice rows from i0 and columns from j0 that the window needs (row-major, `nodeCols`
+ * to a row; for stride 1 the window's own cells). The same
+ * arithmetic as for the whole grid, from the whole lattice's positions.
+ */
+export function fillWindow(
+  surface: Float64Array,
+  w: GridWindow,
+  lattice: Lattice,
+  nodes: Float64Array,
+  i0: number,
+  j0: number,
+  nodeCols: number,
+): Float64Array {
+  const { stride, rows: cr, cols: cc } = lattice;
+  const width = w.c1 - w.c0;
+  const values = new Float64Array(width * (w.r1 - w.r0)).fill(NaN);
+  for (let r = w.r0; r < w.r1; r++) {
+    const i = Math.max(0, Math.min(Math.floor(r / stride), cr.length - 2));
+    const ti = cr.length > 1 ? (r - cr[i]) / (cr[i + 1] - cr[i]) : 0;
+    for (let c = w.c0; c < w.c1; c++) {
+      const k = (r - w.r0) * width + c - w.c0;
+      if (Number.isNaN(surface[k])) continue;
+      if (stride === 1) {
+        values[k] = nodes[k];
+        continue;
+      }
+      const j = Math.max(0, Math.min(Math.floor(c / stride), cc.length - 2));
+      const tj = cc.length > 1 ? (c - cc[j]) / (cc[j + 1] - cc[j]) : 0;
+      const i1 = Math.min(i + 1, cr.length - 1), j1 = Math.min(j + 1, cc.length - 1);
+      const at = (a: number, b: number) => nodes[(a - i0) * nodeCols + b - j0];
+      const a = at(i, j), b = at(i, j1), d = at(i1, j), e = at(i1, j1);
+      values[k] = (1 - ti) * ((1 - tj) * a + tj * b) + ti * ((1 - tj) * d + tj * e);
+    }
+  }
+  return values;
+}
+
+/** The lattice nodes a window's cells need: rows [i0, i1] and columns [j0, j1] of the lattice (for stride 1, the window's own cells). */
+export function windowNodes(lattice: Lattice, w: GridWindow): Lattice & { i0: number; j0: number } {
+  const { stride, rows, cols } = lattice;
+  if (stride === 1) return { stride, rows: rows.slice(w.r0, w.r1), cols: cols.slice(w.c0, w.c1), i0: w.r0, j0: w.c0 };
+  const first = (x: number, count: number) => Math.max(0, Math.min(Math.floor(x / stride), count - 2));
+  const i0 = first(w.r0, rows.length), i1 = Math.min(first(w.r1 - 1, rows.length) + 1, rows.length - 1);
+  const j0 = first(w.c0, cols.length), j1 = Math.min(first(w.c1 - 1, cols.length) + 1, cols.length - 1);
+  return { stride, rows: rows.slice(i0, i1 + 1), cols: cols.slice(j0, j1 + 1), i0, j0 };
+}
+
+/** Which cells of lattice rows [from, to) are masked (stride 1 only; null otherwise). */
+export function maskedNodes(surface: GridValues, lattice: Lattice, from: number, to: number): Uint8Array | null {
+  if (lattice.stride !== 1) return null;
+  const { cols } = surface.spec;
+  const masked = new Uint8Array((to - from) * cols);
+  for (let k = 0; k < masked.length; k++) masked[k] = Number.isNaN(surface.values[from * cols + k]) ? 1 : 0;
+  return masked;
+}
+
+/**
+ * Standard-error grid on the same cells and mask as a surface grid. When cells × the estimator's
+ * work per cell (N² for the global method) exceeds STDERR_FULL_WORK, errors are computed every
+ * `stride` cells in each direction and filled in bilinearly (the error surface is smooth away from
+ * data points; the stride is reported).
  */
 export function gridStandardError(
   model: SurfaceModel,
@@ -114,51 +225,87 @@ export function gridStandardError(
   est: ErrorEstimator = makeErrorEstimator(model),
 ): { grid: GridValues; stride: number } {
   const { spec } = surface;
-  const n = model.points.x.length;
-  const cells = spec.cols * spec.rows;
-  const stride = Math.max(1, Math.ceil(Math.sqrt((cells * (est.work ?? n * n)) / STDERR_FULL_WORK)));
-  const values = new Float64Array(cells).fill(NaN);
-  const xc = (c: number) => spec.xmin + (c + 0.5) * spec.cell;
-  const yc = (r: number) => spec.ymax - (r + 0.5) * spec.cell;
-  if (stride === 1) {
-    let last = Date.now();
-    for (let r = 0; r < spec.rows; r++) {
-      for (let c = 0; c < spec.cols; c++) {
-        const k = r * spec.cols + c;
-        if (!Number.isNaN(surface.values[k])) values[k] = est.at(xc(c), yc(r));
-      }
-      if (progress && Date.now() - last > 1000) {
-        last = Date.now();
-        progress(`standard errors: row ${r + 1} of ${spec.rows}`);
-      }
+  const lattice = errorLattice(spec, est, model.points.x.length);
+  const nodes = new Float64Array(lattice.rows.length * lattice.cols.length);
+  let last = Date.now();
+  errorsAtNodes(est, spec, lattice, 0, lattice.rows.length, maskedNodes(surface, lattice, 0, lattice.rows.length), nodes, (i) => {
+    if (progress && Date.now() - last > 1000) {
+      last = Date.now();
+      progress(`standard errors: row ${i + 1} of ${lattice.rows.length}${lattice.stride > 1 ? ` (every ${lattice.stride} cells)` : ""}`);
     }
-    return { grid: { spec, values, crs: surface.crs }, stride };
+  });
+  return { grid: fillFromLattice(surface, lattice, nodes), stride: lattice.stride };
+}
+
+/** Lattice nodes × the estimator's work below which one thread is faster than starting workers. */
+const PARALLEL_WORK = 2e8;
+
+/**
+ * gridStandardError with the lattice rows split over worker threads (local models; a global model's
+ * bordered inverse is N² numbers, which each worker would copy, so it stays in this thread). Each
+ * worker takes one contiguous range of lattice rows and factorises the patches its rows meet;
+ * every node is computed by the same code as in gridStandardError, so the grid is identical
+ * whatever the number of threads.
+ */
+export async function gridStandardErrorParallel(
+  model: SurfaceModel,
+  surface: GridValues,
+  progress?: (m: string) => void,
+  est: ErrorEstimator = makeErrorEstimator(model),
+  threads = navigator.hardwareConcurrency || 1,
+): Promise<{ grid: GridValues; stride: number }> {
+  const { spec } = surface;
+  const lattice = errorLattice(spec, est, model.points.x.length);
+  const work = lattice.rows.length * lattice.cols.length * (est.work ?? 0);
+  if (model.method !== "local" || !workersAvailable(threads) || lattice.rows.length < 2 || work < PARALLEL_WORK) {
+    return gridStandardError(model, surface, progress, est);
   }
-  // Coarse lattice including the last row and column, then bilinear fill.
-  const cr = Array.from({ length: Math.ceil((spec.rows - 1) / stride) + 1 }, (_, i) => Math.min(i * stride, spec.rows - 1));
-  const cc = Array.from({ length: Math.ceil((spec.cols - 1) / stride) + 1 }, (_, i) => Math.min(i * stride, spec.cols - 1));
-  const coarse = new Float64Array(cr.length * cc.length);
-  let lastCoarse = Date.now();
-  for (let i = 0; i < cr.length; i++) {
-    for (let j = 0; j < cc.length; j++) coarse[i * cc.length + j] = est.at(xc(cc[j]), yc(cr[i]));
-    if (progress && Date.now() - lastCoarse > 1000) {
-      lastCoarse = Date.now();
-      progress(`standard errors: row ${i + 1} of ${cr.length} (every ${stride} cells)`);
-    }
+  try {
+    const nodes = await nodesInWorkers(() => packLocalErrors(model), spec, lattice, (from, to) => maskedNodes(surface, lattice, from, to), threads, progress);
+    return { grid: fillFromLattice(surface, lattice, nodes), stride: lattice.stride };
+  } catch (e) {
+    progress?.(`worker threads unavailable (${(e as Error).message}); standard errors in one thread`);
+    return gridStandardError(model, surface, progress, est);
   }
-  for (let r = 0; r < spec.rows; r++) {
-    const i = Math.max(0, Math.min(Math.floor(r / stride), cr.length - 2));
-    const ti = cr.length > 1 ? (r - cr[i]) / (cr[i + 1] - cr[i]) : 0;
-    for (let c = 0; c < spec.cols; c++) {
-      const k = r * spec.cols + c;
-      if (Number.isNaN(surface.values[k])) continue;
-      const j = Math.max(0, Math.min(Math.floor(c / stride), cc.length - 2));
-      const tj = cc.length > 1 ? (c - cc[j]) / (cc[j + 1] - cc[j]) : 0;
-      const i1 = Math.min(i + 1, cr.length - 1), j1 = Math.min(j + 1, cc.length - 1);
-      const a = coarse[i * cc.length + j], b = coarse[i * cc.length + j1];
-      const d = coarse[i1 * cc.length + j], e = coarse[i1 * cc.length + j1];
-      values[k] = (1 - ti) * ((1 - tj) * a + tj * b) + ti * ((1 - tj) * d + tj * e);
-    }
-  }
-  return { grid: { spec, values, crs: surface.crs }, stride };
+}
+
+/**
+ * Standard errors at every node of `lattice` (row-major), its rows split into one contiguous block
+ * per thread; `pack` makes the packed model each worker receives, `masked` the masked cells of a
+ * block of rows (stride 1).
+ */
+export async function nodesInWorkers(
+  pack: () => PackedLocalErrors,
+  spec: GridSpec,
+  lattice: Lattice,
+  masked: (from: number, to: number) => Uint8Array | null,
+  threads: number,
+  progress?: (m: string) => void,
+): Promise<Float64Array> {
+  const nodeRows = lattice.rows.length, nodeCols = lattice.cols.length;
+  const blocks = Math.max(1, Math.min(threads, nodeRows));
+  const per = Math.ceil(nodeRows / blocks);
+  const nodes = new Float64Array(nodeRows * nodeCols);
+  progress?.(`standard errors at ${(nodeRows * nodeCols).toLocaleString("en")} places${lattice.stride > 1 ? ` (every ${lattice.stride} cells)` : ""} on ${blocks} threads`);
+  const url = new URL("./stderr_worker.ts", import.meta.url);
+  await Promise.all(Array.from({ length: blocks }, (_, b) => {
+    const from = b * per, to = Math.min(nodeRows, from + per);
+    if (from >= to) return Promise.resolve();
+    const packed = pack();
+    const m = masked(from, to);
+    const job: ErrorJob = { packed, spec, lattice, from, to, masked: m };
+    const transfer = [...localErrorBuffers(packed), ...(m ? [m.buffer as ArrayBuffer] : [])];
+    return runWorker<Float64Array>(url, job, transfer).then((block) => nodes.set(block, from * nodeCols));
+  }));
+  return nodes;
+}
+
+/** What a standard-error worker receives (stderr_worker.ts). */
+export interface ErrorJob {
+  packed: PackedLocalErrors;
+  spec: GridSpec;
+  lattice: Lattice;
+  from: number;
+  to: number;
+  masked: Uint8Array | null;
 }

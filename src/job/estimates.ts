@@ -72,7 +72,7 @@ export function estimateTable(
 ): EstimateTable {
   const ev = makeEvaluator(model);
   const check = makeExtrapolationCheck(model);
-  const rows = table.rows.length;
+  const rows = table.lines.length;
   const est = new Float64Array(rows);
   const err = se ? new Float64Array(rows) : null;
   const nearest = new Float64Array(rows).fill(NaN);
@@ -80,7 +80,7 @@ export function estimateTable(
   const out: EstimateTable = { estimates: est, stdErrors: err, nearest, notes, unusable: [], outsideHull: [], farFromData: [], outOfRange: [] };
   // The typed coordinates (projected into the model's CRS where they were given in another).
   const xs = coordinateColumn(table, table.xColumn), ys = coordinateColumn(table, table.yColumn);
-  table.rows.forEach((_row, i) => {
+  table.lines.forEach((_line, i) => {
     const x = xs[i], y = ys[i];
     const value = Number.isFinite(x) && Number.isFinite(y) ? ev.at(x, y) : NaN;
     const line = table.lines[i];

@@ -17,8 +17,10 @@ import { describeLabValues, type LabValues, type NonDetectRule, readLabValues } 
 import { formatNumber, lengthText } from "../text.ts";
 import { type FitOptions, type FittedModel, fitSurfaceParallelWithFactors } from "../fit/surface.ts";
 import { modelFromJson, type SurfaceModel } from "../model/model.ts";
+import { sidecarPath } from "../model/binary.ts";
 import { decodeGeoTiff } from "../read/geotiff.ts";
-import { parseNumber, readPointTable } from "../read/points.ts";
+import { readPointTable } from "../read/points.ts";
+import { cellNumber, cellText, cellTexts } from "../read/table.ts";
 import type { CleanPoints, Crs, DuplicateRule, GridValues, PointTable, PointText, TextTable } from "../types.ts";
 import type { DuplicateGroup, SkippedEntry } from "../write/tables.ts";
 import { fmt, pointLabel, printableText } from "../write/summary.ts";
@@ -91,22 +93,17 @@ export interface LoadedPoints {
 function readWeights(src: PointsSource, table: PointTable, points: CleanPoints): Float64Array {
   const name = src.weight!;
   const col = columnByOption(table.columns, name, "weight", { file: src.file, line: 1 });
-  const byLine = new Map<number, number>();
-  table.rows.forEach((row, i) => {
-    const w = parseNumber(row[col] ?? "", table.decimalComma);
-    byLine.set(table.lines[i], w);
-  });
   const groupOf = new Map<number, number[]>();
-  for (const g of points.merged) if (g.rule === "mean") groupOf.set(g.line, g.lines);
-  return Float64Array.from(points.lines, (line) => {
+  for (const g of points.merged) if (g.rule === "mean") groupOf.set(g.rows[0], g.rows);
+  return Float64Array.from(points.rows ?? [], (row) => {
     let total = 0;
-    for (const l of groupOf.get(line) ?? [line]) {
-      const w = byLine.get(l)!;
+    for (const r of groupOf.get(row) ?? [row]) {
+      const w = cellNumber(table, r, col);
       if (!(w > 0) || !Number.isFinite(w)) {
-        const cell = printableText(String(table.rows[table.lines.indexOf(l)][col] ?? "")).slice(0, 40);
+        const cell = printableText(cellText(table, r, col)).slice(0, 40);
         throw inputError(`weight "${cell}" in column "${printableText(table.columns[col])}" must be a positive number; correct it or drop ${opt("weight")}`, {
           file: src.file,
-          line: l,
+          line: table.lines[r],
         });
       }
       total += w;
@@ -126,14 +123,15 @@ export function crsNote(c: CrsChoice): string {
 
 const UNIT_WORDS = { metre: "metres", foot: "feet", "US survey foot": "US survey feet" } as const;
 
-/** The text of a cell without surrounding spaces ("" for no row or no column). */
-function cellOf(table: PointTable, row: number | undefined, j: number): string {
-  return row === undefined || j < 0 ? "" : (table.rows[row]?.[j] ?? "").trim();
+/** The text of a table's cells without surrounding spaces ("" for no row or no column). */
+function cellsOf(table: PointTable): (row: number | undefined, j: number) => string {
+  const text = cellTexts(table);
+  return (row, j) => (row === undefined || j < 0 ? "" : text(row, j).trim());
 }
 
-/** Read and clean a points file. */
-export async function loadPoints(src: PointsSource): Promise<LoadedPoints> {
-  const read = await readPointTable(src.file, { x: src.x, y: src.y, z: src.z, header: src.header, classes: src.classes });
+/** Read and clean a points file; `progress` hears how much of the file has been read. */
+export async function loadPoints(src: PointsSource, progress?: FitOptions["progress"]): Promise<LoadedPoints> {
+  const read = await readPointTable(src.file, { x: src.x, y: src.y, z: src.z, header: src.header, classes: src.classes, progress });
   // The code filter first: rows it drops are neither skipped nor fitted.
   const filtered = src.where?.length ? filterRows(read, src.where) : undefined;
   const table: TextTable = filtered?.table ?? read;
@@ -161,10 +159,12 @@ export async function loadPoints(src: PointsSource): Promise<LoadedPoints> {
   }
   const crs = crsRecord(crsChoice.target);
   const weights = src.weight ? readWeights(src, table, points) : undefined;
-  const idOf = (row: number | undefined) => cellOf(table, row, idColumn);
-  const rowOfLine = new Map(table.lines.map((l, i) => [l, i]));
+  const cell = cellsOf(table);
+  const idOf = (row: number | undefined) => cell(row, idColumn);
+  let rowOfLine: Map<number, number> | undefined;
+  const rowOf = (r: { row?: number; line: number }) => r.row ?? (rowOfLine ??= new Map(table.lines.map((l, i) => [l, i]))).get(r.line);
   const input = {
-    skipped: points.skipped.map((r) => ({ line: r.line, point: idOf(r.row ?? rowOfLine.get(r.line)), reason: r.reason })),
+    skipped: points.skipped.map((r) => ({ line: r.line, point: idOf(rowOf(r)), reason: r.reason })),
     duplicates: points.merged.map((g, k) => ({
       group: k + 1,
       rule: g.rule,
@@ -236,7 +236,8 @@ export function pointNotes(loaded: LoadedPoints, src: PointsSource, files: boole
 function pointTexts(loaded: LoadedPoints): PointText[] {
   const { table, points, lab } = loaded;
   const rows = points.rows ?? [];
-  const cells = (j: number) => rows.map((r) => cellOf(table, r, j));
+  const cell = cellsOf(table);
+  const cells = (j: number) => rows.map((r) => cell(r, j));
   // A file without a header row names its columns "1", "2", …: the outputs call them point, code, column N.
   const headless = table.hasHeader === false;
   const out: PointText[] = [];
@@ -267,9 +268,10 @@ export function isolationNotes(loaded: LoadedPoints, model: SurfaceModel, keep: 
   ];
 }
 
-/** Read, clean and fit. */
-export async function fitPointsFile(src: PointsSource, fit: FitOptions = {}): Promise<LoadedPoints & FittedModel> {
-  const loaded = await loadPoints(src);
+/** Read, clean and fit; `beforeFit` sees the clean points first (the memory check before the long work). */
+export async function fitPointsFile(src: PointsSource, fit: FitOptions = {}, beforeFit?: (loaded: LoadedPoints) => void): Promise<LoadedPoints & FittedModel> {
+  const loaded = await loadPoints(src, fit.progress);
+  beforeFit?.(loaded);
   const t = loaded.table;
   let fitted: FittedModel;
   try {
@@ -303,7 +305,8 @@ export async function fitPointsFile(src: PointsSource, fit: FitOptions = {}): Pr
 /** The input rows as --json reports them: columns, filter, skipped rows, merged groups, non-detects, isolated samples. */
 export function inputJson(loaded: LoadedPoints, model: SurfaceModel): Record<string, unknown> {
   const { table, lab } = loaded;
-  const idOf = (row: number | undefined) => cellOf(table, row, loaded.idColumn);
+  const cell = cellsOf(table);
+  const idOf = (row: number | undefined) => cell(row, loaded.idColumn);
   return {
     columns: {
       x: table.columns[table.xColumn],
@@ -331,7 +334,7 @@ export function inputJson(loaded: LoadedPoints, model: SurfaceModel): Record<str
   };
 }
 
-/** Read a model file. */
+/** Read a model file (and, for a version 3 file, its binary part beside it: sidecarPath). */
 export function readModel(file: string): SurfaceModel {
   let text: string;
   try {
@@ -339,7 +342,21 @@ export function readModel(file: string): SurfaceModel {
   } catch {
     throw new RbfieldError("cannot read the model file (missing or not readable); give the file written by 'rbfield fit'", ExitCode.io, { file });
   }
-  return modelFromJson(text, file);
+  const sidecar = sidecarPath(file);
+  return modelFromJson(text, file, {
+    file: sidecar,
+    read() {
+      try {
+        return fs.readFileSync(sidecar);
+      } catch {
+        throw new RbfieldError(
+          `cannot read the model's binary part (missing or not readable); keep it beside ${path.basename(file)} under this name, as 'rbfield fit' wrote them`,
+          ExitCode.io,
+          { file: sidecar },
+        );
+      }
+    },
+  });
 }
 
 /** Read a mask polygon file (GeoJSON Polygon/MultiPolygon) and the CRS it declares. */

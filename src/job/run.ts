@@ -4,19 +4,21 @@ import * as fs from "node:fs";
 import * as path from "node:path";
 import { makeExtrapolationCheck } from "../evaluate/extrapolation.ts";
 import { gridModelParallel } from "../evaluate/parallel.ts";
-import { gridStandardError, makeErrorEstimator } from "../evaluate/stderr.ts";
-import type { GridOptions } from "../evaluate/grid.ts";
+import { gridStandardErrorParallel, makeErrorEstimator } from "../evaluate/stderr.ts";
 import { valueRange } from "../numbers.ts";
 import { type MaskFile } from "../read/mask.ts";
+import { gridLayout, type GridOptions } from "../evaluate/grid.ts";
+import { boundingBox } from "../geometry.ts";
+import { checkMemory, estimateMemory, fmtBytes, memoryAdvice, type MemoryEstimate, memoryLimit, methodFor, peakResidentBytes } from "./memory.ts";
 import { contourGeoJson } from "../write/contours.ts";
 import { chooseLevelRule } from "../write/levels.ts";
 import { fileListLines, type RunProducts, RUN_OUTPUTS } from "../write/outputs.ts";
 import { mapInputFromModel } from "../write/map.ts";
 import { type FitOptions } from "../fit/surface.ts";
-import { type SurfaceModel } from "../model/model.ts";
+import { encodeModel, type SurfaceModel } from "../model/model.ts";
 import { checkWritableFolder, ensureFolder, refuseFolderAsOutput, refuseInputAsOutput, writeFilesAtomic } from "../write/atomic.ts";
 import { contourText, fmt, gridText, modelSummaryLines, summaryText } from "../write/summary.ts";
-import { fitPointsFile, gridOptionsFor, inputJson, isolationNotes, pointNotes, type PointsSource } from "./points.ts";
+import { fitPointsFile, gridOptionsFor, inputJson, isolationNotes, type LoadedPoints, pointNotes, type PointsSource } from "./points.ts";
 import { estimateColumns, estimateSummaryLines, estimateTable, estimateWarnings, readLocations, standardErrorLines } from "./estimates.ts";
 
 export interface RunOptions extends PointsSource {
@@ -42,6 +44,8 @@ export interface RunOptions extends PointsSource {
   date?: string;
   /** Progress of long steps: a message and, where a loop knows it, the fraction done. */
   progress?: (message: string, fraction?: number) => void;
+  /** Memory limit in bytes (default: half of the machine's memory; job/memory.ts). */
+  maxMemory?: number;
 }
 
 export interface RunResult {
@@ -53,6 +57,16 @@ export interface RunResult {
   warnings: string[];
   /** The input rows for --json (inputJson). */
   input: Record<string, unknown>;
+  /** The memory estimate, the limit it was checked against, and the peak resident set measured at the end (null where unreadable). */
+  memory: MemoryReport;
+}
+
+/** What --json says about memory. */
+export interface MemoryReport {
+  estimate: number;
+  limit: number;
+  limitSource: string;
+  peak: number | null;
 }
 
 /** The whole job on a points file into an output folder (files: RUN_OUTPUTS). */
@@ -75,6 +89,17 @@ export async function runJob(opts: RunOptions): Promise<RunResult> {
   }
 }
 
+/** Cells of the grid a run will make, from the clean points (as the fit will set the model's extent and spacing); undefined with a mask file and no extent (its polygons set the extent). */
+function plannedCells(loaded: LoadedPoints, opts: RunOptions): number | undefined {
+  if (opts.mask && !opts.grid?.extent) return undefined;
+  const iso = new Set(opts.keepIsolated ? [] : loaded.isolation.indices);
+  const keep = (a: Float64Array) => (iso.size ? a.filter((_, i) => !iso.has(i)) : a);
+  const extent = boundingBox(keep(loaded.points.x), keep(loaded.points.y));
+  // The layout's own checks (the cell limit, an extent that misses the data) apply here already.
+  const spec = gridLayout({ extent, spacing: loaded.isolation.spacing } as SurfaceModel, { ...opts.grid, mask: opts.grid?.mask === "none" ? "none" : "hull" });
+  return spec.cols * spec.rows;
+}
+
 async function runInto(opts: RunOptions, files: Record<string, string>, inputs: string[]): Promise<RunResult> {
   for (const f of Object.values(files)) {
     refuseInputAsOutput(f, inputs);
@@ -83,10 +108,24 @@ async function runInto(opts: RunOptions, files: Record<string, string>, inputs: 
   checkWritableFolder(files.model);
 
   opts.progress?.(`reading ${opts.file}`);
-  const fitted = await fitPointsFile(opts, { ...opts.fit, progress: opts.progress });
+  const limit = memoryLimit(opts.maxMemory);
+  let estimate: MemoryEstimate | undefined;
+  const fitted = await fitPointsFile(opts, { ...opts.fit, progress: opts.progress }, (loaded) => {
+    // Before the long work: the whole run's peak from the points and the grid they will get.
+    const n = loaded.points.x.length;
+    const method = methodFor(n, opts.fit?.method);
+    estimate = estimateMemory({ points: n, method, patchPoints: opts.fit?.patchPoints, cells: plannedCells(loaded, opts), fits: true, run: true });
+    opts.progress?.(`memory: about ${fmtBytes(estimate.bytes)} needed at the peak, limit ${fmtBytes(limit.bytes)}`);
+    const local = method === "global" ? estimateMemory({ points: n, method: "local", patchPoints: opts.fit?.patchPoints, cells: plannedCells(loaded, opts), fits: true, run: true }) : undefined;
+    checkMemory(estimate, limit, memoryAdvice(estimate, { local }));
+  });
   const model = fitted.model;
   const locTable = opts.locations ? await readLocations(opts.locations, model, { x: opts.x, y: opts.y, header: opts.header, crs: opts.crs }) : fitted.table;
   const masked = await gridOptionsFor(model, { ...opts.grid, progress: opts.progress }, opts.mask);
+  // The grid's size is now known exactly (a mask file's extent included): check again before gridding.
+  const layout = gridLayout(model, masked.grid);
+  const gridEstimate = estimateMemory({ points: model.points.x.length, method: model.method, cells: layout.cols * layout.rows, run: true });
+  checkMemory(gridEstimate, limit, memoryAdvice(gridEstimate));
   opts.progress?.("gridding");
   const grid = await gridModelParallel(model, masked.grid);
   const rule = chooseLevelRule(opts, grid.values, model.transform);
@@ -96,11 +135,14 @@ async function runInto(opts: RunOptions, files: Record<string, string>, inputs: 
   // One error estimator serves the estimates table and the error grid, from the fit's own factors.
   const errorEstimator = makeErrorEstimator(model, fitted.factors);
   const est = estimateTable(model, locTable, errorEstimator);
-  const errors = gridStandardError(model, grid, opts.progress, errorEstimator);
+  const errors = await gridStandardErrorParallel(model, grid, opts.progress, errorEstimator);
   const seRange = valueRange(errors.grid.values);
   const gridRange = valueRange(grid.values);
   const check = makeExtrapolationCheck(model);
 
+  // The model as written; a global model has no binary part, so the run writes no model.rbfield.bin.
+  const modelFiles = encodeModel(model, path.basename(files.modelData));
+  const written = Object.fromEntries(Object.entries(files).filter(([key]) => key !== "modelData" || modelFiles.binary));
   const s = grid.spec;
   let maskedCells = 0;
   for (const v of grid.values) if (Number.isNaN(v)) maskedCells++;
@@ -119,11 +161,12 @@ async function runInto(opts: RunOptions, files: Record<string, string>, inputs: 
       `Contours: ${contourText(rule, lines.levels.length)}; bands between them`,
       ...estimateSummaryLines(est, model),
     ],
-    fileListLines(files),
+    fileListLines(written),
   ]);
   const date = opts.date ?? new Date().toISOString().slice(0, 10);
   const products: RunProducts = {
     model,
+    modelFiles,
     grid,
     stderrGrid: errors.grid,
     contours: lines.text,
@@ -145,9 +188,13 @@ async function runInto(opts: RunOptions, files: Record<string, string>, inputs: 
   const rendered: [string, string | Uint8Array][] = [];
   for (const [i, o] of RUN_OUTPUTS.entries()) {
     opts.progress?.("writing the map, the report and the other files", i / RUN_OUTPUTS.length);
-    rendered.push([files[o.key], await o.render(products)]);
+    const data = await o.render(products);
+    if (data !== null) rendered.push([files[o.key], data]);
   }
   // Everything is computed; write all files as one step (temporary files, then renames).
   writeFilesAtomic(rendered);
-  return { model, files, summary, warnings: estimateWarnings(est), input: inputJson(fitted, model) };
+  // A binary part left by an earlier local run in this folder belongs to no model now.
+  if (!modelFiles.binary) fs.rmSync(files.modelData, { force: true });
+  const memory = { estimate: Math.max(estimate?.bytes ?? 0, gridEstimate.bytes), limit: limit.bytes, limitSource: limit.source, peak: peakResidentBytes() };
+  return { model, files: written, summary, warnings: estimateWarnings(est), input: inputJson(fitted, model), memory };
 }

@@ -41,6 +41,12 @@ export interface LocalPart {
   memberWeights: number[] | null;
   /** m trend coefficients per patch (patch j's at j·m … j·m + m − 1). */
   trendCoefficients: number[];
+  /**
+   * Standard error of the surface at each data point, from the fit (evaluate/local_stderr.ts):
+   * Σⱼ wⱼ(xᵢ) zsⱼ √(b̂ⱼ λⱼ Aᵢᵢ⁽ʲ⁾ / ωᵢ), in value units (log units for log fits, before the
+   * back-transform). Optional (added within version 2; absent in earlier local models).
+   */
+  pointStdErrors?: number[];
 }
 
 const finite = (v: unknown): v is number => typeof v === "number" && Number.isFinite(v);
@@ -76,5 +82,8 @@ export function checkLocalPart(part: unknown, n: number, trend: TrendName, bad: 
     throw bad("patch observation weights are not positive numbers");
   }
   if (!finiteArray(l.trendCoefficients, p * trendTerms(trend)) || !sane(l.trendCoefficients)) throw bad("patch trend coefficients missing or not numbers");
+  if (l.pointStdErrors !== undefined && !(finiteArray(l.pointStdErrors, n) && l.pointStdErrors.every((e) => e >= 0 && e < 1e200))) {
+    throw bad("standard errors at the points are not one number ≥ 0 per point");
+  }
   return l as LocalPart;
 }

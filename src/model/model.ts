@@ -6,12 +6,20 @@ import { checkGlobalPart, type GlobalPart } from "./global.ts";
 import { checkLocalPart, type LocalPart } from "./local.ts";
 import { COORDINATE_LIMIT, VALUE_LIMIT } from "../numbers.ts";
 import { jsonErrorPlace } from "../json_syntax.ts";
+import * as path from "node:path";
+import { encodeWithSidecar, restoreFromSidecar, sidecarPath } from "./binary.ts";
 import type { Crs, PointText, TrendName, KernelName } from "../types.ts";
 
 export const MODEL_FORMAT = "rbfield-model";
+/** Version of the model record (what every key means); single-file models carry it. */
 export const MODEL_VERSION = 2;
-/** Older versions this rbfield still reads (upgraded on reading). */
-export const READABLE_VERSIONS: readonly number[] = [1, 2];
+/**
+ * Version of a model file whose large arrays live in a binary sidecar (binary.ts): the version 2
+ * record without those arrays, plus the `binary` member that says where they are.
+ */
+export const MODEL_VERSION_SIDECAR = 3;
+/** Versions this rbfield reads (1 is upgraded on reading; 3 is read with its sidecar). */
+export const READABLE_VERSIONS: readonly number[] = [1, 2, 3];
 
 /** One candidate of an automatic selection, with its scores (the fields marked optional are absent in version 1 files). */
 export interface RankedCandidate {
@@ -182,8 +190,38 @@ export function modelToJson(model: SurfaceModel): string {
   return JSON.stringify(model, null, 1) + "\n";
 }
 
-/** Parse and check a model file; every problem names the file. */
-export function modelFromJson(text: string, file: string): SurfaceModel {
+/** Is a model written with a binary sidecar? Local models are (their arrays grow with N and the patch overlap); global ones, at most 5,000 points, stay one JSON file. */
+export function usesSidecar(model: SurfaceModel): boolean {
+  return model.method === "local";
+}
+
+/**
+ * A model as the files to write for it: the JSON text, and for models that use one (usesSidecar)
+ * the sidecar's bytes, to be written at `sidecarPath(file)`; the JSON then names `sidecarName`.
+ */
+export function encodeModel(model: SurfaceModel, sidecarName: string): { json: string; binary: Uint8Array | null } {
+  if (!usesSidecar(model)) return { json: modelToJson(model), binary: null };
+  return encodeWithSidecar(model, sidecarName, MODEL_VERSION_SIDECAR);
+}
+
+/** The files to write for a model saved as `file`: the JSON, and its sidecar (sidecarPath) when it uses one. */
+export function modelFiles(file: string, model: SurfaceModel): [string, string | Uint8Array][] {
+  const side = sidecarPath(file);
+  const { json, binary } = encodeModel(model, path.basename(side));
+  return binary ? [[file, json], [side, binary]] : [[file, json]];
+}
+
+/** Where a version 3 model file's sidecar is read from: its path and a function that reads it. */
+export interface SidecarSource {
+  file: string;
+  read(): Uint8Array;
+}
+
+/**
+ * Parse and check a model file; every problem names the file. A version 3 file's arrays are read
+ * from `sidecar` (the reader derives its path from the model file's own, never from the file's content).
+ */
+export function modelFromJson(text: string, file: string, sidecar?: SidecarSource): SurfaceModel {
   let data: unknown;
   try {
     data = JSON.parse(text);
@@ -202,11 +240,20 @@ export function modelFromJson(text: string, file: string): SurfaceModel {
   }
   if (!READABLE_VERSIONS.includes(m.version as number)) {
     throw inputError(
-      `model file version ${JSON.stringify(m.version)} is not supported by this rbfield (reads versions ${READABLE_VERSIONS.join(" and ")}); refit the points`,
+      `model file version ${JSON.stringify(m.version)} is not supported by this rbfield (reads versions ${READABLE_VERSIONS.slice(0, -1).join(", ")} and ${READABLE_VERSIONS.at(-1)}); refit the points`,
       { file },
     );
   }
   if (m.version === 1) renameVersion1Keys(m);
+  if (m.version === MODEL_VERSION_SIDECAR) {
+    if (!sidecar) {
+      throw inputError("this model file keeps its arrays in a binary part beside it (version 3); read it with the file beside it (readModel)", { file });
+    }
+    restoreFromSidecar(m, sidecar.read(), sidecar.file);
+    m.version = MODEL_VERSION;
+  } else if ("binary" in m) {
+    throw inputError(`a version ${JSON.stringify(m.version)} model file cannot have a binary part; refit the points`, { file });
+  }
   const bad = (what: string) => new RbfieldError(`the model file is damaged (${what}); refit the points`, ExitCode.input, { file });
   const finite = (v: unknown): v is number => typeof v === "number" && Number.isFinite(v);
   const finiteArray = (v: unknown, n?: number): v is number[] => Array.isArray(v) && (n === undefined || v.length === n) && v.every(finite);

@@ -1,29 +1,10 @@
-// Cells to typed columns: the number grammar of the text readers, which columns are numbers and
-// which are text, and why a row's x, y or value cannot be used.
-import { messageText } from "../text.ts";
-import type { PointTable, TableColumn, TextTable, UnusableRow } from "../types.ts";
-import { isIdentifierName } from "./names.ts";
+// Cells to typed columns: the number grammar of the text readers (grammar.ts), laboratory values,
+// the decimal mark a file uses, which columns look numeric, and typed tables from rows of cells.
+import type { PointTable, TextTable } from "../types.ts";
+import { parseNumber } from "./grammar.ts";
+import { TableBuilder } from "./table.ts";
 
-// Written so that no text can match in more than one way: "\d+\.?\d*" would let a long run of
-// digits split between the two \d parts, and a failing match would then take quadratic time.
-const PLAIN_NUMBER = /^[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?$/;
-const COMMA_NUMBER = /^[+-]?(?:\d+(?:,\d*)?|,\d+)(?:[eE][+-]?\d+)?$/;
-
-/**
- * Parse a plain finite decimal number; NaN for anything else ("", "NaN", "Infinity", "1e999",
- * "12abc", "0x10"). With decimalComma the decimal mark is "," and a "." is refused.
- */
-export function parseNumber(cell: string, decimalComma: boolean): number {
-  let s = cell.trim();
-  if (decimalComma) {
-    if (!COMMA_NUMBER.test(s)) return NaN;
-    s = s.replace(",", ".");
-  } else if (!PLAIN_NUMBER.test(s)) {
-    return NaN;
-  }
-  const v = Number(s);
-  return Number.isFinite(v) ? v : NaN;
-}
+export { parseNumber };
 
 /**
  * What a laboratory value cell says, beyond a plain number (README "Non-detects"):
@@ -85,81 +66,35 @@ export function detectDecimalComma(rows: string[][]): boolean {
 }
 
 /**
- * Type the cells of a text table: the chosen x, y and value columns and every other column whose
- * cells are all numbers (at least one, empty cells allowed, name not an identifier such as "id" or
- * "code") become numbers, NaN where a cell is not a number; the rest stay text. Rows whose x, y or
- * value is not a number are listed with the reason.
+ * Type the cells of a text table (TableBuilder: the x, y and value columns and every other column
+ * whose cells are all numbers become numbers; rows whose x, y or value is not a number are listed).
  */
 export function typeCells(cells: PointTable): TextTable {
-  const { columns, rows, decimalComma } = cells;
-  const chosen = [cells.xColumn, cells.yColumn, cells.zColumn].filter((j) => j >= 0);
-  const data: TableColumn[] = columns.map((name, j) => {
-    if (!chosen.includes(j) && !numbersOnly(rows, j, name, decimalComma)) {
-      return { name, kind: "text", values: rows.map((row) => row[j] ?? "") };
-    }
-    const values = new Float64Array(rows.length);
-    for (let i = 0; i < rows.length; i++) values[i] = parseNumber(rows[i][j] ?? "", decimalComma);
-    return { name, kind: "number", values };
-  });
-  const unusable: UnusableRow[] = [];
-  for (let i = 0; i < rows.length; i++) {
-    for (const j of chosen) {
-      if (!Number.isNaN((data[j].values as Float64Array)[i])) continue;
-      unusable.push({ row: i, line: cells.lines[i], column: j, reason: badCellReason(rows[i][j] ?? "", columns[j], decimalComma) });
-      break;
-    }
-  }
-  const how = cells.columnChoice === "named" ? "named" : "detected";
-  return {
-    ...cells,
-    format: cells.format ?? formatOf(cells.delimiter),
-    data,
-    hasHeader: cells.hasHeader ?? true,
-    unusable,
-    chosenBy: cells.chosenBy ?? { x: how, y: how, z: cells.zColumn < 0 ? "none" : how },
-  };
+  const { rows, data: _data, unusable: _unusable, ...meta } = cells;
+  const width = cells.columns.length;
+  const builder = new TableBuilder(width, cells.decimalComma);
+  for (const row of rows) builder.add(Array.from({ length: width }, (_, j) => row[j] ?? ""));
+  return builder.finish(meta);
 }
 
-/** Format name of a delimiter as PointTable.delimiter gives it. */
-function formatOf(delimiter: string): string {
-  return ({ ",": "csv", ";": "semicolon", "\t": "tsv" } as Record<string, string>)[delimiter] ?? delimiter;
-}
-
-function numbersOnly(rows: string[][], j: number, name: string, decimalComma: boolean): boolean {
-  if (isIdentifierName(name)) return false;
-  let seen = false;
-  for (const row of rows) {
-    const cell = row[j] ?? "";
-    if (cell.trim() === "") continue;
-    if (Number.isNaN(parseNumber(cell, decimalComma))) return false;
-    seen = true;
+/** The first `count` cells of column j that are not empty or spaces, in row order (what looksNumeric judges). */
+export function firstCells(rows: string[][], j: number, count = 5): string[] {
+  const out: string[] = [];
+  for (let r = 0; r < rows.length && out.length < count; r++) {
+    const cell = rows[r][j] ?? "";
+    if (cell.trim() !== "") out.push(cell);
   }
-  return seen;
-}
-
-/** Why a cell is not a usable number: missing, not finite, or not a number (with a decimal-comma hint). */
-function badCellReason(rawCell: string, rawColumn: string, decimalComma: boolean): string {
-  const cell = messageText(rawCell, 40);
-  const column = messageText(rawColumn, 40);
-  const t = cell.trim();
-  if (t === "") return `missing value in column '${column}'`;
-  const asNumber = Number(decimalComma ? rawCell.trim().replace(",", ".") : rawCell.trim());
-  if (/^[+-]?(nan|inf|infinity)$/i.test(t) || asNumber === Infinity || asNumber === -Infinity) {
-    return `value '${t}' in column '${column}' is not a finite number`;
-  }
-  if (/^>\s*[0-9.,]/.test(t)) return `value '${t}' in column '${column}' is above the reported range (a '>' value is no number to fit)`;
-  const hint = decimalComma && t.includes(".") ? " (this file uses a decimal comma)" : "";
-  return `value '${t}' in column '${column}' is not a number${hint}`;
+  return out;
 }
 
 /**
- * The first few non-empty cells of column j are all numbers (and there is at least one); with
- * `readings`, laboratory values ("<0.5", "ND", "0,8 J") count as numbers too.
+ * The first few non-empty cells of a column (given in row order; firstCells) are all numbers, and
+ * there is at least one; with `readings`, laboratory values ("<0.5", "ND", "0,8 J") count as numbers too.
  */
-export function looksNumeric(rows: string[][], j: number, decimalComma: boolean, readings = false): boolean {
+export function looksNumeric(cells: string[], decimalComma: boolean, readings = false): boolean {
   let seen = 0;
-  for (let r = 0; r < rows.length && seen < 5; r++) {
-    const cell = rows[r][j];
+  for (let r = 0; r < cells.length && seen < 5; r++) {
+    const cell = cells[r];
     if (cell.trim() === "") continue;
     if (Number.isNaN(parseNumber(cell, decimalComma)) && !(readings && parseMeasurement(cell, decimalComma))) return false;
     seen++;

@@ -32,9 +32,10 @@ const POSITION = /^\d+$/;
 /**
  * Choose the x, y and value columns. An option names a column by its name (ignoring case, then
  * also spaces, underscores and units in brackets) or by its 1-based position; a column name that is
- * a number wins over the position only when it equals the option exactly.
+ * a number wins over the position only when it equals the option exactly. `samples` holds, per
+ * column, its first cells that are not empty or spaces (firstCells), which the value fallback judges.
  */
-export function chooseColumns(columns: string[], rows: string[][], options: ReadOptions, ctx: ChoiceContext): Choice {
+export function chooseColumns(columns: string[], samples: string[][], options: ReadOptions, ctx: ChoiceContext): Choice {
   const list = columnList(columns);
   const place = { file: ctx.file, line: ctx.headerLine };
   const needValue = options.needValue ?? true;
@@ -90,7 +91,7 @@ export function chooseColumns(columns: string[], rows: string[][], options: Read
     if (z.j < 0 && needValue && ctx.numericFallback) {
       const j = columns.findIndex((c, k) =>
         // Laboratory values count as numbers; a column of detection limits is never the value.
-        free(k) && candidates.has(k) && !isIdentifierName(c) && !isDetectionLimitName(c) && looksNumeric(rows, k, ctx.decimalComma, true)
+        free(k) && candidates.has(k) && !isIdentifierName(c) && !isDetectionLimitName(c) && looksNumeric(samples[k] ?? [], ctx.decimalComma, true)
       );
       z = { j, how: "first numeric" };
     }

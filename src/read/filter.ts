@@ -5,6 +5,7 @@ import { ExitCode, opt, RbfieldError } from "../errors.ts";
 import { messageText } from "../text.ts";
 import type { TextTable } from "../types.ts";
 import { columnByOption } from "./columns.ts";
+import { cellTexts, hasOwnRows, subsetColumn, withRowView } from "./table.ts";
 
 /** One condition: the column (name or 1-based position) and the values any of which it must hold. */
 export interface WhereCondition {
@@ -45,16 +46,23 @@ export function filterRows(table: TextTable, conditions: WhereCondition[]): { ta
     wanted: new Set(c.values.map((v) => v.toLowerCase())),
     values: c.values,
   }));
+  const text = cellTexts(table);
+  const n = table.lines.length;
+  const holds = (c: (typeof resolved)[number], i: number) => c.wanted.has(text(i, c.j).trim().toLowerCase());
   const keep: number[] = [];
-  for (let i = 0; i < table.rows.length; i++) {
-    if (resolved.every((c) => c.wanted.has((table.rows[i][c.j] ?? "").trim().toLowerCase()))) keep.push(i);
+  for (let i = 0; i < n; i++) {
+    if (resolved.every((c) => holds(c, i))) keep.push(i);
   }
   if (keep.length === 0) {
     // Name the first condition no row meets on its own, with the values its column holds.
-    const c = resolved.find((c) => !table.rows.some((row) => c.wanted.has((row[c.j] ?? "").trim().toLowerCase()))) ?? resolved[0];
+    const none = (c: (typeof resolved)[number]) => {
+      for (let i = 0; i < n; i++) if (holds(c, i)) return false;
+      return true;
+    };
+    const c = resolved.find(none) ?? resolved[0];
     const counts = new Map<string, number>();
-    for (const row of table.rows) {
-      const v = (row[c.j] ?? "").trim();
+    for (let i = 0; i < n; i++) {
+      const v = text(i, c.j).trim();
       counts.set(v, (counts.get(v) ?? 0) + 1);
     }
     const common = [...counts].sort((a, b) => b[1] - a[1] || (a[0] < b[0] ? -1 : 1)).slice(0, 8)
@@ -69,23 +77,20 @@ export function filterRows(table: TextTable, conditions: WhereCondition[]): { ta
   const result: WhereResult = {
     conditions: resolved.map((c) => ({ column: table.columns[c.j], values: c.values })),
     kept: keep.length,
-    dropped: table.rows.length - keep.length,
+    dropped: n - keep.length,
   };
-  return { table: keep.length === table.rows.length ? table : subsetRows(table, keep), result };
+  return { table: keep.length === n ? table : subsetRows(table, keep), result };
 }
 
 /** The table with only the rows listed (0-based, ascending): cells, lines, typed columns, unusable rows. */
 export function subsetRows(table: TextTable, keep: number[]): TextTable {
-  const newIndex = new Map(keep.map((i, k) => [i, k]));
-  return {
+  const newIndex = new Int32Array(table.lines.length).fill(-1);
+  keep.forEach((i, k) => (newIndex[i] = k));
+  const subset = {
     ...table,
-    rows: keep.map((i) => table.rows[i]),
     lines: keep.map((i) => table.lines[i]),
-    data: table.data.map((col) =>
-      col.kind === "number"
-        ? { ...col, values: Float64Array.from(keep, (i) => col.values[i]) }
-        : { ...col, values: keep.map((i) => col.values[i]) }
-    ),
-    unusable: table.unusable.filter((u) => newIndex.has(u.row)).map((u) => ({ ...u, row: newIndex.get(u.row)! })),
+    data: table.data.map((col) => subsetColumn(col, keep)),
+    unusable: table.unusable.filter((u) => newIndex[u.row] >= 0).map((u) => ({ ...u, row: newIndex[u.row] })),
   };
+  return hasOwnRows(table) ? { ...subset, rows: keep.map((i) => table.rows[i]) } : withRowView(subset);
 }

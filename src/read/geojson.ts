@@ -4,7 +4,7 @@
 import { inputError } from "../errors.ts";
 import { messageText } from "../text.ts";
 import type { Crs, TextTable } from "../types.ts";
-import { typeCells } from "./cells.ts";
+import { firstCells, typeCells } from "./cells.ts";
 import { chooseColumns } from "./columns.ts";
 import { fromParseMessage, locateJsonError } from "../json_syntax.ts";
 import type { ReadOptions, TextReader } from "./reader.ts";
@@ -107,7 +107,7 @@ function parseGeoJson(body: string, file: string, lines: LineIndex, options: Rea
   }
 
   const propIdx = propNames.map((_, k) => firstProp + k);
-  const choice = chooseColumns(columns, rows, options, {
+  const choice = chooseColumns(columns, columns.map((_, j) => firstCells(rows, j)), options, {
     file,
     headerLine: keyLine,
     decimalComma: false,

@@ -1,13 +1,15 @@
 // Laboratory values in the value column: non-detects ("<0.5", "< DL", "ND", "n.n.", "0.5 U") and
 // numbers with qualifiers ("0,8 J", "12,4*"), recognised by the grammar in cells.ts instead of being
 // skipped as text. Non-detects enter the fit by a rule (--non-detects): half the detection limit
-// (default), the limit, zero, or not at all. The table's value column is changed in place (as
-// project.ts changes the coordinates); the cells keep their text, and every qualifier is kept per row.
+// (default), the limit, zero, or not at all. The table's value column is replaced by one with the
+// values entered (as project.ts replaces the coordinates); the cells keep their text, and every
+// qualifier is kept per row.
 import { ExitCode, inputError, opt, RbfieldError } from "../errors.ts";
 import { messageText } from "../text.ts";
 import type { TextTable } from "../types.ts";
-import { type Measurement, parseMeasurement, parseNumber } from "./cells.ts";
+import { type Measurement, parseMeasurement } from "./cells.ts";
 import { columnByOption } from "./columns.ts";
+import { cellNumber, cellTexts, valuesToChange } from "./table.ts";
 import { DETECTION_LIMIT_NAMES, normalizeName } from "./names.ts";
 
 /**
@@ -65,22 +67,23 @@ export function readLabValues(table: TextTable, options: LabValueOptions = {}): 
   if (given !== undefined && !(given >= 0 && Number.isFinite(given))) {
     throw new RbfieldError(`${opt("detectionLimit")} must be a number >= 0, not ${given}`, ExitCode.usage);
   }
-  const n = table.rows.length;
+  const n = table.lines.length;
   const qualifier: string[] = new Array(n).fill("");
   const limitOf = new Float64Array(n).fill(NaN);
   const out: LabValues = { rule, limitColumn: null, nonDetects: [], qualified: [], qualifier, limit: limitOf };
   const zj = table.zColumn;
   const zcol = table.data[zj];
   if (zj < 0 || zcol?.kind !== "number") return out;
-  const z = zcol.values;
   const zName = messageText(table.columns[zj], 40);
+  const text = cellTexts(table);
   const found = new Map<number, Measurement>();
   for (let i = 0; i < n; i++) {
-    if (!Number.isNaN(z[i])) continue;
-    const m = parseMeasurement(table.rows[i][zj] ?? "", table.decimalComma);
+    if (!Number.isNaN(zcol.values[i])) continue;
+    const m = parseMeasurement(text(i, zj), table.decimalComma);
     if (m) found.set(i, m);
   }
   if (found.size === 0) return out;
+  const z = valuesToChange(table, zj);
 
   const dj = limitColumnOf(table, options.detectionLimitColumn);
   out.limitColumn = dj >= 0 ? table.columns[dj] : null;
@@ -92,7 +95,7 @@ export function readLabValues(table: TextTable, options: LabValueOptions = {}): 
   for (const [i, m] of found) {
     // Only the value cell is looked at; a row whose x or y is not a number stays as the reader said.
     if (unusable.get(i)?.column !== zj) continue;
-    const cell = (table.rows[i][zj] ?? "").trim();
+    const cell = text(i, zj).trim();
     const shown = messageText(cell, 40);
     if (m.kind === "number") {
       z[i] = m.value;
@@ -104,7 +107,7 @@ export function readLabValues(table: TextTable, options: LabValueOptions = {}): 
       setUnusable(i, `value '${shown}' in column '${zName}' is qualified R: rejected in data validation, not to be used`, "rejected");
     } else {
       qualifier[i] = m.qualifier;
-      const fromColumn = dj >= 0 ? parseNumber(table.rows[i][dj] ?? "", table.decimalComma) : NaN;
+      const fromColumn = dj >= 0 ? cellNumber(table, i, dj) : NaN;
       const limitFrom = m.limit !== null ? "cell" : fromColumn >= 0 ? "column" : given !== undefined ? "option" : null;
       const limit = m.limit ?? (fromColumn >= 0 ? fromColumn : given ?? null);
       if (limit !== null) limitOf[i] = limit;

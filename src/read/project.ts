@@ -13,6 +13,7 @@
 import { type CrsInfo, describeCrs, localCrs, makeProjector, utmZoneFor } from "../crs/crs.ts";
 import { ExitCode, RbfieldError } from "../errors.ts";
 import type { Crs, TextTable } from "../types.ts";
+import { valuesToChange } from "./table.ts";
 
 export interface CrsChoice {
   /** The CRS the points were given in. */
@@ -87,13 +88,15 @@ export async function tableCrs(table: TextTable, given?: string, toCrs?: string)
 }
 
 /**
- * Project the table's x and y columns from `choice.source` to `choice.target` in place (the typed
- * values; cell texts stay as written). Rows whose geographic coordinates are outside ±180°, ±90° are
- * made unusable with their reason.
+ * Project the table's x and y columns from `choice.source` to `choice.target`: the typed values are
+ * replaced by the projected ones (valuesToChange; cell texts stay as written). Rows whose geographic
+ * coordinates are outside ±180°, ±90° are made unusable with their reason.
  */
 export async function projectTable(table: TextTable, choice: CrsChoice): Promise<void> {
   if (choice.source === choice.target) return;
-  const x = numeric(table, table.xColumn), y = numeric(table, table.yColumn);
+  numeric(table, table.xColumn);
+  numeric(table, table.yColumn);
+  const x = valuesToChange(table, table.xColumn), y = valuesToChange(table, table.yColumn);
   const geographic = choice.source.kind === "geographic";
   const keep: number[] = [];
   for (let i = 0; i < x.length; i++) {

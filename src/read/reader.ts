@@ -23,7 +23,12 @@ export interface ReadOptions {
   header?: "auto" | "none";
   /** Point clouds (LAS/LAZ): keep only these ASPRS classes (e.g. [2], ground). */
   classes?: number[];
+  /** readPointTable: progress of reading, with the fraction of the file read. */
+  progress?: (message: string, fraction?: number) => void;
 }
+
+/** A file's bytes in order, a block at a time. */
+export type ByteBlocks = AsyncIterable<Uint8Array> | Iterable<Uint8Array>;
 
 export interface PointReader {
   /** Short name, e.g. "geojson". */
@@ -36,6 +41,11 @@ export interface PointReader {
   sniff(bytes: Uint8Array): number;
   /** Read the whole file; a text reader returns the cells' text as well (a TextTable). */
   read(bytes: Uint8Array, file: string, options: ReadOptions): TypedTable | TextTable | Promise<TypedTable | TextTable>;
+  /**
+   * Read the file a block at a time, holding no more of it than a block and the typed table
+   * (delimited and whitespace text); readPointTable gives the others the whole file.
+   */
+  readBlocks?(blocks: ByteBlocks, file: string, options: ReadOptions): Promise<TypedTable | TextTable>;
 }
 
 /** A reader of a text format, which can also start from text already decoded. */

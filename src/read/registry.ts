@@ -2,11 +2,11 @@
 // start of the file, that the file is its format; the surest reads it. Text no reader recognises
 // goes to the delimited reader, which refuses empty and non-text files with their own messages.
 import type { TextTable, TypedTable } from "../types.ts";
-import { formatNumber } from "../text.ts";
 import { delimitedReader } from "./delimited.ts";
 import { geojsonReader } from "./geojson.ts";
 import { lasReader } from "./las_reader.ts";
 import { checkReadOptions, type PointReader, type ReadOptions, type TextReader } from "./reader.ts";
+import { withRowView } from "./table.ts";
 import { whitespaceReader } from "./whitespace.ts";
 
 /** Every reader, binary formats with a signature first; ties go to the earlier one. */
@@ -56,13 +56,10 @@ export function parseTable(text: string, file: string, options: ReadOptions = {}
 
 /**
  * A typed table with cell text for callers that work on cells (the estimates CSV keeps every input
- * column): a text reader's table as it is, a binary reader's with its numbers written out.
+ * column): a text reader's table as it is, a binary reader's with its numbers written out (cellTexts
+ * in table.ts gives every cell, `rows` all of them when asked for).
  */
 export function withCells(table: TypedTable | TextTable): TextTable {
-  if ("rows" in table && Array.isArray(table.rows)) return table;
-  const text = table.data.map((col) =>
-    col.kind === "text" ? col.values : Array.from(col.values, (v) => (Number.isNaN(v) ? "" : formatNumber(v, 17)))
-  );
-  const rows = table.lines.map((_, i) => text.map((col) => col[i]));
-  return { ...table, rows, delimiter: table.format, decimalComma: false };
+  if ("rows" in table) return table as TextTable;
+  return withRowView({ ...table, delimiter: table.format, decimalComma: false });
 }

@@ -2,6 +2,7 @@
 // Output follows RFC 4180 (comma delimiter, CRLF record ends, quotes doubled inside quoted fields).
 import { ExitCode, RbfieldError } from "../errors.ts";
 import { formatNumber } from "../text.ts";
+import { cellTexts } from "../read/table.ts";
 import type { PointTable } from "../types.ts";
 
 export { formatNumber };
@@ -11,15 +12,19 @@ export function csvField(text: string): string {
   return /[",\r\n]/.test(text) ? `"${text.replace(/"/g, '""')}"` : text;
 }
 
-/** One record per input row: original cells, then each added column (numbers formatted with formatNumber). */
+/**
+ * One record per input row: original cells (as written: cellTexts, made from the typed columns for
+ * a table a reader made), then each added column (numbers formatted with formatNumber).
+ */
 export function estimatesCsv(
   table: PointTable,
   added: { name: string; values: Float64Array | number[] | string[]; digits?: number }[],
 ): string {
+  const rows = table.lines.length;
   for (const col of added) {
-    if (col.values.length !== table.rows.length) {
+    if (col.values.length !== rows) {
       throw new RbfieldError(
-        `column '${col.name}' has ${col.values.length} values for ${table.rows.length} rows`,
+        `column '${col.name}' has ${col.values.length} values for ${rows} rows`,
         ExitCode.internal,
       );
     }
@@ -28,10 +33,10 @@ export function estimatesCsv(
   const out: string[] = [];
   const header = [...table.columns, ...added.map((c) => c.name)];
   out.push(header.map(csvField).join(",") + "\r\n");
-  for (let i = 0; i < table.rows.length; i++) {
-    const row = table.rows[i];
+  const text = cellTexts(table);
+  for (let i = 0; i < rows; i++) {
     const fields: string[] = [];
-    for (let j = 0; j < width; j++) fields.push(csvField(row[j] ?? ""));
+    for (let j = 0; j < width; j++) fields.push(csvField(text(i, j)));
     for (const col of added) {
       const v = col.values[i];
       fields.push(csvField(typeof v === "string" ? v : formatNumber(v, col.digits ?? 10)));

@@ -1,7 +1,7 @@
 // The files of a run, in one list: each output has its file name, a label for people and a render
 // function over the products of the run. `run`, its --help, the summary's file list and the tests
 // all read this list; a new output (a map, a report) is one more entry.
-import { modelToJson, type SurfaceModel } from "../model/model.ts";
+import { type SurfaceModel } from "../model/model.ts";
 import type { GridValues, PointTable } from "../types.ts";
 import { type MapInput, renderMap } from "./map.ts";
 import { mapToPdf } from "./map/print.ts";
@@ -14,6 +14,8 @@ import { type DuplicateGroup, duplicatesCsv, type SkippedEntry, skippedCsv } fro
 /** Everything a run has computed, which the outputs render. */
 export interface RunProducts {
   model: SurfaceModel;
+  /** The model as written (encodeModel): its JSON text and, for a local model, its binary part. */
+  modelFiles: { json: string; binary: Uint8Array | null };
   grid: GridValues;
   stderrGrid: GridValues;
   contours: string;
@@ -37,14 +39,18 @@ export interface OutputWriter {
   file: string;
   /** Label in the summary's file list. */
   label: string;
-  render(p: RunProducts): string | Uint8Array | Promise<Uint8Array>;
+  /** Written only by some runs (render gives null otherwise): the model's binary part, for local models. */
+  optional?: true;
+  render(p: RunProducts): string | Uint8Array | null | Promise<Uint8Array>;
 }
 
 /** The printed map of a run: A4 landscape, colour relief with hillshade, fitted to the page. */
 export const RUN_MAP_OPTIONS = { paper: "A4", orientation: "landscape", relief: true, labelPoints: false } as const;
 
 export const RUN_OUTPUTS: readonly OutputWriter[] = [
-  { key: "model", file: "model.rbfield.json", label: "model", render: (p) => modelToJson(p.model) },
+  { key: "model", file: "model.rbfield.json", label: "model", render: (p) => p.modelFiles.json },
+  // The arrays of a local model (model/binary.ts): the file name is sidecarPath of the model's.
+  { key: "modelData", file: "model.rbfield.bin", label: "model data", optional: true, render: (p) => p.modelFiles.binary },
   { key: "surface", file: "surface.tif", label: "grid", render: (p) => encodeGeoTiff(p.grid) },
   { key: "stderr", file: "stderr.tif", label: "std error", render: (p) => encodeGeoTiff(p.stderrGrid) },
   { key: "contours", file: "contours.geojson", label: "contours", render: (p) => p.contours },
@@ -59,14 +65,14 @@ export const RUN_OUTPUTS: readonly OutputWriter[] = [
   { key: "summary", file: "run-summary.txt", label: "summary", render: (p) => p.summary },
 ];
 
-/** The summary's list of files: "Files:" and one line per output, label padded to a column. */
+/** The summary's list of files: "Files:" and one line per output written, label padded to a column. */
 export function fileListLines(files: Record<string, string>): string[] {
-  return ["Files:", ...RUN_OUTPUTS.map((o) => `  ${o.label.padEnd(11)}${files[o.key]}`)];
+  return ["Files:", ...RUN_OUTPUTS.filter((o) => o.key in files).map((o) => `  ${o.label.padEnd(11)}${files[o.key]}`)];
 }
 
 /** The output file names joined for help texts: "a, b, … and z", in lines of at most `width` characters. */
 export function outputNamesText(width = 100): string {
-  const names = RUN_OUTPUTS.map((o) => o.file);
+  const names = RUN_OUTPUTS.map((o) => (o.optional ? `${o.file} (local models)` : o.file));
   const words = `${names.slice(0, -1).join(", ")} and ${names.at(-1)}`.split(" ");
   const lines = [""];
   for (const w of words) {

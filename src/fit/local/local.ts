@@ -350,8 +350,9 @@ function assemble(st: Stage, choice: Choice, blocks: PatchBlock[]): LocalModel {
       }
     }
   }
-  const fitted = new Float64Array(n), loo = new Float64Array(n), hat = new Float64Array(n);
+  const fitted = new Float64Array(n), loo = new Float64Array(n), hat = new Float64Array(n), pointSe = new Float64Array(n);
   const fieldOf = (k: number, j: number, f: number) => member[j][(k - start[j]) * MEMBER_FIELDS + f];
+  const patchOf = (j: number, f: number) => scalars[j * SCALARS + f];
   for (let j = 0; j < p; j++) {
     for (let k = start[j]; k < start[j + 1]; k++) {
       const i = index[k];
@@ -359,9 +360,10 @@ function assemble(st: Stage, choice: Choice, blocks: PatchBlock[]): LocalModel {
       fitted[i] += w * fieldOf(k, j, 1);
       loo[i] += w * fieldOf(k, j, 2);
       hat[i] += w * fieldOf(k, j, 4);
+      // The patch's standard error at its own data point: zsⱼ √(b̂ⱼ λⱼ Aᵢᵢ / ωᵢ) (evaluate/local_stderr.ts).
+      pointSe[i] += w * patchOf(j, 1) * Math.sqrt(Math.max(patchOf(j, 9) * patchOf(j, 3) * fieldOf(k, j, 4) / fieldOf(k, j, 6), 0));
     }
   }
-  const patchOf = (j: number, f: number) => scalars[j * SCALARS + f];
   // Observation weights as fitted: the user's, times the home patch's robustness weight (mean 1).
   const robustWeight = options.robust ? Float64Array.from({ length: n }, (_, i) => fieldOf(homeK[i], home[i], 5)) : null;
   let omega: Float64Array | null = null;
@@ -526,6 +528,7 @@ function assemble(st: Stage, choice: Choice, blocks: PatchBlock[]): LocalModel {
       weights: Array.from(weights),
       memberWeights: memberWeights ? Array.from(memberWeights) : null,
       trendCoefficients: Array.from(trendCoef),
+      pointStdErrors: Array.from(pointSe),
     },
   };
   return model;

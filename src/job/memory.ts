@@ -1,0 +1,267 @@
+// Memory: what a job will need at its peak, estimated before the long work starts, against a limit;
+// above it the job is refused with advice (exit 2) rather than left to crash. The figures are the
+// arrays each stage holds at once, counted from the code (bytes per number below), times a factor
+// for the JavaScript engine's own overhead, measured against the resident set size the Linux kernel
+// reports (VmHWM, proc(5)): see DEVELOPERS.md, "Limits", and test/memory.test.ts.
+import * as fs from "node:fs";
+import { ExitCode, opt, RbfieldError } from "../errors.ts";
+import { LOCAL_AUTO_POINTS } from "../fit/surface.ts";
+import { DEFAULT_PATCH_POINTS } from "../fit/local/local.ts";
+import type { MethodChoice } from "../fit/options.ts";
+
+const MiB = 2 ** 20;
+const GiB = 2 ** 30;
+
+/**
+ * The process before any data: Deno, V8 and rbfield's modules (measured: about 100–115 MiB resident
+ * for the command line, the PDF and font modules included).
+ */
+export const BASE_BYTES = 130 * MiB;
+/** One worker thread: its own V8 isolate and copy of the modules it imports (measured: about 30 MiB). */
+export const WORKER_BYTES = 35 * MiB;
+/**
+ * Global fit of n points, bytes per n²: the kernel matrix, its copy B reduced to tridiagonal form
+ * and the reflectors (8 + 8 + 4), then the leave-one-out Cholesky factor and its inverse; measured
+ * 25–50 (1,000 to 3,000 points), taken as 40. The standard errors add the bordered inverse (Zᵀ, Y,
+ * G and the kernel matrix again, 4 × 8): a run 60, a model read from a file and refactorised 60.
+ */
+export const GLOBAL_FIT_PER_N2 = 40;
+export const GLOBAL_ERRORS_PER_N2 = 60;
+/**
+ * Local fit, bytes per point: the prepared data and its copy in each worker, the patches' results
+ * (7 numbers per patch member, about 3.5 members per point), the model's arrays and its binary part;
+ * measured 1.6 KB per point between 2·10⁴ and 10⁵ points, taken with the model's share as 1,200 + 600.
+ */
+export const LOCAL_FIT_PER_POINT = 1200;
+/** The model held in memory, bytes per point: a local model's arrays (about 12 numbers per point and 3 per patch member), a global one's. */
+const LOCAL_MODEL_PER_POINT = 600;
+const GLOBAL_MODEL_PER_POINT = 120;
+/** A patch's own work per worker (kernel matrix, reduction, leave-one-out: about 40 bytes per n², patches of up to 2 × patchPoints). */
+const PATCH_WORK_PER_N2 = 40;
+/**
+ * The local method's standard errors: each thread keeps patch factors (8·n² bytes per patch, about
+ * 5,600 bytes per point over all patches) up to STDERR_CACHE_BYTES, and a packed copy of the model
+ * (5 numbers per patch member: 140 bytes per point).
+ */
+const LOCAL_ERRORS_PER_POINT = 5600;
+const STDERR_CACHE_BYTES = 256 * MiB;
+const PACKED_ERRORS_PER_POINT = 140;
+/**
+ * Bytes per grid cell: a grid alone — values (8), mask (1), the workers' blocks (8), the GeoTIFF (4):
+ * measured 17, taken as 20 — with standard errors 12 more (their values and GeoTIFF); a run's grid,
+ * standard errors, contour lines, bands and the map's relief image, measured about 180 at 10⁶ cells,
+ * taken as 200.
+ */
+export const GRID_PER_CELL = 20;
+export const GRID_ERRORS_PER_CELL = 12;
+export const RUN_PER_CELL = 200;
+/**
+ * The run's map (map.pdf) and report draw every survey point: the PDF conversion of the map took
+ * about 45 KB per point (1 GB for 2·10⁴ points, 3.7 GB for 10⁵) and the report 7 KB: 52 KB per point.
+ */
+export const MAP_PER_POINT = 52 * 1024;
+/** When nothing says how much memory the machine has. */
+export const FALLBACK_LIMIT = 4 * GiB;
+/** Share of the machine's memory a job may plan to use by default. */
+export const DEFAULT_SHARE = 0.5;
+
+/** One part of an estimate, for the message. */
+export interface MemoryPart {
+  what: string;
+  bytes: number;
+  /** What the part belongs to, for the advice (memoryAdvice). */
+  kind: "process" | "model" | "global" | "local" | "errors" | "grid" | "map";
+}
+
+export interface MemoryEstimate {
+  /** Peak bytes: the parts summed. */
+  bytes: number;
+  /** The largest part and its size, for the message, e.g. "global fit of 12,000 points (…): 4.3 GiB". */
+  what: string;
+  largest: MemoryPart["kind"];
+  parts: MemoryPart[];
+}
+
+/** Which method a fit of n points will use (as fitSurface chooses it). */
+export function methodFor(n: number, asked: MethodChoice | undefined): "global" | "local" {
+  const method = asked ?? "auto";
+  return method === "auto" ? (n > LOCAL_AUTO_POINTS ? "local" : "global") : method;
+}
+
+export interface JobSize {
+  /** Points fitted (or in the model). */
+  points: number;
+  method: "global" | "local";
+  patchPoints?: number;
+  /** Grid cells, when the job grids. */
+  cells?: number;
+  /** The job computes standard errors on the grid (grid --stderr, run). */
+  stderr?: boolean;
+  /** The job is a whole run (contours, bands, map, report besides the grid). */
+  run?: boolean;
+  /** The job fits (else the model is read). */
+  fits?: boolean;
+  threads?: number;
+}
+
+/**
+ * The peak memory of a job, from its size: the process, the model, and each stage's arrays, summed
+ * (the stages of a run keep what they made until the files are written, and the engine does not give
+ * freed memory back at once).
+ */
+export function estimateMemory(job: JobSize): MemoryEstimate {
+  const threads = Math.max(1, job.threads ?? (navigator.hardwareConcurrency || 1));
+  const n = job.points;
+  const workers = threads >= 2 ? threads : 0;
+  const count = n.toLocaleString("en");
+  const parts: MemoryPart[] = [
+    { what: "the process and its worker threads", bytes: BASE_BYTES + workers * WORKER_BYTES, kind: "process" },
+    { what: "the model", bytes: (job.method === "global" ? GLOBAL_MODEL_PER_POINT : LOCAL_MODEL_PER_POINT) * n, kind: "model" },
+  ];
+  const errors = Boolean(job.stderr || job.run);
+  if (job.method === "global") {
+    const perN2 = errors ? GLOBAL_ERRORS_PER_N2 : job.fits ? GLOBAL_FIT_PER_N2 : 0;
+    if (perN2) {
+      const what = job.fits ? "global fit" : "the global model's factors";
+      parts.push({ what: `${what} of ${count} points (${fmtBytes(8 * n * n)} per ${count} × ${count} matrix)`, bytes: perN2 * n * n, kind: "global" });
+    }
+  } else {
+    const p = job.patchPoints ?? DEFAULT_PATCH_POINTS;
+    if (job.fits) parts.push({ what: `local fit of ${count} points`, bytes: LOCAL_FIT_PER_POINT * n + PATCH_WORK_PER_N2 * (2 * p) ** 2 * Math.max(workers, 1), kind: "local" });
+    if (errors) {
+      const bytes = Math.min(LOCAL_ERRORS_PER_POINT * n, STDERR_CACHE_BYTES * Math.max(workers, 1)) + PACKED_ERRORS_PER_POINT * n * Math.max(workers, 1);
+      parts.push({ what: `the standard errors' patch factors`, bytes, kind: "errors" });
+    }
+  }
+  if (job.cells !== undefined) {
+    const perCell = job.run ? RUN_PER_CELL : GRID_PER_CELL + (job.stderr ? GRID_ERRORS_PER_CELL : 0);
+    parts.push({ what: `a grid of ${job.cells.toLocaleString("en")} cells`, bytes: perCell * job.cells, kind: "grid" });
+  }
+  if (job.run) parts.push({ what: `the map and report drawing all ${count} points`, bytes: MAP_PER_POINT * n, kind: "map" });
+  const bytes = parts.reduce((t, q) => t + q.bytes, 0);
+  const largest = parts.slice(1).reduce((a, q) => (q.bytes > a.bytes ? q : a), parts[1]);
+  return { bytes, what: `${largest.what}: ${fmtBytes(largest.bytes)}`, largest: largest.kind, parts };
+}
+
+/**
+ * What to do instead, by the part that drives an estimate: the local method for a global fit (with
+ * what it would need: `local`), larger cells or tiles for a grid, the verbs without a map for a run's
+ * map. Raising the limit is always offered (checkMemory).
+ */
+export function memoryAdvice(e: MemoryEstimate, o: { local?: MemoryEstimate; tiles?: boolean; run?: boolean } = {}): string[] {
+  switch (e.largest) {
+    case "global":
+      return o.local ? [`use ${opt("method")} local (about ${fmtBytes(o.local.bytes)})`] : [];
+    case "grid":
+      return [`choose a larger ${opt("cell")} or a smaller ${opt("extent")}` + (o.tiles ? `, or write the grid in tiles (${opt("tile")})` : "")];
+    case "map":
+      return ["run fit, grid and contour instead, which draw no map"];
+    default:
+      return [];
+  }
+}
+
+export interface MemoryLimit {
+  bytes: number;
+  /** Where the limit comes from, for the message: "--max-memory", or the share of the machine's memory. */
+  source: string;
+  /** Given by the user (--max-memory). */
+  given: boolean;
+}
+
+/** Is a Deno permission granted (without asking: a query never prompts)? */
+function granted(descriptor: Deno.PermissionDescriptor): boolean {
+  try {
+    return Deno.permissions.querySync(descriptor).state === "granted";
+  } catch {
+    return false;
+  }
+}
+
+function readNumber(file: string, pattern: RegExp): number | undefined {
+  if (!granted({ name: "read", path: file })) return undefined;
+  try {
+    const m = pattern.exec(fs.readFileSync(file, "utf8"));
+    return m ? Number(m[1]) : undefined;
+  } catch {
+    return undefined;
+  }
+}
+
+/**
+ * The machine's memory as this process may use it: Deno.systemMemoryInfo() when the sys permission
+ * is granted, else MemTotal from /proc/meminfo (Linux; read permission, which the command line has),
+ * and a smaller cgroup limit (containers: /sys/fs/cgroup/memory.max, or memory.limit_in_bytes of
+ * cgroup v1). Undefined when none of these is readable.
+ */
+export function machineMemory(): { bytes: number; source: string } | undefined {
+  let total: number | undefined;
+  let source = "";
+  if (granted({ name: "sys", kind: "systemMemoryInfo" })) {
+    try {
+      total = Deno.systemMemoryInfo().total;
+      source = "this machine's";
+    } catch { /* not on this platform */ }
+  }
+  if (!(total! > 0)) {
+    const kb = readNumber("/proc/meminfo", /^MemTotal:\s+(\d+)\s+kB/m);
+    if (kb !== undefined && kb > 0) {
+      total = kb * 1024;
+      source = "this machine's";
+    }
+  }
+  const cgroup = readNumber("/sys/fs/cgroup/memory.max", /^(\d+)\s*$/) ?? readNumber("/sys/fs/cgroup/memory/memory.limit_in_bytes", /^(\d+)\s*$/);
+  if (cgroup !== undefined && cgroup > 0 && (!(total! > 0) || cgroup < total!)) {
+    total = cgroup;
+    source = "this container's";
+  }
+  return total! > 0 ? { bytes: total!, source } : undefined;
+}
+
+/** The memory limit: `given` (bytes, --max-memory), else DEFAULT_SHARE of the machine's memory, else FALLBACK_LIMIT. */
+export function memoryLimit(given?: number): MemoryLimit {
+  if (given !== undefined) return { bytes: given, source: `${opt("maxMemory")} ${fmtBytes(given)}`, given: true };
+  const machine = machineMemory();
+  if (!machine) return { bytes: FALLBACK_LIMIT, source: `the default ${fmtBytes(FALLBACK_LIMIT)} (this machine's memory is not readable here)`, given: false };
+  return { bytes: DEFAULT_SHARE * machine.bytes, source: `half of ${machine.source} ${fmtBytes(machine.bytes)}`, given: false };
+}
+
+/**
+ * Refuse a job whose estimate exceeds the limit: one line with the estimate, what drives it, the
+ * limit and what to do (`advice`, e.g. "use {method} local"), exit code 2.
+ */
+export function checkMemory(estimate: MemoryEstimate, limit: MemoryLimit, advice: string[] = []): void {
+  if (estimate.bytes <= limit.bytes) return;
+  const raise = `raise the limit with ${opt("maxMemory")} ${fmtBytes(Math.ceil(estimate.bytes / (GiB / 4)) * (GiB / 4), true)}`;
+  throw new RbfieldError(
+    `this needs about ${fmtBytes(estimate.bytes)} of memory at its peak (${estimate.what}), more than the limit of ${limit.bytes === 0 ? "0" : fmtBytes(limit.bytes)} ` +
+      `(${limit.source}); ${[...advice, raise].join(", or ")}`,
+    ExitCode.usage,
+  );
+}
+
+/** A size as people write it: 512MiB, 8GiB, 8G, 2.5GB, 1e9 (bytes). K, M, G, T and KiB… are powers of 1024; kB, MB, GB, TB powers of 1000. */
+export function parseSize(text: string): number | undefined {
+  const m = /^\s*(\d+(?:\.\d+)?(?:e\d+)?)\s*([kKmMgGtT]?)(i?)([bB]?)\s*$/.exec(text);
+  if (!m) return undefined;
+  const value = Number(m[1]);
+  const letter = m[2].toUpperCase();
+  if (!letter && (m[3] || m[4] === "b")) return undefined;
+  const power = " KMGT".indexOf(letter || " ");
+  const decimal = letter !== "" && m[3] === "" && m[4] !== "";
+  const bytes = value * (decimal ? 1000 : 1024) ** power;
+  return Number.isFinite(bytes) && bytes > 0 ? Math.round(bytes) : undefined;
+}
+
+/** Bytes for people: "730 MiB", "2.5 GiB"; `compact` writes "2.5GiB" (an option value). */
+export function fmtBytes(bytes: number, compact = false): string {
+  const sep = compact ? "" : " ";
+  if (bytes >= GiB) return `${Number((bytes / GiB).toPrecision(bytes >= 10 * GiB ? 3 : 2))}${sep}GiB`;
+  return `${Math.max(1, Math.round(bytes / MiB))}${sep}MiB`;
+}
+
+/** The largest resident set of this process so far (VmHWM, Linux), or null where it cannot be read. */
+export function peakResidentBytes(): number | null {
+  const kb = readNumber("/proc/self/status", /^VmHWM:\s+(\d+)\s+kB/m);
+  return kb === undefined ? null : kb * 1024;
+}
