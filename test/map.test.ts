@@ -423,3 +423,20 @@ describe.skipIf(skipChromium)("the SVG map in headless Chromium", () => {
     }
   });
 });
+
+describe("the colour scale of log-spaced values", () => {
+  // A logarithmic scale puts v at (log v − log lo)/(log hi − log lo) of its length (the definition of
+  // a log axis, common practice in plotting): on [1, 100] the value 10 sits at the middle.
+  it("places the ticks 1, 2, 5 × 10ᵏ by their logarithm and names the scale", async () => {
+    const { colourRamp } = await import("../src/write/map/furniture.ts");
+    const x = 10, width = 100;
+    const svg = colourRamp(x, 0, width, [1, 100], "values", "nitrate, log scale", 1, "t", true).svg;
+    const labels = [...svg.matchAll(/<text x="([\d.]+)"[^>]*>([^<]+)<\/text>/g)].map((m) => [Number(m[1]), m[2]] as const);
+    const at = new Map(labels.map(([px, label]) => [label, px]));
+    expect([...at.keys()]).toEqual(["nitrate, log scale", "1", "2", "5", "10", "20", "50", "100"]);
+    for (const v of [1, 2, 5, 10, 20, 50, 100]) expect(at.get(String(v))).toBeCloseTo(x + (Math.log10(v) / 2) * width, 2);
+    // A linear scale on [0, 100] puts 40 at 0.4 of its length (ticks every 20).
+    const linear = colourRamp(x, 0, width, [0, 100], "values", "", 1, "l").svg;
+    expect(linear).toMatch(new RegExp(`<text x="${x + 0.4 * width}"[^>]*>40<`));
+  });
+});

@@ -67,7 +67,9 @@ export function renderMap(input: MapInput, options: MapOptions): string {
   const reliefGrid = input.reliefGrid ?? input.grid;
   const domain = finiteRange(reliefGrid.values);
   if (!(domain[1] >= domain[0])) throw new RbfieldError("the grid has no unmasked cells to map", ExitCode.input);
-  const valueTitle = `${input.valueName ?? "Value"}${input.unit ? ` (${input.unit})` : ""}`;
+  // Log-spaced contours (values fitted as logarithms) get a colour scale in the logarithm too.
+  const logColour = input.rule.kind === "log" && domain[0] > 0;
+  const valueTitle = `${input.valueName ?? "Value"}${input.unit ? ` (${input.unit})` : ""}${logColour ? ", log scale" : ""}`;
   const residualColour = options.pointColour === "residual" && (input.points ?? []).some((q) => typeof q.residual === "number");
   const residualRange = residualColour ? residualDomain(input.points!) : 0;
   // Index contours (heavier, labelled) by the one definition the GeoJSON writer also uses.
@@ -132,7 +134,7 @@ export function renderMap(input: MapInput, options: MapOptions): string {
   function drawLegend(x: number, y: number, w: number): string {
     let svg = "", dy = 0;
     if (options.relief) {
-      const r = colourRamp(x, y, w, domain, "values", valueTitle, u, `${p}legend-values`);
+      const r = colourRamp(x, y, w, domain, "values", valueTitle, u, `${p}legend-values`, logColour);
       svg += r.svg;
       dy += r.height;
       if (options.shade !== false) {
@@ -240,7 +242,7 @@ export function renderMap(input: MapInput, options: MapOptions): string {
     const [x0, y0] = P(rs.xmin, rs.ymax), [x1, y1] = P(rs.xmax, rs.ymin);
     const dpmm = Math.min(RELIEF_DPI / 25.4, Math.sqrt(RELIEF_MAX_PIXELS / ((x1 - x0) * (y1 - y0))));
     const width = Math.max(1, Math.round((x1 - x0) * dpmm)), height = Math.max(1, Math.round((y1 - y0) * dpmm));
-    const png = reliefPng(reliefGrid, { width, height, domain, palette: "values", shade: options.shade !== false });
+    const png = reliefPng(reliefGrid, { width, height, domain, log: logColour, palette: "values", shade: options.shade !== false });
     body += el("image", { id: `${p}relief`, x: x0, y: y0, width: x1 - x0, height: y1 - y0, preserveAspectRatio: "none", "xlink:href": pngDataUri(png) });
   }
   const ticks = coordinateTicks(f, `Grid coordinates: ${input.crs}; ${mapUnit.name === "m" ? "metres" : mapUnit.name}; grid north up`, u, p);

@@ -3,7 +3,8 @@
 // which escapes it.
 import { decimalsOf, formatFixed } from "../../text.ts";
 import { roundStepBelow } from "./format.ts";
-import { hex, paletteRgb, type PaletteName } from "./palette.ts";
+import { hex, paletteRgb, type PaletteName, scalePosition } from "./palette.ts";
+import { LOG_125, LOG_DECADES, logLevels } from "../levels.ts";
 import { el, escapeXml, n } from "./svg.ts";
 import { wrapText } from "./text.ts";
 
@@ -140,7 +141,8 @@ export function northArrow(cx: number, y: number, u: number, prefix: string): { 
 
 /**
  * A horizontal colour ramp in `steps` blocks (flat colours: every renderer draws them alike), with
- * round ticks in the data's units.
+ * round ticks in the data's units; on a log scale (`log`, scalePosition) ticks at 1, 2, 5 × 10ᵏ, or
+ * at the decades when the range spans more than three.
  */
 export function colourRamp(
   x: number,
@@ -151,23 +153,31 @@ export function colourRamp(
   title: string,
   u: number,
   id: string,
+  log = false,
 ): { svg: string; height: number } {
   const size = 2 * u, h = 3.5 * u;
   const [lo, hi] = domain;
-  const span = hi - lo || 1;
+  const position = scalePosition(domain, log);
   const steps = 64;
   let blocks = "";
   for (let i = 0; i < steps; i++) {
     blocks += el("rect", { x: x + (i * width) / steps, y: y + size * 1.4, width: width / steps + 0.05, height: h, fill: hex(paletteRgb(palette, (i + 0.5) / steps)) });
   }
-  const tickStep = roundStepBelow(span / 4);
-  const decimals = decimalsOf(tickStep);
+  const tickValues: { v: number; label: string }[] = [];
+  if (log && lo > 0 && hi > lo) {
+    const values = logLevels(lo, hi, Math.log10(hi / lo) > 3 ? LOG_DECADES : LOG_125);
+    for (const v of values) tickValues.push({ v, label: formatFixed(v, Math.max(0, decimalsOf(v))) });
+  } else {
+    const span = hi - lo || 1;
+    const tickStep = roundStepBelow(span / 4);
+    const decimals = decimalsOf(tickStep);
+    for (let i = Math.ceil(lo / tickStep); i * tickStep <= hi + 1e-9 * span; i++) tickValues.push({ v: i * tickStep, label: formatFixed(i * tickStep, decimals) });
+  }
   let ticks = "", labels = "";
-  for (let i = Math.ceil(lo / tickStep); i * tickStep <= hi + 1e-9 * span; i++) {
-    const v = i * tickStep;
-    const px = x + ((v - lo) / span) * width;
+  for (const { v, label } of tickValues) {
+    const px = x + position(v) * width;
     ticks += `M${n(px, 3)} ${n(y + size * 1.4 + h, 3)}v${n(1.2 * u, 3)}`;
-    labels += text(px, y + size * 1.4 + h + 1.2 * u + size, formatFixed(v, decimals), { size, anchor: "middle" });
+    labels += text(px, y + size * 1.4 + h + 1.2 * u + size, label, { size, anchor: "middle" });
   }
   const frame = el("rect", { x, y: y + size * 1.4, width, height: h, fill: "none", stroke: INK, "stroke-width": 0.2 * u });
   return {

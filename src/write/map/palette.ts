@@ -45,6 +45,22 @@ export function paletteRgb(palette: PaletteName, t: number): Rgb {
   return TABLES[palette][k];
 }
 
+/**
+ * Where a value falls on a colour scale, 0 to 1: linear in the value, or in its logarithm when `log`
+ * (values fitted with the log transform and drawn with log-spaced contours: equal colour steps per
+ * decade, so a plume's fringe of 1–10 is as visible as its core of 100–1,000). A log scale needs
+ * lo > 0; otherwise the scale is linear.
+ */
+export function scalePosition(domain: [number, number], log = false): (v: number) => number {
+  const [lo, hi] = domain;
+  if (log && lo > 0 && hi > lo) {
+    const a = Math.log(lo), span = Math.log(hi) - a;
+    return (v) => (Math.log(v) - a) / span;
+  }
+  const span = hi > lo ? hi - lo : 1;
+  return (v) => (v - lo) / span;
+}
+
 export function hex([r, g, b]: Rgb): string {
   return "#" + [r, g, b].map((c) => c.toString(16).padStart(2, "0")).join("");
 }
@@ -110,6 +126,8 @@ export interface ReliefOptions {
   height: number;
   /** Value range mapped onto the palette. */
   domain: [number, number];
+  /** Map the logarithm of the value onto the palette (scalePosition). */
+  log?: boolean;
   palette: PaletteName;
   shade: boolean;
 }
@@ -125,8 +143,7 @@ export function reliefPng(grid: GridValues, o: ReliefOptions): Uint8Array {
   const z = o.shade ? exaggeration(gx, gy, (k) => !Number.isNaN(v[k])) : 1;
   const az = (LIGHT.azimuth * Math.PI) / 180, alt = (LIGHT.altitude * Math.PI) / 180;
   const lx = Math.sin(az) * Math.cos(alt), ly = Math.cos(az) * Math.cos(alt), lz = Math.sin(alt);
-  const [lo, hi] = o.domain;
-  const span = hi > lo ? hi - lo : 1;
+  const position = scalePosition(o.domain, o.log);
   const data = new Uint8Array(o.width * o.height * 3);
   // Bilinear weights over the four nearest cell centres, renormalised over the unmasked ones.
   const sample = (u: number, w: number, field: Float64Array): number => {
@@ -157,7 +174,7 @@ export function reliefPng(grid: GridValues, o: ReliefOptions): Uint8Array {
         continue;
       }
       const value = sample(xCells - 0.5, yCells - 0.5, v);
-      const rgb = paletteRgb(o.palette, (value - lo) / span);
+      const rgb = paletteRgb(o.palette, position(value));
       let factor = 1;
       if (o.shade) {
         const px = z * sample(xCells - 0.5, yCells - 0.5, gx), py = z * sample(xCells - 0.5, yCells - 0.5, gy);
