@@ -14,6 +14,7 @@ import { intervalRule } from "./levels.ts";
 import { roundStepBelow } from "./map/format.ts";
 import { candidateTrendOf, looOf, methodSummary, residualUnit, stretchText, trendOf } from "./map/method.ts";
 import { escapeXml } from "./map/svg.ts";
+import { evenSample } from "./map/sample.ts";
 import { FONT_STACK } from "./map/text.ts";
 import { KERNEL_TABLE } from "../fit/kernels.ts";
 
@@ -60,6 +61,8 @@ ul.warnings li { margin: 0.2rem 0; }
 `;
 
 const esc = escapeXml;
+/** Most rows of the table of flagged points. */
+const MAX_FLAGGED_ROWS = 500;
 const sig = (v: number | null | undefined, d = 4) => (typeof v === "number" && Number.isFinite(v) ? formatSignificant(v, d) : "—");
 
 function table(head: string[], rows: string[][], numeric: boolean[] = [], rowClass: (i: number) => string = () => ""): string {
@@ -146,7 +149,8 @@ export function renderReport(input: ReportInput): string {
   if (cleaning) {
     if (cleaning.rowsRead !== undefined) modelRows.push(["Rows read", String(cleaning.rowsRead)]);
     modelRows.push(["Rows skipped", cleaning.skipped.length ? `${cleaning.skipped.length}: lines ${lineList(cleaning.skipped.map((s) => s.line))}` : "none"]);
-    modelRows.push(["Coincident points merged", cleaning.merged.length ? `${cleaning.merged.length} group${cleaning.merged.length === 1 ? "" : "s"}: lines ${cleaning.merged.map((m) => m.lines.join(" + ")).slice(0, 30).join("; ")}` : "none"]);
+    modelRows.push(["Coincident points merged", cleaning.merged.length ? `${cleaning.merged.length} group${cleaning.merged.length === 1 ? "" : "s"}: lines ${cleaning.merged.map((m) => m.lines.join(" + ")).slice(0, 30).join("; ")}` : "none"]);  } else {
+    modelRows.push(["Rows skipped or merged", "not recorded in the model file: see skipped.csv and duplicates.csv of the run that fitted it"]);
   }
   sections.push({
     id: "model",
@@ -186,12 +190,17 @@ export function renderReport(input: ReportInput): string {
   const pts = model.points;
   const loo = pts.x.map((_, i) => looOf(model, i));
   const read = (i: number) => (model.transform === "log" ? Math.log(pts.z[i]) : pts.z[i]);
-  const scatter = pts.x.map((_, i) => ({ x: loo[i] === null ? NaN : read(i) - loo[i]!, y: read(i), flagged: flaggedLines.has(pts.line[i]) }));
+  // The scatter draws at most MAX_DRAWN_POINTS, spread evenly over the site, every flagged point among them.
+  const shown = evenSample(pts.x, pts.y, (i) => flaggedLines.has(pts.line[i]));
+  const scatter = shown.map((i) => ({ x: loo[i] === null ? NaN : read(i) - loo[i]!, y: read(i), flagged: flaggedLines.has(pts.line[i]) }));
+  const sampleNote = shown.length < pts.x.length
+    ? ` The plot of readings shows ${shown.length.toLocaleString("en")} of the ${pts.x.length.toLocaleString("en")} points, spread evenly over the site; the histogram counts all.`
+    : "";
   const axisUnit = model.transform === "log" ? " (ln)" : unit ? ` (${unit})` : "";
   sections.push({
     id: "residuals",
     title: "Leave-one-out residuals",
-    html: `<p class="note">Each reading compared with the surface fitted without it (Rippa 1999). Possible blunders are ringed.</p><div class="figures">` +
+    html: `<p class="note">Each reading compared with the surface fitted without it (Rippa 1999). Possible blunders are ringed.${sampleNote}</p><div class="figures">` +
       histogramChart(loo.filter((v): v is number => v !== null), `leave-one-out residual${ruText}`) +
       scatterChart(scatter, `leave-one-out estimate${axisUnit}`, `reading${axisUnit}`) + `</div>`,
   });
@@ -203,7 +212,9 @@ export function renderReport(input: ReportInput): string {
     : f.test === "tau"
     ? `Pope's tau test on studentised leave-one-out residuals, ${sig(100 * (f.level ?? 0), 3)}% false-alarm rate for the whole survey, critical value ${sig(f.critical, 3)}.`
     : `|standardised leave-one-out residual| above ${sig(f.critical, 3)}.`;
-  const flaggedIdx = pts.line.map((l, i) => (flaggedLines.has(l) ? i : -1)).filter((i) => i >= 0);
+  const flaggedAll = pts.line.map((l, i) => (flaggedLines.has(l) ? i : -1)).filter((i) => i >= 0);
+  // The table lists the first MAX_FLAGGED_ROWS; residuals.csv has every one.
+  const flaggedIdx = flaggedAll.slice(0, MAX_FLAGGED_ROWS);
   const dx = (v: number) => esc(formatFixed(v, 3, "-"));
   // Point ids and codes, where the input had them: surveyors find shots by point number.
   const named = (pts.text ?? []).filter((t) => t.role === "id" || t.role === "code");
@@ -226,7 +237,8 @@ export function renderReport(input: ReportInput): string {
           ]),
           [true, ...named.map(() => false), true, true, true, true, true, true],
         )
-        : "<p>No point is flagged.</p>"),
+        : "<p>No point is flagged.</p>") +
+      (flaggedAll.length > flaggedIdx.length ? `<p class="note">The first ${flaggedIdx.length} of ${flaggedAll.length.toLocaleString("en")} flagged points; residuals.csv lists them all.</p>` : ""),
   });
 
   // ---- Input rows ----

@@ -7,6 +7,14 @@ import { indexTest, type LevelRule, levelsWithin } from "../levels.ts";
 import { finiteRange } from "./format.ts";
 import { looOf, methodSummary } from "./method.ts";
 import type { MapInput } from "./types.ts";
+import { evenSample } from "./sample.ts";
+
+/** "input lines 12, 40, 41" — at most 20, then how many more (residuals.csv lists them all). */
+function blunderLines(lines: readonly number[]): string {
+  const sorted = [...lines].sort((a, b) => a - b);
+  const more = sorted.length - 20;
+  return `input line${sorted.length === 1 ? "" : "s"} ${sorted.slice(0, 20).join(", ")}` + (more > 0 ? ` and ${more.toLocaleString("en")} more (residuals.csv lists them)` : "");
+}
 
 /** A grid with the rule's contour levels within its values and their contour lines. */
 export function contoured(grid: GridValues, rule: LevelRule): Pick<MapInput, "grid" | "contours" | "levels" | "rule"> {
@@ -36,9 +44,12 @@ export interface ModelMapOptions {
 export function mapInputFromModel(model: SurfaceModel, grid: GridValues, o: ModelMapOptions): MapInput {
   const flagged = new Set(model.diagnostics.flags.lines);
   const pts = model.points;
+  // At most MAX_DRAWN_POINTS, spread evenly, every possible blunder among them.
+  const shown = evenSample(pts.x, pts.y, (i) => flagged.has(pts.line[i]));
   return {
     ...contoured(grid, o.rule),
-    points: pts.x.map((x, i) => ({ x, y: pts.y[i], value: pts.z[i], flagged: flagged.has(pts.line[i]), residual: looOf(model, i) })),
+    points: shown.map((i) => ({ x: pts.x[i], y: pts.y[i], value: pts.z[i], flagged: flagged.has(pts.line[i]), residual: looOf(model, i) })),
+    ...(shown.length < pts.x.length ? { pointsTotal: pts.x.length } : {}),
     outline: o.outline ?? [model.hull],
     outlineLabel: o.outlineLabel ?? (o.outline ? "Mask outline" : "Data outline (convex hull)"),
     title: o.title ?? `${model.source.z} surface, ${model.source.file}`,
@@ -50,7 +61,7 @@ export function mapInputFromModel(model: SurfaceModel, grid: GridValues, o: Mode
     valueName: model.source.z,
     method: methodSummary(model, o.unit ?? ""),
     notes: model.diagnostics.flags.lines.length
-      ? [`Possible blunders (ringed): input lines ${[...model.diagnostics.flags.lines].sort((a, b) => a - b).join(", ")}. Check them in the field book.`]
+      ? [`Possible blunders (ringed): ${blunderLines(model.diagnostics.flags.lines)}. Check them in the field book.`]
       : [],
   };
 }

@@ -91,7 +91,8 @@ export function symbolRows(input: MapInput, options: MapOptions, u: number, inde
   if (indexed && said.index !== null) rows.push({ label: `Index contour, ${said.index}`, symbol: line(0.35) });
   if (input.points?.length) {
     rows.push({
-      label: options.labelPoints ? "Survey point, with its reading" : "Survey point",
+      label: (options.labelPoints ? "Survey point, with its reading" : "Survey point") +
+        (input.pointsTotal ? ` (${input.points.length.toLocaleString("en")} of ${input.pointsTotal.toLocaleString("en")}, spread evenly)` : ""),
       symbol: (x, y) => pointMarker(x, y, (residualColour ? 0.7 : 0.45) * u, residualColour ? "#f7f7f7" : INK, u),
     });
     if (input.points.some((q) => q.flagged)) {

@@ -23,6 +23,8 @@ export interface MapInput {
   /** How the levels were chosen: it decides the index contours (heavier, labelled) and the level texts. */
   rule: LevelRule;
   points?: MapPoint[];
+  /** The number of survey points when `points` is a sample of them (evenSample in sample.ts). */
+  pointsTotal?: number;
   /** Rings outlining the data (convex hull or mask), map coordinates. */
   outline?: [number, number][][];
   /** Legend text for the outline, e.g. "Data outline (convex hull)". */
