@@ -15,7 +15,7 @@ import { type ProgressReporter, progressReporter, type TerminalWriter } from "./
 import { messageText } from "./text.ts";
 import { MODEL_VERSION } from "./model/model.ts";
 import type { KernelName, TrendName } from "./types.ts";
-import { contourVerb, fitVerb, gridVerb, mapVerb, predictVerb, runVerb, tilesVerb, type VerbResult } from "./verbs.ts";
+import { contourVerb, fitVerb, gridVerb, mapVerb, predictVerb, reportVerb, runVerb, tilesVerb, type VerbResult } from "./verbs.ts";
 import { DEFAULT_TILE_SIZE } from "./evaluate/tiles.ts";
 import { parseSize } from "./job/memory.ts";
 import type { MapOptions } from "./write/map.ts";
@@ -122,9 +122,11 @@ const GRID_HELP = `  --cell SIZE               cell size in map units (default: 
   --force                   allow grids above 100 million cells`;
 const STDERR_HELP = `  --stderr FILE.tif         also write the standard error of the estimate as a second GeoTIFF
                             (model-based, not a survey tolerance; see README)`;
-const TILE_HELP = `  --tile COL,ROW            write only this tile of the grid (0-based, from the north-west corner),
-                            computed from the points that reach it; 'rbfield tiles' puts the tiles
-                            together, byte for byte the grid written whole
+const TILE_HELP = `  --tile COL,ROW            write only this tile of the grid: N × N cells (--tile-size), counted
+                            from 0 at the north-west corner, the last ones cut at the grid's edge;
+                            computed from the part of the model that reaches it (with --stderr, its
+                            standard errors too). Give every tile the same --cell, --extent and
+                            --mask; 'rbfield tiles' puts them together, byte for byte the whole grid
   --tile-size N             tile side in cells (default ${DEFAULT_TILE_SIZE})`;
 const TITLE_HELP = `  --title TEXT              title of the map (and of the report)
   --date YYYY-MM-DD         date in the title block (default today, UTC; give it for byte-identical
@@ -136,7 +138,8 @@ const LEVELS_HELP = `  --interval DZ             contour interval (default: a ro
   --levels L1,L2,…          contour exactly these levels instead (e.g. thresholds 1,10,100,1000;
                             each is an index contour)`;
 const COMMON_HELP = `  --max-memory SIZE         refuse work whose estimated peak memory is larger (default: half of the
-                            machine's memory; e.g. 8GiB, 512MiB; K, M, G, T are powers of 1024)
+                            machine's memory); e.g. 8GiB, 512MiB, 2G: K, M, G, T and KiB, MiB, GiB,
+                            TiB are powers of 1024; kB, MB, GB, TB powers of 1000
   --json                    print a machine-readable JSON summary on stdout
   --quiet                   no progress on stderr (otherwise a bar when stderr is a terminal,
                             else one line per step)
@@ -155,6 +158,7 @@ Verbs:
   predict MODEL LOCATIONS.csv --out FILE.csv                estimates at listed places
   tiles TILE.tif… --out FILE.tif  put tiles written by 'grid --tile' together into the whole grid
   map MODEL|FILE.tif --out FILE.pdf|.svg|.png              a contour map to print
+  report MODEL --out FILE.html    a self-contained report: maps, GCV curve, residuals, flags, model
   run POINTS --out DIR            the whole job: model, grid, contours, estimates, map, report, summary
 
 'deno task rbfield <verb> --help' shows each verb's options.
@@ -185,9 +189,15 @@ ${COMMON_HELP}
 `,
   tiles: `Usage: deno task rbfield tiles TILE.tif [TILE.tif …] --out FILE.tif [options]
 
-Puts the tiles written by 'grid MODEL --tile COL,ROW' (or their standard-error tiles) together into
-the whole grid: the same bytes as 'grid MODEL' without --tile. Every tile of the grid must be given
-once.
+Puts the tiles written by 'grid MODEL --tile COL,ROW' together into the whole grid: the same bytes
+as 'grid MODEL' without --tile. Every tile of the grid must be given once, in any order; each tile
+says where it belongs. Value tiles and standard-error tiles (--stderr) are put together separately.
+Tiles of another model, extent, cell, mask or tile size are refused. For example:
+
+  for t in 0,0 1,0 0,1 1,1; do
+    deno task rbfield grid site.rbfield.json --cell 0.5 --tile $t --tile-size 2048 --out tile-$t.tif
+  done
+  deno task rbfield tiles tile-*.tif --out surface.tif
 
 ${COMMON_HELP}
 `,
@@ -243,6 +253,20 @@ ${LEVELS_HELP}
   --scale N                 print at 1:N (default: the largest round scale that fits the sheet)
   --relief                  colour relief with hillshade under the contours (default: lines only)
   --label-points            print each survey point's value beside it
+${TITLE_HELP}
+${GRID_HELP}
+${COMMON_HELP}
+`,
+  report: `Usage: deno task rbfield report MODEL --out FILE.html [options]
+
+The report of a saved model as one self-contained HTML file that opens in any browser with no
+network: the contour map with relief, the standard-error map, the GCV curve over λ with the choice
+marked, the candidate ranking, leave-one-out residuals (histogram, reading against estimate), the
+points flagged, the model table, warnings and the caution. The same page as run's report.html, except
+that the rows skipped or merged when fitting are listed only by run (skipped.csv, duplicates.csv).
+The grid options make the maps' grid, as for 'grid'.
+
+${LEVELS_HELP}
 ${TITLE_HELP}
 ${GRID_HELP}
 ${COMMON_HELP}
@@ -469,7 +493,7 @@ export async function main(args: string[], io: Io): Promise<number> {
       io.out(HELP.main);
       return verb === undefined ? ExitCode.usage : 0;
     }
-    if (!(verb in HELP) || verb === "main") throw usage(`unknown verb "${verb}"; verbs: fit, grid, contour, predict, map, run, tiles (see --help)`);
+    if (!(verb in HELP) || verb === "main") throw usage(`unknown verb "${verb}"; verbs: fit, grid, contour, predict, map, report, run, tiles (see --help)`);
     const specs: Record<string, Spec> = {
       fit: { ...COMMON, ...POINTS, ...MODEL, out: { type: "string" } },
       grid: { ...COMMON, ...GRID, ...STDERR, ...TILE, out: { type: "string" } },
@@ -478,6 +502,7 @@ export async function main(args: string[], io: Io): Promise<number> {
       predict: { ...COMMON, x: { type: "string" }, y: { type: "string" }, header: { type: "string" }, crs: { type: "string" }, out: { type: "string" } },
       run: { ...COMMON, ...POINTS, ...MODEL, ...GRID, ...CONTOUR, ...TITLE, out: { type: "string" }, locations: { type: "string" } },
       map: { ...COMMON, ...GRID, ...TITLE, ...SHEET, ...LEVELS, out: { type: "string" } },
+      report: { ...COMMON, ...GRID, ...TITLE, ...LEVELS, out: { type: "string" } },
     };
     // "--base -5": join a value option with a following negative number so it is not read as an option.
     const rest: string[] = [];
@@ -529,6 +554,17 @@ export async function main(args: string[], io: Io): Promise<number> {
         ...levelOptions(v),
         bands: Boolean(v.bands),
         threeD: Boolean(v["3d"]),
+        grid: { ...gridOptions(v), progress },
+        mask,
+        maxMemory,
+      });
+    } else if (verb === "report") {
+      result = await reportVerb({
+        model: pos[0],
+        out,
+        ...levelOptions(v),
+        title: v.title as string | undefined,
+        date: dateOption(v),
         grid: { ...gridOptions(v), progress },
         mask,
         maxMemory,

@@ -32,11 +32,13 @@ import { checkWritableFolder, refuseFolderAsOutput, refuseInputAsOutput, writeFi
 import { contourGeoJson } from "./write/contours.ts";
 import { chooseLevelRule, describeLevels, type LevelRule } from "./write/levels.ts";
 import { crsText } from "./text.ts";
+import { describeCrs } from "./crs/crs.ts";
 import { mapInputFromGrid, mapInputFromModel, type MapInput, type MapOptions, renderMap } from "./write/map.ts";
 import { mapToPdf, mapToPng } from "./write/map/print.ts";
+import { renderReport } from "./write/report.ts";
 import { estimatesCsv } from "./write/csv.ts";
 import { encodeGeoTiff, geoTiffTags } from "./write/geotiff.ts";
-import { assembleTiles, gridTile, tileDescription, type TileFile, tileStandardError } from "./evaluate/tiles.ts";
+import { assembleTiles, gridTile, tileDescription, type TileFile, tileGridId, tileStandardError } from "./evaluate/tiles.ts";
 import { contourText, gridText, modelSummaryLines, pointLabel } from "./write/summary.ts";
 
 /** What a verb hands back to the CLI. */
@@ -209,10 +211,17 @@ function memoryJson(estimate: number, limit: MemoryLimit): Record<string, unknow
 async function tileVerb(o: GridVerbOptions, model: SurfaceModel, masked: { grid: GridOptions; notes: string[] }, memory: () => Record<string, unknown>): Promise<VerbResult> {
   const t = await gridTile(model, masked.grid, o.tile!);
   const se = o.stderr ? await tileStandardError(model, t) : undefined;
-  const description = tileDescription(t);
+  // The model file's bytes, the layout and the mask identify the grid (tileGridId): tiles of another model or mask are refused when put together.
+  let modelBytes: Uint8Array;
+  try {
+    modelBytes = fs.readFileSync(o.model);
+  } catch {
+    throw new RbfieldError("cannot read the model file (missing or not readable)", ExitCode.io, { file: o.model });
+  }
+  const id = tileGridId(modelBytes, t.whole, masked.grid.mask);
   writeFilesAtomic([
-    [o.out, encodeGeoTiff(t.grid, { description })],
-    ...(o.stderr && se ? [[o.stderr, encodeGeoTiff(se.grid, { description })] as [string, Uint8Array]] : []),
+    [o.out, encodeGeoTiff(t.grid, { description: tileDescription(t, "values", id) })],
+    ...(o.stderr && se ? [[o.stderr, encodeGeoTiff(se.grid, { description: tileDescription(t, "standard errors", id) })] as [string, Uint8Array]] : []),
   ]);
   const w = t.window, s = t.grid.spec;
   const from = t.patches === null ? `all ${t.points.toLocaleString("en")} points` : `${t.patches.toLocaleString("en")} patches holding ${t.points.toLocaleString("en")} of ${model.points.x.length.toLocaleString("en")} points`;
@@ -276,8 +285,10 @@ export async function tilesVerb(o: TilesVerbOptions): Promise<VerbResult> {
   const grid = assembleTiles(files);
   writeFileAtomic(o.out, encodeGeoTiff(grid));
   const s = grid.spec;
+  // The summary names the cell in the CRS's unit, as 'grid' does (the GeoTIFF keys give the EPSG code only).
+  const named = grid.crs.epsg !== undefined ? await describeCrs(grid.crs.epsg).catch(() => grid.crs) : grid.crs;
   return {
-    text: `${o.tiles.length} tiles put together: grid of ${gridText(s, grid.crs)} written to ${o.out} (CRS ${crsText(grid.crs)})\n\n${CAUTION}\n`,
+    text: `${o.tiles.length} tiles put together: grid of ${gridText(s, named)} written to ${o.out} (CRS ${crsText(named)})\n\n${CAUTION}\n`,
     json: { tiles: o.tiles.length, cols: s.cols, rows: s.rows, cell: s.cell, extent: [s.xmin, s.ymin, s.xmax, s.ymax], crs: grid.crs, file: o.out, memory: memoryJson(estimate.bytes, limit), caution: CAUTION },
     warnings: [],
   };
@@ -425,6 +436,57 @@ export async function mapVerb(o: MapVerbOptions): Promise<VerbResult> {
       levelRule: input.rule,
       caution: CAUTION,
     },
+    warnings: [],
+  };
+}
+
+/** The report of a saved model (report verb): the same page as run's report.html. */
+export interface ReportVerbOptions {
+  model: string;
+  /** FILE.html */
+  out: string;
+  interval?: number;
+  base?: number;
+  levels?: number[];
+  title?: string;
+  /** Date printed on the report, YYYY-MM-DD (default today, UTC). */
+  date?: string;
+  grid: GridOptions;
+  mask?: MaskFile;
+  otherInputs?: string[];
+  maxMemory?: number;
+}
+
+/**
+ * The HTML report of a saved model: its surface map and standard-error map gridded as `grid` would,
+ * the GCV curve, ranking, residuals, flags and the model table. The rows skipped or merged when the
+ * model was fitted are not in the model file (run's report, skipped.csv and duplicates.csv list them).
+ */
+export async function reportVerb(o: ReportVerbOptions): Promise<VerbResult> {
+  if (!/\.html?$/i.test(o.out)) throw new RbfieldError(`the report is written as .html (by the ending of ${opt("out")}), not "${o.out}"`, ExitCode.usage);
+  prepareOutput(o.out, [...modelInputs(o.model), ...(o.mask ? [o.mask.file] : []), ...(o.otherInputs ?? [])]);
+  const date = o.date ?? new Date().toISOString().slice(0, 10);
+  const model = readModel(o.model);
+  const gridOpts = (await gridOptionsFor(model, o.grid, o.mask)).grid;
+  checkGridMemory(model, gridOpts, o.maxMemory, { stderr: true });
+  o.grid.progress?.("gridding");
+  const grid = await gridModelParallel(model, gridOpts);
+  o.grid.progress?.("standard errors");
+  const errors = await gridStandardErrorParallel(model, grid, o.grid.progress);
+  const rule = chooseLevelRule(o, grid.values, model.transform);
+  o.grid.progress?.("writing the report");
+  const html = renderReport({
+    model,
+    map: mapInputFromModel(model, grid, { rule, title: o.title, date }),
+    stderrGrid: errors.grid,
+    stderrNote: errors.stride > 1 ? `computed every ${errors.stride} cells and interpolated` : undefined,
+    title: o.title ?? `${model.source.z} surface, ${model.source.file}`,
+    date,
+  });
+  writeFileAtomic(o.out, html);
+  return {
+    text: `Report (contours ${describeLevels(rule, "", "-").levels}) written to ${o.out}\n\n${CAUTION}\n`,
+    json: { file: o.out, interval: intervalOf(rule), levelRule: rule, caution: CAUTION },
     warnings: [],
   };
 }

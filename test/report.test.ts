@@ -161,3 +161,33 @@ describe.skipIf(skipChromium)("the report in headless Chromium", () => {
     expect(Math.abs(got.markerX - expected)).toBeLessThan(1);
   });
 });
+
+describe("the report verb", () => {
+  // The command line on a saved model: the same page as run's report (its sections, CSP and
+  // caution), the cleaning rows said to be elsewhere, and a refused ending that writes nothing.
+  it("writes the report of a saved model, and refuses an --out that is not .html", async () => {
+    const { main } = await import("../src/cli.ts");
+    const { encodeModel } = await import("../src/model/model.ts");
+    const dir = mkdtempSync(join(tmpdir(), "rbfield-report-verb-"));
+    try {
+      const modelFile = join(dir, "site.rbfield.json");
+      writeFileSync(modelFile, encodeModel(model, "site.rbfield.bin").json);
+      let out = "", err = "";
+      const io = { out: (s: string) => (out += s), err: (s: string) => (err += s + "\n") };
+      const file = join(dir, "report.html");
+      expect(await main(["report", modelFile, "--out", file, "--cell", "2", "--date", "2026-01-31", "--quiet"], io), err).toBe(0);
+      const page = (await import("node:fs")).readFileSync(file, "utf8");
+      expect(page).toMatch(/<meta http-equiv="Content-Security-Policy" content="default-src 'none'/);
+      for (const id of SECTIONS.filter((s) => s !== "input-rows")) expect(page).toContain(`id="${id}"`);
+      expect(page).toContain("not recorded in the model file");
+      expect(page).toContain("2026-01-31");
+      expect(out).toContain(CAUTION);
+      const pdf = join(dir, "report.pdf");
+      expect(await main(["report", modelFile, "--out", pdf, "--quiet"], io)).toBe(2);
+      expect(err).toMatch(/the report is written as \.html/);
+      expect((await import("node:fs")).existsSync(pdf)).toBe(false);
+    } finally {
+      rmSync(dir, { recursive: true, force: true });
+    }
+  });
+});

@@ -39,8 +39,8 @@ import type { TrendName } from "../types.ts";
 import { localBuffers, localEvaluator, makeBlender, type PackedLocal, packLocal, subsetPatches } from "./local.ts";
 import type { ErrorEstimator } from "./stderr.ts";
 
-/** Bytes of patch factors kept at once (least recently used dropped first). */
-const CACHE_BYTES = 256 * 2 ** 20;
+/** Bytes of patch factors kept at once per thread (least recently used dropped first; job/memory.ts counts it). */
+export const CACHE_BYTES = 256 * 2 ** 20;
 
 /** The local model packed for its error estimator: the surface's own arrays and what refactorising needs. */
 export interface PackedLocalErrors {

@@ -21,6 +21,7 @@ import { localErrorEstimatorPacked, localErrorWork, packLocalErrors, subsetLocal
 import { evaluateWindow } from "./parallel.ts";
 import { errorLattice, errorsAtNodes, fillWindow, makeErrorEstimator, nodesInWorkers, windowNodes } from "./stderr.ts";
 import { workersAvailable } from "../workers.ts";
+import { crc32Hex } from "../model/binary.ts";
 
 /** Default tile side in cells. */
 export const DEFAULT_TILE_SIZE = 1024;
@@ -189,17 +190,36 @@ export async function tileStandardError(model: SurfaceModel, t: GridTile, thread
   return { grid: { spec: t.grid.spec, values, crs: t.grid.crs }, stride: lattice.stride };
 }
 
+/** What a tile holds: the surface's values or their standard errors (grid --stderr). */
+export type TileContent = "values" | "standard errors";
+
+/**
+ * The identity of the grid a tile belongs to: CRC-32 (ISO-HDLC) of the model file's bytes (a local
+ * model's JSON holds its sidecar's CRC-32, so the JSON stands for both), the whole grid's layout and
+ * the mask, 8 hexadecimal digits. Tiles of another model or mask over the same layout differ in it,
+ * so assembleTiles never mixes them.
+ */
+export function tileGridId(modelBytes: Uint8Array, whole: GridSpec, mask: GridOptions["mask"]): string {
+  const layout = new TextEncoder().encode(JSON.stringify([whole.xmin, whole.ymax, whole.cols, whole.rows, whole.cell, mask ?? "hull"]));
+  const all = new Uint8Array(modelBytes.length + layout.length);
+  all.set(modelBytes);
+  all.set(layout, modelBytes.length);
+  return crc32Hex(all);
+}
+
 /** The description a tile's GeoTIFF carries (TIFF ImageDescription), which assembleTiles checks. */
-export function tileDescription(t: Pick<GridTile, "col" | "row" | "size" | "tiles" | "whole">): string {
-  return `rbfield tile ${t.col},${t.row} of ${t.tiles.cols} x ${t.tiles.rows}; tile size ${t.size}; grid ${t.whole.cols} x ${t.whole.rows}`;
+export function tileDescription(t: Pick<GridTile, "col" | "row" | "size" | "tiles" | "whole">, content: TileContent, gridId: string): string {
+  return `rbfield tile ${t.col},${t.row} of ${t.tiles.cols} x ${t.tiles.rows}; tile size ${t.size}; grid ${t.whole.cols} x ${t.whole.rows}; ${content}; grid id ${gridId}`;
 }
 
 /** The parts of a tile description, or undefined when the text is not one. */
-export function parseTileDescription(text: string): { col: number; row: number; tilesCols: number; tilesRows: number; size: number; cols: number; rows: number } | undefined {
-  const m = /^rbfield tile (\d+),(\d+) of (\d+) x (\d+); tile size (\d+); grid (\d+) x (\d+)$/.exec(text.replace(/\0+$/, ""));
+export function parseTileDescription(
+  text: string,
+): { col: number; row: number; tilesCols: number; tilesRows: number; size: number; cols: number; rows: number; content: TileContent; gridId: string } | undefined {
+  const m = /^rbfield tile (\d+),(\d+) of (\d+) x (\d+); tile size (\d+); grid (\d+) x (\d+); (values|standard errors); grid id ([0-9a-f]{8})$/.exec(text.replace(/\0+$/, ""));
   if (!m) return undefined;
-  const [col, row, tilesCols, tilesRows, size, cols, rows] = m.slice(1).map(Number);
-  return { col, row, tilesCols, tilesRows, size, cols, rows };
+  const [col, row, tilesCols, tilesRows, size, cols, rows] = m.slice(1, 8).map(Number);
+  return { col, row, tilesCols, tilesRows, size, cols, rows, content: m[8] as TileContent, gridId: m[9] };
 }
 
 /** A tile as read back: its grid, its description, and the file it came from. */
@@ -222,7 +242,7 @@ export function assembleTiles(tiles: TileFile[]): GridValues {
     return { ...t, d };
   });
   const first = parts[0];
-  const { tilesCols, tilesRows, size, cols, rows } = first.d;
+  const { tilesCols, tilesRows, size, cols, rows, content, gridId } = first.d;
   const seen = new Map<string, string>();
   for (const p of parts) {
     const d = p.d;
@@ -230,6 +250,12 @@ export function assembleTiles(tiles: TileFile[]): GridValues {
       throw new RbfieldError(`is a tile of another grid (${d.cols} × ${d.rows} cells in tiles of ${d.size}) than ${first.file} (${cols} × ${rows} in tiles of ${size})`, ExitCode.input, {
         file: p.file,
       });
+    }
+    if (d.content !== content) {
+      throw new RbfieldError(`holds ${d.content} and ${first.file} ${content}; put the value tiles and the standard-error tiles together separately`, ExitCode.input, { file: p.file });
+    }
+    if (d.gridId !== gridId) {
+      throw new RbfieldError(`is a tile of another grid (another model, extent or mask: grid id ${d.gridId}) than ${first.file} (grid id ${gridId})`, ExitCode.input, { file: p.file });
     }
     const key = `${d.col},${d.row}`;
     if (seen.has(key)) throw new RbfieldError(`tile ${key} is given twice (also ${seen.get(key)})`, ExitCode.input, { file: p.file });

@@ -1,38 +1,57 @@
 // Memory: what a job will need at its peak, estimated before the long work starts, against a limit;
 // above it the job is refused with advice (exit 2) rather than left to crash. The figures are the
-// arrays each stage holds at once, counted from the code (bytes per number below), times a factor
-// for the JavaScript engine's own overhead, measured against the resident set size the Linux kernel
-// reports (VmHWM, proc(5)): see DEVELOPERS.md, "Limits", and test/memory.test.ts.
+// arrays each stage holds at once, counted from the code (bytes per number below), scaled to the
+// resident set size the Linux kernel reports (VmHWM, proc(5); GNU time's maximum resident set size)
+// of the command line on Franke's function, so that the estimate is above what was measured and
+// within 2× of it for the usual sizes: see DEVELOPERS.md, "Memory", and test/memory.test.ts.
+// Measured 2026-12-02 on the 2-core machine with other work running; the engine's garbage collector
+// makes a peak vary by up to 30 % between runs of the same job, hence the margins.
 import * as fs from "node:fs";
 import { ExitCode, opt, RbfieldError } from "../errors.ts";
 import { LOCAL_AUTO_POINTS } from "../fit/surface.ts";
 import { DEFAULT_PATCH_POINTS } from "../fit/local/local.ts";
 import type { MethodChoice } from "../fit/options.ts";
+import { MAX_DRAWN_POINTS } from "../write/map/sample.ts";
+import { CACHE_BYTES as STDERR_CACHE_BYTES } from "../evaluate/local_stderr.ts";
 
 const MiB = 2 ** 20;
 const GiB = 2 ** 30;
 
 /**
- * The process before any data: Deno, V8 and rbfield's modules (measured: about 100–115 MiB resident
- * for the command line, the PDF and font modules included).
+ * The process before any data: Deno, V8 and rbfield's modules (measured: 116–126 MiB resident for a
+ * 100-point fit without worker threads, the PDF and font modules included).
  */
 export const BASE_BYTES = 130 * MiB;
-/** One worker thread: its own V8 isolate and copy of the modules it imports (measured: about 30 MiB). */
-export const WORKER_BYTES = 35 * MiB;
+/**
+ * One worker thread: its own V8 isolate and copy of the modules it imports (measured: 40–45 MiB,
+ * a fixed-kernel local fit of 2,000 points peaking at 203–210 MiB on 2 threads).
+ */
+export const WORKER_BYTES = 45 * MiB;
+/**
+ * What a worker's heap grows by while it ranks candidates in a fit (automatic kernel and trend: the
+ * global method on at most 500 points, the local one on sample patches). Measured: automatic global
+ * fits of 500–1,000 points peaked at 264–296 MiB, local ones of 2,000 points at 178–276 MiB, against
+ * 203–210 MiB with a fixed kernel; taken as 45 MiB per worker on top of WORKER_BYTES.
+ */
+export const RANK_WORKER_BYTES = 45 * MiB;
 /**
  * Global fit of n points, bytes per n²: the kernel matrix, its copy B reduced to tridiagonal form
- * and the reflectors (8 + 8 + 4), then the leave-one-out Cholesky factor and its inverse; measured
- * 25–50 (1,000 to 3,000 points), taken as 40. The standard errors add the bordered inverse (Zᵀ, Y,
- * G and the kernel matrix again, 4 × 8): a run 60, a model read from a file and refactorised 60.
+ * and the reflectors (8 + 8 + 4), then the leave-one-out Cholesky factor and its inverse. Measured
+ * (peak less the process) 25–60 between 1,000 and 3,000 points, falling with n; taken as 40: the
+ * whole estimate was 1.07–1.9 × the peak for automatic fits of 500–3,000 points. The standard errors
+ * add the bordered inverse (Zᵀ, Y, G and the kernel matrix again, 4 × 8): a run 60, a model read
+ * from a file and refactorised 60.
  */
 export const GLOBAL_FIT_PER_N2 = 40;
 export const GLOBAL_ERRORS_PER_N2 = 60;
 /**
  * Local fit, bytes per point: the prepared data and its copy in each worker, the patches' results
- * (7 numbers per patch member, about 3.5 members per point), the model's arrays and its binary part;
- * measured 1.6 KB per point between 2·10⁴ and 10⁵ points, taken with the model's share as 1,200 + 600.
+ * (7 numbers per patch member, about 3.5 members per point), the model's arrays and its binary part,
+ * and the garbage the engine has not collected yet. Measured (peak less the process and workers)
+ * 1.4–2.6 KB per point between 5·10⁴ and 2·10⁵ points (peaks 310–315 MiB at 5·10⁴, 420–565 MiB at
+ * 10⁵, 564–566 MiB at 2·10⁵); taken with the model's share as 2,400 + 600.
  */
-export const LOCAL_FIT_PER_POINT = 1200;
+export const LOCAL_FIT_PER_POINT = 2400;
 /** The model held in memory, bytes per point: a local model's arrays (about 12 numbers per point and 3 per patch member), a global one's. */
 const LOCAL_MODEL_PER_POINT = 600;
 const GLOBAL_MODEL_PER_POINT = 120;
@@ -40,11 +59,13 @@ const GLOBAL_MODEL_PER_POINT = 120;
 const PATCH_WORK_PER_N2 = 40;
 /**
  * The local method's standard errors: each thread keeps patch factors (8·n² bytes per patch, about
- * 5,600 bytes per point over all patches) up to STDERR_CACHE_BYTES, and a packed copy of the model
- * (5 numbers per patch member: 140 bytes per point).
+ * 5,600 bytes per point over all patches) up to STDERR_CACHE_BYTES (evaluate/local_stderr.ts), and a
+ * packed copy of the model (5 numbers per patch member: 140 bytes per point). Factors dropped from
+ * the cache stay in the heap until the collector runs: a thread's share was measured up to 2.2 × the
+ * cache's bound (a 2·10⁵-point model's error grid peaked at 1,330 MiB on 2 threads), taken as 2.5 ×.
  */
 const LOCAL_ERRORS_PER_POINT = 5600;
-const STDERR_CACHE_BYTES = 256 * MiB;
+const STDERR_CACHE_PEAK = 2.5 * STDERR_CACHE_BYTES;
 const PACKED_ERRORS_PER_POINT = 140;
 /**
  * Bytes per grid cell: a grid alone — values (8), mask (1), the workers' blocks (8), the GeoTIFF (4):
@@ -56,10 +77,13 @@ export const GRID_PER_CELL = 20;
 export const GRID_ERRORS_PER_CELL = 12;
 export const RUN_PER_CELL = 200;
 /**
- * The run's map (map.pdf) and report draw every survey point: the PDF conversion of the map took
- * about 45 KB per point (1 GB for 2·10⁴ points, 3.7 GB for 10⁵) and the report 7 KB: 52 KB per point.
+ * The run's map (map.pdf) and report draw at most MAX_DRAWN_POINTS survey points (an even sample
+ * above that): the PDF conversion of the map took about 45 KB per drawn point and the report 7 KB,
+ * 52 KB per drawn point. Every point still has its rows in residuals.csv and estimates.csv and its
+ * leave-one-out residual in the report's histogram: RUN_PER_POINT bytes (the texts as strings).
  */
 export const MAP_PER_POINT = 52 * 1024;
+export const RUN_PER_POINT = 1000;
 /** When nothing says how much memory the machine has. */
 export const FALLBACK_LIMIT = 4 * GiB;
 /** Share of the machine's memory a job may plan to use by default. */
@@ -115,7 +139,7 @@ export function estimateMemory(job: JobSize): MemoryEstimate {
   const workers = threads >= 2 ? threads : 0;
   const count = n.toLocaleString("en");
   const parts: MemoryPart[] = [
-    { what: "the process and its worker threads", bytes: BASE_BYTES + workers * WORKER_BYTES, kind: "process" },
+    { what: "the process and its worker threads", bytes: BASE_BYTES + workers * (WORKER_BYTES + (job.fits ? RANK_WORKER_BYTES : 0)), kind: "process" },
     { what: "the model", bytes: (job.method === "global" ? GLOBAL_MODEL_PER_POINT : LOCAL_MODEL_PER_POINT) * n, kind: "model" },
   ];
   const errors = Boolean(job.stderr || job.run);
@@ -129,7 +153,7 @@ export function estimateMemory(job: JobSize): MemoryEstimate {
     const p = job.patchPoints ?? DEFAULT_PATCH_POINTS;
     if (job.fits) parts.push({ what: `local fit of ${count} points`, bytes: LOCAL_FIT_PER_POINT * n + PATCH_WORK_PER_N2 * (2 * p) ** 2 * Math.max(workers, 1), kind: "local" });
     if (errors) {
-      const bytes = Math.min(LOCAL_ERRORS_PER_POINT * n, STDERR_CACHE_BYTES * Math.max(workers, 1)) + PACKED_ERRORS_PER_POINT * n * Math.max(workers, 1);
+      const bytes = Math.max(workers, 1) * (Math.min(LOCAL_ERRORS_PER_POINT * n, STDERR_CACHE_PEAK) + PACKED_ERRORS_PER_POINT * n);
       parts.push({ what: `the standard errors' patch factors`, bytes, kind: "errors" });
     }
   }
@@ -137,7 +161,10 @@ export function estimateMemory(job: JobSize): MemoryEstimate {
     const perCell = job.run ? RUN_PER_CELL : GRID_PER_CELL + (job.stderr ? GRID_ERRORS_PER_CELL : 0);
     parts.push({ what: `a grid of ${job.cells.toLocaleString("en")} cells`, bytes: perCell * job.cells, kind: "grid" });
   }
-  if (job.run) parts.push({ what: `the map and report drawing all ${count} points`, bytes: MAP_PER_POINT * n, kind: "map" });
+  if (job.run) {
+    const drawn = Math.min(n, MAX_DRAWN_POINTS);
+    parts.push({ what: `the map and report (${drawn.toLocaleString("en")} points drawn) and the tables of ${count} points`, bytes: MAP_PER_POINT * drawn + RUN_PER_POINT * n, kind: "map" });
+  }
   const bytes = parts.reduce((t, q) => t + q.bytes, 0);
   const largest = parts.slice(1).reduce((a, q) => (q.bytes > a.bytes ? q : a), parts[1]);
   return { bytes, what: `${largest.what}: ${fmtBytes(largest.bytes)}`, largest: largest.kind, parts };
