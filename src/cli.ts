@@ -262,9 +262,8 @@ ${COMMON_HELP}
 The report of a saved model as one self-contained HTML file that opens in any browser with no
 network: the contour map with relief, the standard-error map, the GCV curve over λ with the choice
 marked, the candidate ranking, leave-one-out residuals (histogram, reading against estimate), the
-points flagged, the model table, warnings and the caution. The same page as run's report.html, except
-that the rows skipped or merged when fitting are listed only by run (skipped.csv, duplicates.csv).
-The grid options make the maps' grid, as for 'grid'.
+points flagged, the model table with the rows skipped or merged when fitting, warnings and the
+caution: the same page as run's report.html. The grid options make the maps' grid, as for 'grid'.
 
 ${LEVELS_HELP}
 ${TITLE_HELP}

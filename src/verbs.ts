@@ -459,8 +459,8 @@ export interface ReportVerbOptions {
 
 /**
  * The HTML report of a saved model: its surface map and standard-error map gridded as `grid` would,
- * the GCV curve, ranking, residuals, flags and the model table. The rows skipped or merged when the
- * model was fitted are not in the model file (run's report, skipped.csv and duplicates.csv list them).
+ * the GCV curve, ranking, residuals, flags and the model table with the rows skipped or merged when
+ * the model was fitted (the model file's `cleaning`).
  */
 export async function reportVerb(o: ReportVerbOptions): Promise<VerbResult> {
   if (!/\.html?$/i.test(o.out)) throw new RbfieldError(`the report is written as .html (by the ending of ${opt("out")}), not "${o.out}"`, ExitCode.usage);

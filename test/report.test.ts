@@ -142,7 +142,7 @@ describe.skipIf(skipChromium)("the report in headless Chromium", () => {
     // Model table: n and the skipped and merged rows with their lines.
     const rowText = got.modelRows.map((r) => r.join(" ")).join("\n");
     expect(rowText).toContain(`Points used (n) ${model.diagnostics.n}`);
-    expect(rowText).toMatch(/Rows skipped 1: lines 5/);
+    expect(rowText).toMatch(/Rows skipped 1: line 5/);
     expect(rowText).toMatch(/Coincident points merged 1 group: lines 30 \+ 31/);
     // Histogram: every defined leave-one-out residual is counted once (bars plus those beyond the axis).
     const beyond = [...got.beyond.matchAll(/(\d+) (below|above)/g)].reduce((s, m) => s + Number(m[1]), 0);
@@ -179,9 +179,21 @@ describe("the report verb", () => {
       const page = (await import("node:fs")).readFileSync(file, "utf8");
       expect(page).toMatch(/<meta http-equiv="Content-Security-Policy" content="default-src 'none'/);
       for (const id of SECTIONS.filter((s) => s !== "input-rows")) expect(page).toContain(`id="${id}"`);
-      expect(page).toContain("not recorded in the model file");
+      expect(page).toContain("not recorded in this model file");
       expect(page).toContain("2026-01-31");
       expect(out).toContain(CAUTION);
+      // A model fitted from a file keeps the rows skipped and merged: its report lists them by line.
+      const csv = join(dir, "levels.csv");
+      writeFileSync(csv, ["id,x,y,z", "A1,0,0,10", "A2,10,0,11", "A3,0,10,12", "A4,10,10,13", "A5,5,5,oops", "A6,5,5,11.5", "A7,5,5,11.55",
+        "A8,3,7,12.1", "A9,7,3,10.9", "A10,2,2,10.4", "A11,8,8,12.6", "A12,1,9,12.3"].join("\n") + "\n");
+      const fitted = join(dir, "levels.rbfield.json");
+      expect(await main(["fit", csv, "--out", fitted, "--quiet"], io), err).toBe(0);
+      const cleaned = join(dir, "levels.html");
+      expect(await main(["report", fitted, "--out", cleaned, "--quiet"], io), err).toBe(0);
+      const text = (await import("node:fs")).readFileSync(cleaned, "utf8");
+      expect(text).toContain("Rows skipped</td><td>1: line 6<");
+      expect(text).toContain("Coincident points merged</td><td>1 group: lines 7 + 8<");
+      expect(text).toContain(`id="input-rows"`);
       const pdf = join(dir, "report.pdf");
       expect(await main(["report", modelFile, "--out", pdf, "--quiet"], io)).toBe(2);
       expect(err).toMatch(/the report is written as \.html/);

@@ -289,6 +289,13 @@ export async function fitPointsFile(src: PointsSource, fit: FitOptions = {}, bef
   const model = fitted.model;
   const texts = pointTexts(loaded);
   if (texts.length) model.points.text = texts;
+  // The rows cleaning skipped or merged travel with the model: the report of a saved model lists them.
+  const pts = loaded.points;
+  model.cleaning = {
+    rowsRead: pts.rowsRead,
+    skipped: pts.skipped.map((r) => ({ line: r.line, reason: r.reason })),
+    merged: pts.merged.map((g) => ({ lines: g.lines, x: g.x, y: g.y, spread: g.spread, value: g.value })),
+  };
   // Isolated samples are fitted, but the saved extent and hull (the default grid and mask) leave them out.
   const iso = loaded.isolation.indices;
   if (iso.length && !src.keepIsolated) {

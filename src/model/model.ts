@@ -128,6 +128,13 @@ export interface LocalDiagnostics {
 export type MethodName = "global" | "local";
 export const METHODS: readonly MethodName[] = ["global", "local"];
 
+/** Input rows skipped or merged when the model was fitted (ModelBase.cleaning). */
+export interface ModelCleaning {
+  rowsRead: number;
+  skipped: { line: number; reason: string }[];
+  merged: { lines: number[]; x: number; y: number; spread: number; value: number }[];
+}
+
 /** What every model holds, whatever the method that made it. */
 export interface ModelBase {
   format: typeof MODEL_FORMAT;
@@ -164,6 +171,11 @@ export interface ModelBase {
   /** Studentised leave-one-out residuals τ (Pope's tau; version 1: divided by 1.4826·median|e|); null where undefined. */
   looStandardised: (number | null)[];
   diagnostics: ModelDiagnostics;
+  /**
+   * The input rows the cleaning stage skipped or merged, with their lines (optional, additive in
+   * versions 2 and 3; written by fit and run): the report of a saved model lists them.
+   */
+  cleaning?: ModelCleaning;
   /** Data extent, convex hull (closed ring, counter-clockwise) and median nearest-neighbour spacing. */
   extent: { xmin: number; ymin: number; xmax: number; ymax: number };
   hull: [number, number][];
@@ -291,6 +303,12 @@ export function modelFromJson(text: string, file: string, sidecar?: SidecarSourc
   if (m.version !== 1 && (typeof d.flags !== "object" || d.flags === null || !Array.isArray(d.flags.lines) || (d.flags.critical !== null && typeof d.flags.critical !== "number"))) {
     throw bad("blunder flags missing");
   }
+  const c = m.cleaning as ModelCleaning | undefined;
+  if (c !== undefined && !(
+    c && typeof c === "object" && Number.isInteger(c.rowsRead) && c.rowsRead >= 0 &&
+    Array.isArray(c.skipped) && c.skipped.every((r) => r && Number.isInteger(r.line) && typeof r.reason === "string") &&
+    Array.isArray(c.merged) && c.merged.every((g) => g && Array.isArray(g.lines) && g.lines.every(Number.isInteger) && [g.x, g.y, g.spread, g.value].every(finite))
+  )) throw bad("the list of skipped and merged rows is not as written");
   const e = m.extent as SurfaceModel["extent"] | undefined;
   if (!e || ![e.xmin, e.ymin, e.xmax, e.ymax].every((v) => finite(v) && Math.abs(v) <= COORDINATE_LIMIT)) throw bad("extent missing or not numbers");
   const hull = m.hull;

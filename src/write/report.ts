@@ -29,7 +29,7 @@ export interface ReportInput {
   /** How the standard-error grid was computed (e.g. "computed every 3 cells and interpolated"). */
   stderrNote?: string;
   /** Rows the cleaning stage skipped or merged, with their input lines. */
-  cleaning?: { rowsRead?: number; skipped: SkippedRow[]; merged: MergedGroup[] };
+  cleaning?: { rowsRead?: number; skipped: Pick<SkippedRow, "line" | "reason">[]; merged: Pick<MergedGroup, "lines" | "x" | "y" | "spread" | "value">[] };
   /** Warnings besides the model's own. */
   warnings?: string[];
   title: string;
@@ -145,12 +145,12 @@ export function renderReport(input: ReportInput): string {
     ["Robust fit", d.robust ? `Tukey's biweight, ${d.robust.passes} passes${d.robust.downweighted.length ? `; down-weighted: lines ${lineList(d.robust.downweighted)}` : ""}` : "no"],
     ["Input", `${model.source.file} (x = ${model.source.x}, y = ${model.source.y}, value = ${model.source.z}); ${crsText(model.crs)}`],
   ];
-  const cleaning = input.cleaning;
+  const cleaning = input.cleaning ?? model.cleaning;
   if (cleaning) {
     if (cleaning.rowsRead !== undefined) modelRows.push(["Rows read", String(cleaning.rowsRead)]);
-    modelRows.push(["Rows skipped", cleaning.skipped.length ? `${cleaning.skipped.length}: lines ${lineList(cleaning.skipped.map((s) => s.line))}` : "none"]);
+    modelRows.push(["Rows skipped", cleaning.skipped.length ? `${cleaning.skipped.length}: line${cleaning.skipped.length === 1 ? "" : "s"} ${lineList(cleaning.skipped.map((s) => s.line))}` : "none"]);
     modelRows.push(["Coincident points merged", cleaning.merged.length ? `${cleaning.merged.length} group${cleaning.merged.length === 1 ? "" : "s"}: lines ${cleaning.merged.map((m) => m.lines.join(" + ")).slice(0, 30).join("; ")}` : "none"]);  } else {
-    modelRows.push(["Rows skipped or merged", "not recorded in the model file: see skipped.csv and duplicates.csv of the run that fitted it"]);
+    modelRows.push(["Rows skipped or merged", "not recorded in this model file (written before rbfield kept them): see skipped.csv and duplicates.csv of the run that fitted it"]);
   }
   sections.push({
     id: "model",
