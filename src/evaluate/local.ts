@@ -13,6 +13,7 @@
 // ones wherever τ ≤ c (every data point and the whole bounding box), and never all vanish.
 import type Flatbush from "flatbush";
 import { discIndex, wendlandOfSquared } from "../fit/local/patches.ts";
+import { mapLines, type Segments, SideMap } from "../fit/local/sides.ts";
 import { trendRow, trendTerms } from "../fit/kernels.ts";
 import type { LocalModel } from "../model/model.ts";
 import type { KernelName } from "../types.ts";
@@ -45,11 +46,24 @@ export interface PackedLocal {
   w: Float64Array;
   /** m trend coefficients per patch. */
   c: Float64Array;
+  /** Breaklines: patch j is side side[j] of disc parent[j]; the side maps are rebuilt from seg and cellTarget. */
+  sides?: PackedSides;
+}
+
+export interface PackedSides {
+  parent: Int32Array;
+  side: Int32Array;
+  seg: Segments;
+  cellTarget: number;
 }
 
 /** Scaled coordinates (global frame) of the model's data points: the same arithmetic as the fit. */
 export function localCentres(model: LocalModel): { u: Float64Array; v: Float64Array } {
-  return mappedPoints(model.points, localMapper(model.local.scaling, model.stretch));
+  const b = model.local.breaklines;
+  const map = localMapper(model.local.scaling, model.stretch);
+  if (!b || b.points.x.length === 0) return mappedPoints(model.points, map);
+  // The 3-D lines' points follow the data points (patch point numbers n, n + 1, …).
+  return mappedPoints({ x: [...model.points.x, ...b.points.x], y: [...model.points.y, ...b.points.y] }, map);
 }
 
 function localMapper(scaling: { cx: number; cy: number; s: number }, stretch: LocalModel["stretch"]) {
@@ -88,6 +102,16 @@ export function packLocal(model: LocalModel): PackedLocal {
     pv,
     w: Float64Array.from(l.weights),
     c: Float64Array.from(l.trendCoefficients),
+    ...(l.breaklines
+      ? {
+        sides: {
+          parent: Int32Array.from(l.breaklines.parent),
+          side: Int32Array.from(l.breaklines.side),
+          seg: mapLines(l.breaklines.lines, localMapper(l.scaling, model.stretch)),
+          cellTarget: l.breaklines.cellTarget,
+        },
+      }
+      : {}),
   };
 }
 
@@ -106,7 +130,7 @@ export interface Blender {
   weights: Float64Array;
 }
 
-export function makeBlender(p: Pick<PackedLocal, "cu" | "cv" | "radius" | "scaling" | "stretch" | "coverage">): Blender {
+export function makeBlender(p: Pick<PackedLocal, "cu" | "cv" | "radius" | "scaling" | "stretch" | "coverage" | "sides">): Blender {
   const { cu, cv, radius, coverage } = p;
   const count = cu.length;
   let largest = 0;
@@ -140,11 +164,47 @@ export function makeBlender(p: Pick<PackedLocal, "cu" | "cv" | "radius" | "scali
         }
       }
       found = inside;
-      if (found === 0 || nearest > c2) return enlarged(u, v);
+      if (found === 0 || nearest > c2) return bySide(u, v, enlarged(u, v));
       for (let a = 0; a < found; a++) weights[a] /= total;
-      return found;
+      return bySide(u, v, found);
     },
   };
+  // Breaklines: of each disc only the side that holds (u, v) blends (fit/local/sides.ts).
+  const sides = p.sides;
+  const maps = new Map<number, SideMap | null>();
+  const sideMap = (d: number): SideMap | null => {
+    let m = maps.get(d);
+    if (m === undefined) {
+      const x = new SideMap(cu[entryOf(d)], cv[entryOf(d)], radius[entryOf(d)], sides!.seg, sides!.cellTarget);
+      m = x.near.length === 0 || x.sides <= 1 ? null : x;
+      maps.set(d, m);
+    }
+    return m;
+  };
+  // The first patch of each disc (patches of one disc are consecutive).
+  const firstOf = new Map<number, number>();
+  if (sides) for (let j = sides.parent.length - 1; j >= 0; j--) firstOf.set(sides.parent[j], j);
+  const entryOf = (d: number) => firstOf.get(d)!;
+  function bySide(u: number, v: number, count: number): number {
+    if (!sides || count === 0) return count;
+    let kept = 0, total = 0, lastDisc = -1, label = -1;
+    for (let a = 0; a < count; a++) {
+      const j = ids[a];
+      const d = sides.parent[j];
+      if (d !== lastDisc) {
+        const m = sideMap(d);
+        label = m ? m.sideAt(u, v) : -1;
+        lastDisc = d;
+      }
+      if (label >= 0 && sides.side[j] !== label) continue;
+      ids[kept] = j;
+      weights[kept++] = weights[a];
+      total += weights[a];
+    }
+    for (let a = 0; a < kept; a++) weights[a] /= total;
+    found = kept;
+    return kept;
+  }
   function collect(j: number): boolean {
     if (found === ids.length) {
       const more = new Int32Array(2 * ids.length);
@@ -249,6 +309,8 @@ export function localEvaluator(p: PackedLocal): Evaluator {
 
 /** A packed local model cut down to some of its patches (ascending): their arrays, unchanged. */
 export function subsetPatches(p: PackedLocal, patches: Int32Array): PackedLocal {
+  // With breaklines the sides are found per disc over all patches: the whole model is kept.
+  if (p.sides) return p;
   const pick = (a: Float64Array) => Float64Array.from(patches, (j) => a[j]);
   const m = p.m;
   const start = new Int32Array(patches.length + 1);

@@ -64,7 +64,10 @@ export interface PackedLocalErrors {
 export function packLocalErrors(model: LocalModel): PackedLocalErrors {
   const l = model.local;
   const surface = packLocal(model);
-  const values = transformedValues({ z: Float64Array.from(model.points.z), lines: model.points.line }, model.transform);
+  const b = l.breaklines;
+  // The 3-D lines' points (patch point numbers n, n + 1, …) follow the data points.
+  const z = b ? [...model.points.z, ...b.points.z] : model.points.z;
+  const values = transformedValues({ z: Float64Array.from(z), lines: b ? [...model.points.line, ...b.points.z.map(() => 0)] : model.points.line }, model.transform);
   const y = new Float64Array(l.index.length);
   for (let j = 0; j + 1 < l.start.length; j++) {
     for (let k = l.start[j]; k < l.start[j + 1]; k++) y[k] = (values[l.index[k]] - l.zc[j]) / l.zs[j];
