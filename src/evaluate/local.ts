@@ -11,7 +11,7 @@
 // minⱼ ‖x − cⱼ‖/ρⱼ exceeds c, all discs are enlarged by the same factor τ(x)/c, so the nearest
 // patch reaches x at relative distance c. The weights are continuous in x (τ is), equal the plain
 // ones wherever τ ≤ c (every data point and the whole bounding box), and never all vanish.
-import type Flatbush from "flatbush";
+import Flatbush from "flatbush";
 import { discIndex, wendlandOfSquared } from "../fit/local/patches.ts";
 import { mapLines, type Segments, SideMap } from "../fit/local/sides.ts";
 import { trendRow, trendTerms } from "../fit/kernels.ts";
@@ -55,6 +55,19 @@ export interface PackedSides {
   side: Int32Array;
   seg: Segments;
   cellTarget: number;
+  /** The 3-D lines' segments (indices into seg) and their levels at both ends (after the transform). */
+  seg3: Int32Array;
+  za: Float64Array;
+  zb: Float64Array;
+}
+
+/**
+ * The taper of the on-line correction: β(r) = (1 − r)²(1 + 2r) for r < 1, else 0 (the cubic Hermite
+ * step: β(0) = 1, β(1) = 0, β'(0) = β'(1) = 0, so the corrected surface keeps continuous slopes
+ * wherever the nearest line point moves smoothly).
+ */
+function taper(r: number): number {
+  return r < 1 ? (1 - r) * (1 - r) * (1 + 2 * r) : 0;
 }
 
 /** Scaled coordinates (global frame) of the model's data points: the same arithmetic as the fit. */
@@ -109,10 +122,27 @@ export function packLocal(model: LocalModel): PackedLocal {
           side: Int32Array.from(l.breaklines.side),
           seg: mapLines(l.breaklines.lines, localMapper(l.scaling, model.stretch)),
           cellTarget: l.breaklines.cellTarget,
+          ...lineLevels(l.breaklines.lines, model.transform),
         },
       }
       : {}),
   };
+}
+
+/** The 3-D segments (in mapLines' order) and their end levels, after the value transform. */
+function lineLevels(lines: { x: number[]; z: number[] | null }[], transform: "none" | "log"): { seg3: Int32Array; za: Float64Array; zb: Float64Array } {
+  const seg3: number[] = [], za: number[] = [], zb: number[] = [];
+  const t = (z: number) => (transform === "log" ? Math.log(z) : z);
+  let k = 0;
+  for (const l of lines) {
+    for (let v = 0; v + 1 < l.x.length; v++, k++) {
+      if (!l.z) continue;
+      seg3.push(k);
+      za.push(t(l.z[v]));
+      zb.push(t(l.z[v + 1]));
+    }
+  }
+  return { seg3: Int32Array.from(seg3), za: Float64Array.from(za), zb: Float64Array.from(zb) };
 }
 
 /** The typed arrays of a packed local model, for postMessage transfer lists. */
@@ -297,10 +327,22 @@ export function localEvaluator(p: PackedLocal): Evaluator {
     for (let t = 0; t < m; t++) sum += c[j * m + t] * row[t];
     return zc[j] + zs[j] * sum;
   };
+  const near = p.sides && p.sides.seg3.length ? nearestLine(p.sides) : null;
   const raw = (x: number, y: number): number => {
     blender.map(x, y, uv);
     const count = blender.cover(uv[0], uv[1]);
     let f = 0;
+    const hit = near ? near(uv[0], uv[1]) : null;
+    if (hit) {
+      // Within δ of a 3-D line: each side's fit is corrected so that it equals the line's linear
+      // interpolation L on the line: fⱼ(x) + β(d/δ)·(L(x*) − fⱼ(x*)), x* the nearest line point.
+      const b = taper(hit.d / hit.delta);
+      for (let a = 0; a < count; a++) {
+        const j = blender.ids[a];
+        f += blender.weights[a] * (patchValue(j, uv[0], uv[1]) + b * (hit.level - patchValue(j, hit.u, hit.v)));
+      }
+      return count > 0 ? f : NaN;
+    }
     for (let a = 0; a < count; a++) f += blender.weights[a] * patchValue(blender.ids[a], uv[0], uv[1]);
     return count > 0 ? f : NaN;
   };
@@ -340,5 +382,41 @@ export function subsetPatches(p: PackedLocal, patches: Int32Array): PackedLocal 
     pv,
     w,
     c,
+  };
+}
+
+/**
+ * The nearest point of a 3-D line within δ (the side rasters' cell size, a quarter of the median
+ * spacing) of a place in the scaled frame, with the line's level there; null when none is that near.
+ */
+function nearestLine(sides: PackedSides): (u: number, v: number) => { u: number; v: number; d: number; level: number; delta: number } | null {
+  const { seg, seg3, za, zb } = sides;
+  const delta = sides.cellTarget;
+  const index = new Flatbush(seg3.length);
+  for (const k of seg3) {
+    index.add(Math.min(seg.ax[k], seg.bx[k]) - delta, Math.min(seg.ay[k], seg.by[k]) - delta, Math.max(seg.ax[k], seg.bx[k]) + delta, Math.max(seg.ay[k], seg.by[k]) + delta);
+  }
+  index.finish();
+  const out = { u: 0, v: 0, d: 0, level: 0, delta };
+  return (u, v) => {
+    let best = delta;
+    let found = false;
+    for (const a of index.search(u, v, u, v)) {
+      const k = seg3[a];
+      const dx = seg.bx[k] - seg.ax[k], dy = seg.by[k] - seg.ay[k];
+      const l2 = dx * dx + dy * dy;
+      const t = l2 > 0 ? Math.max(0, Math.min(1, ((u - seg.ax[k]) * dx + (v - seg.ay[k]) * dy) / l2)) : 0;
+      const px = seg.ax[k] + t * dx, py = seg.ay[k] + t * dy;
+      const d = Math.hypot(u - px, v - py);
+      if (d < best || (!found && d <= best)) {
+        best = d;
+        found = true;
+        out.u = px;
+        out.v = py;
+        out.d = d;
+        out.level = za[a] + t * (zb[a] - za[a]);
+      }
+    }
+    return found && out.d < delta ? out : null;
   };
 }
