@@ -50,7 +50,7 @@ import {
 } from "./patch_fit.ts";
 import { buildPatches, compress, growPatch, type PatchLayout, patchWeight, samplePatches } from "./patches.ts";
 import { constantPatch } from "./patch_fit.ts";
-import { cutLayout, type LineRecord, linePoints, mapLines } from "./sides.ts";
+import { cutLayout, type LineRecord, linePoints, mapLines, separateFaces } from "./sides.ts";
 import { stretchMap } from "../../geometry.ts";
 import type { BreaklinePart } from "../../model/local.ts";
 import type { FitJob, RankJob } from "./patch_worker.ts";
@@ -139,8 +139,10 @@ interface Cut {
   side: Int32Array;
   /** Per member of the cut layout: 1 where the member's diagnostics come from this side. */
   report: Uint8Array;
-  /** Data points that coincide with a line point (the line point stands for them in the fits). */
+  /** Data points that coincide with a 3-D line's vertex (the line stands for them in the fits). */
   onLine: Uint8Array;
+  /** Vertical faces kept apart (separateFaces). */
+  faces: number;
 }
 
 /** The fit's coordinate mapping (the stretch, then centring and scaling), as evaluate/global.ts coordinateMapper. */
@@ -161,17 +163,19 @@ function fitMapper(prep: Prepared): (x: number, y: number, out: Float64Array) =>
 /** Cut the discs by the breaklines: the sides become the patches; 3-D lines add their points. */
 function cutStage(input: LocalInput, layout: PatchLayout, data: PatchData, minPoints: number, m: number): { layout: PatchLayout; data: PatchData; cut: Cut } {
   const { prep } = input;
-  const lines = input.options.breaklines!;
+  const given = input.options.breaklines!;
   const n = prep.n;
   const map = fitMapper(prep);
   const step = 0.5 * prep.spacingScaled;
-  const extra = linePoints(lines, map, step);
-  const q = extra.x.length;
-  // Data points at a line point's place: the line point (near-exact) stands for them.
-  const at = new Map<string, number>();
-  for (let k = 0; k < q; k++) at.set(`${extra.x[k]},${extra.y[k]}`, k);
+  // Data points at a 3-D line's vertex (the shots of a coded string): the line stands for them.
+  const at = new Set<string>();
+  for (const l of given) if (l.z) l.x.forEach((x, k) => at.add(`${x},${l.y[k]}`));
   const onLine = new Uint8Array(n);
   for (let i = 0; i < n; i++) if (at.has(`${input.points.x[i]},${input.points.y[i]}`)) onLine[i] = 1;
+  const { lines, faces } = separateFaces(given, input.points, onLine, medianSpacing(input.points.x, input.points.y), pointIndex(input.points.x, input.points.y));
+  if (faces) input.options.progress?.(`${faces} vertical faces: coincident line vertices with different levels kept apart`);
+  const extra = linePoints(lines, map, step);
+  const q = extra.x.length;
   const u = new Float64Array(n + q), v = new Float64Array(n + q), values = new Float64Array(n + q), sqrtW = new Float64Array(n + q);
   u.set(data.u);
   v.set(data.v);
@@ -212,7 +216,7 @@ function cutStage(input: LocalInput, layout: PatchLayout, data: PatchData, minPo
   return {
     layout: cutLayoutOut,
     data: { u, v, values, sqrtW, s: data.s },
-    cut: { lines, cellTarget, extra, parent: c.parent, side: c.side, report: c.report, onLine },
+    cut: { lines, cellTarget, extra, parent: c.parent, side: c.side, report: c.report, onLine, faces },
   };
 }
 

@@ -367,3 +367,73 @@ export function cutLayout(
   });
   return { parent: Int32Array.from(parent), side: Int32Array.from(side), start, index, report, maps };
 }
+
+/** A vertical face is drawn this fraction of the median spacing wide (each line moved half of it). */
+export const FACE_WIDTH = 0.01;
+
+/**
+ * Vertical faces: where vertices of two 3-D lines share one position (x, y) with different levels (a
+ * kerb top and its channel shot at one place), the lines would give both sides both levels. The
+ * higher line is moved FACE_WIDTH/2 × spacing toward the side whose readings (within 3 spacings,
+ * not on a line) lie higher, the lower line as far the other way, so that each side passes through
+ * its own level and the face between them is FACE_WIDTH × spacing wide. Returns new lines (the input
+ * is not changed) and the number of faces. `index` a flatbush index of the readings.
+ */
+export function separateFaces(
+  lines: LineRecord[],
+  data: { x: ArrayLike<number>; y: ArrayLike<number>; z: ArrayLike<number> },
+  onLine: Uint8Array,
+  spacing: number,
+  index: { search(minX: number, minY: number, maxX: number, maxY: number): number[] },
+): { lines: LineRecord[]; faces: number } {
+  const out = lines.map((l) => ({ ...l, x: l.x.slice(), y: l.y.slice(), z: l.z ? l.z.slice() : null }));
+  const at = new Map<string, [number, number][]>();
+  lines.forEach((l, li) => {
+    if (!l.z) return;
+    l.x.forEach((x, k) => {
+      const key = `${x},${l.y[k]}`;
+      const list = at.get(key) ?? [];
+      if (!list.some(([m]) => m === li)) list.push([li, k]);
+      at.set(key, list);
+    });
+  });
+  const half = 0.5 * FACE_WIDTH * spacing;
+  const reach = 3 * spacing;
+  let faces = 0;
+  for (const list of at.values()) {
+    if (list.length < 2) continue;
+    const sorted = list.slice().sort((a, b) => lines[a[0]].z![a[1]] - lines[b[0]].z![b[1]]);
+    const [lo, hi] = [sorted[0], sorted[sorted.length - 1]];
+    const zl = lines[lo[0]].z![lo[1]], zh = lines[hi[0]].z![hi[1]];
+    if (zh === zl) continue;
+    const l = lines[hi[0]], k = hi[1];
+    const px = l.x[k], py = l.y[k];
+    const a = Math.max(0, k - 1), b = Math.min(l.x.length - 1, k + 1);
+    let dx = l.x[b] - l.x[a], dy = l.y[b] - l.y[a];
+    const len = Math.hypot(dx, dy) || 1;
+    dx /= len;
+    dy /= len;
+    const nx = -dy, ny = dx;
+    const plus: number[] = [], minus: number[] = [];
+    for (const i of index.search(px - reach, py - reach, px + reach, py + reach)) {
+      if (onLine[i]) continue;
+      const s = (data.x[i] - px) * nx + (data.y[i] - py) * ny;
+      if (Math.hypot(data.x[i] - px, data.y[i] - py) > reach || s === 0) continue;
+      (s > 0 ? plus : minus).push(data.z[i]);
+    }
+    const med = (v: number[]) => {
+      const s = v.slice().sort((p, q) => p - q);
+      return s.length ? (s.length % 2 ? s[s.length >> 1] : 0.5 * (s[(s.length >> 1) - 1] + s[s.length >> 1])) : NaN;
+    };
+    const mid = 0.5 * (zl + zh);
+    const mp = med(plus), mm = med(minus);
+    const highPlus = Number.isFinite(mp) && Number.isFinite(mm) ? mp >= mm : Number.isFinite(mp) ? mp >= mid : Number.isFinite(mm) ? mm < mid : true;
+    const sign = highPlus ? 1 : -1;
+    out[hi[0]].x[hi[1]] = px + sign * half * nx;
+    out[hi[0]].y[hi[1]] = py + sign * half * ny;
+    out[lo[0]].x[lo[1]] = px - sign * half * nx;
+    out[lo[0]].y[lo[1]] = py - sign * half * ny;
+    faces++;
+  }
+  return { lines: out, faces };
+}
