@@ -55,6 +55,7 @@ export interface PackedSides {
   side: Int32Array;
   seg: Segments;
   cellTarget: number;
+  domain: Float64Array;
   /** The 3-D lines' segments (indices into seg) and their levels at both ends (after the transform). */
   seg3: Int32Array;
   za: Float64Array;
@@ -122,6 +123,7 @@ export function packLocal(model: LocalModel): PackedLocal {
           side: Int32Array.from(l.breaklines.side),
           seg: mapLines(l.breaklines.lines, localMapper(l.scaling, model.stretch)),
           cellTarget: l.breaklines.cellTarget,
+          domain: Float64Array.from(l.breaklines.domain),
           ...lineLevels(l.breaklines.lines, model.transform),
         },
       }
@@ -205,7 +207,7 @@ export function makeBlender(p: Pick<PackedLocal, "cu" | "cv" | "radius" | "scali
   const sideMap = (d: number): SideMap | null => {
     let m = maps.get(d);
     if (m === undefined) {
-      const x = new SideMap(cu[entryOf(d)], cv[entryOf(d)], radius[entryOf(d)], sides!.seg, sides!.cellTarget);
+      const x = new SideMap(cu[entryOf(d)], cv[entryOf(d)], radius[entryOf(d)], sides!.seg, sides!.cellTarget, sides!.domain);
       m = x.near.length === 0 || x.sides <= 1 ? null : x;
       maps.set(d, m);
     }

@@ -62,6 +62,10 @@ export interface BreaklinePart {
   lines: { name: string; x: number[]; y: number[]; z: number[] | null }[];
   /** Side-raster cell size in the global scaled frame (the side maps are rebuilt from it). */
   cellTarget: number;
+  /** The data's bounding box in the global scaled frame [umin, vmin, umax, vmax]: sides are found within it. */
+  domain: number[];
+  /** Vertical faces kept apart: coincident vertices of two 3-D lines with different levels (fit/local/sides.ts, separateFaces). */
+  faces: number;
   /** Points along the 3-D lines (point n + k of the patches), map coordinates and levels. */
   points: { x: number[]; y: number[]; z: number[] };
   /** Their observation weight ω (the data points' mean is 1). */
@@ -78,6 +82,7 @@ function checkBreaklinePart(b: unknown, p: number, bad: (what: string) => Error)
     l && typeof l.name === "string" && finiteArray(l.x, l.x?.length) && l.x.length >= 2 && finiteArray(l.y, l.x.length) &&
     (l.z === null || finiteArray(l.z, l.x.length))
   )) throw bad("breaklines are not lines of numbers");
+  if (!finiteArray(o.domain, 4) || !(o.domain[0] <= o.domain[2] && o.domain[1] <= o.domain[3]) || !(Number.isInteger(o.faces) && o.faces! >= 0)) throw bad("breakline domain missing");
   if (!(finite(o.cellTarget) && o.cellTarget > 0) || !(finite(o.lineWeight) && o.lineWeight > 0)) throw bad("breakline settings missing");
   const q = Array.isArray(o.points?.x) ? o.points!.x.length : -1;
   if (!(q >= 0 && finiteArray(o.points!.x, q) && finiteArray(o.points!.y, q) && finiteArray(o.points!.z, q))) throw bad("breakline points are not numbers");

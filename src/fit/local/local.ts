@@ -133,6 +133,8 @@ export const LINE_WEIGHT = 1e6;
 interface Cut {
   lines: LineRecord[];
   cellTarget: number;
+  /** The data's bounding box in the scaled frame (umin, vmin, umax, vmax): where sides are found. */
+  domain: number[];
   /** The 3-D lines' points (map coordinates, values as given); point n + k of the patch data. */
   extra: { x: number[]; y: number[]; z: number[]; line: number[] };
   parent: Int32Array;
@@ -196,7 +198,9 @@ function cutStage(input: LocalInput, layout: PatchLayout, data: PatchData, minPo
   const seg = mapLines(lines, map);
   const cellTarget = 0.25 * prep.spacingScaled;
   const members = (j: number) => layout.index.subarray(layout.start[j], layout.start[j + 1]).filter((i) => !onLine[i]);
-  const c = cutLayout(layout, members, u, v, n, seg, cellTarget, Int32Array.from(extra.line));
+  const box = boundingBox(data.u, data.v);
+  const domain = [box.xmin, box.ymin, box.xmax, box.ymax];
+  const c = cutLayout(layout, members, u, v, n, seg, cellTarget, domain);
   const e = c.parent.length;
   const occupied = new Uint8Array(e);
   for (let k = 0; k < e; k++) {
@@ -216,7 +220,7 @@ function cutStage(input: LocalInput, layout: PatchLayout, data: PatchData, minPo
   return {
     layout: cutLayoutOut,
     data: { u, v, values, sqrtW, s: data.s },
-    cut: { lines, cellTarget, extra, parent: c.parent, side: c.side, report: c.report, onLine, faces },
+    cut: { lines, cellTarget, domain, extra, parent: c.parent, side: c.side, report: c.report, onLine, faces },
   };
 }
 
@@ -670,6 +674,8 @@ function breaklinePart(cut: Cut): BreaklinePart {
   return {
     lines: cut.lines.map((l) => ({ name: l.name, x: l.x.slice(), y: l.y.slice(), z: l.z ? l.z.slice() : null })),
     cellTarget: cut.cellTarget,
+    domain: cut.domain.slice(),
+    faces: cut.faces,
     points: { x: cut.extra.x.slice(), y: cut.extra.y.slice(), z: cut.extra.z.slice() },
     lineWeight: LINE_WEIGHT,
     parent: Array.from(cut.parent),

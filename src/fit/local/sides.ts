@@ -101,7 +101,12 @@ export class SideMap {
   /** The segments that reach the disc's square (indices into the Segments). */
   readonly near: Int32Array;
 
-  constructor(readonly cu: number, readonly cv: number, readonly radius: number, readonly seg: Segments, cellTarget: number) {
+  /**
+   * `domain` [umin, vmin, umax, vmax]: the data's bounding box in the scaled frame; only cells whose
+   * centre lies within it (and within the disc) are sides, so a line that runs out of the data's box
+   * separates even where the disc reaches beyond the line's end.
+   */
+  constructor(readonly cu: number, readonly cv: number, readonly radius: number, readonly seg: Segments, cellTarget: number, domain: ArrayLike<number>) {
     const cells = Math.max(MIN_CELLS, Math.min(MAX_CELLS, Math.ceil((2 * radius) / cellTarget)));
     this.cells = cells;
     this.size = (2 * radius) / cells;
@@ -118,7 +123,8 @@ export class SideMap {
     for (let j = 0; j < cells; j++) {
       for (let i = 0; i < cells; i++) {
         const x = this.x0 + (i + 0.5) * this.size - cu, y = this.y0 + (j + 0.5) * this.size - cv;
-        if (x * x + y * y <= reach2) label[j * cells + i] = 0;
+        const inBox = x + cu >= domain[0] && x + cu <= domain[2] && y + cv >= domain[1] && y + cv <= domain[3];
+        if (x * x + y * y <= reach2 && inBox) label[j * cells + i] = 0;
       }
     }
     for (const k of near) this.block(label, seg.ax[k], seg.ay[k], seg.bx[k], seg.by[k]);
@@ -309,14 +315,14 @@ export function cutLayout(
   n: number,
   seg: Segments,
   cellTarget: number,
-  lineOf: Int32Array,
+  domain: ArrayLike<number>,
 ): CutLayout & { maps: (SideMap | null)[] } {
   const parent: number[] = [], side: number[] = [];
   const lists: number[][] = [], reports: number[][] = [];
   const maps: (SideMap | null)[] = [];
   for (let j = 0; j < disc.count; j++) {
     const cu = disc.cu[j], cv = disc.cv[j], r = disc.radius[j];
-    const map = new SideMap(cu, cv, r, seg, cellTarget);
+    const map = new SideMap(cu, cv, r, seg, cellTarget, domain);
     // Line points in the disc (strictly inside, as data points are: ψ > 0).
     const extra: number[] = [];
     for (let i = n; i < u.length; i++) {
@@ -348,7 +354,6 @@ export function cutLayout(
         repBySide[s].push(0);
       }
     }
-    void lineOf;
     for (let s = 0; s < map.sides; s++) {
       if (bySide[s].length === 0) continue;
       parent.push(j);
