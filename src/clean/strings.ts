@@ -113,5 +113,6 @@ export function stringsFromCodes(
     }
     close(cur);
   }
-  return { strings, single, gaps: [...gaps].map(([c, v]) => ({ code: c, gap: v, given: gap !== undefined })) };
+  const spelled = new Map(codes.map((c) => [c.trim().toLowerCase(), c.trim()]));
+  return { strings, single, gaps: [...gaps].map(([c, v]) => ({ code: spelled.get(c) ?? c, gap: v, given: gap !== undefined })) };
 }

@@ -56,6 +56,10 @@ export interface PackedSides {
   seg: Segments;
   cellTarget: number;
   domain: Float64Array;
+  /** Per patch: the standard error of a side fitted as a constant level (NaN: not such a side, or unknown). */
+  constantSe: Float64Array;
+  /** Per patch: 1 for a side fitted as a constant level. */
+  constant: Uint8Array;
   /** The 3-D lines' segments (indices into seg) and their levels at both ends (after the transform). */
   seg3: Int32Array;
   za: Float64Array;
@@ -124,6 +128,8 @@ export function packLocal(model: LocalModel): PackedLocal {
           seg: mapLines(l.breaklines.lines, localMapper(l.scaling, model.stretch)),
           cellTarget: l.breaklines.cellTarget,
           domain: Float64Array.from(l.breaklines.domain),
+          constant: Uint8Array.from(l.breaklines.parent, (_, j) => (l.breaklines!.constant.some((c) => c.patch === j) ? 1 : 0)),
+          constantSe: Float64Array.from(l.breaklines.parent, (_, j) => l.breaklines!.constant.find((c) => c.patch === j)?.se ?? NaN),
           ...lineLevels(l.breaklines.lines, model.transform),
         },
       }

@@ -259,6 +259,11 @@ export function localErrorEstimatorPacked(pe: PackedLocalErrors): ErrorEstimator
         se = 0;
         for (let c = 0; c < count; c++) {
           const j = blender.ids[c];
+          // A side fitted as a constant level: the spread of its values (fit/local/patch_fit.ts, constantPatch).
+          if (packed.sides?.constant[j]) {
+            se += blender.weights[c] * packed.sides.constantSe[j];
+            continue;
+          }
           const { rest, b } = patchVariance(j, uv[0], uv[1]);
           se += blender.weights[c] * zs[j] * Math.sqrt(Math.max(b * rest, 0));
         }
@@ -290,6 +295,8 @@ export function localErrorWork(pe: PackedLocalErrors): number {
  * data points inside `box` (map units), whose stored errors are all a window inside it can meet.
  */
 export function subsetLocalErrors(pe: PackedLocalErrors, patches: Int32Array, box: { xmin: number; ymin: number; xmax: number; ymax: number }): PackedLocalErrors {
+  // With breaklines the whole model is kept (subsetPatches).
+  if (pe.surface.sides) return pe;
   const s = pe.surface;
   const members = patches.reduce((t, j) => t + s.start[j + 1] - s.start[j], 0);
   const y = new Float64Array(members), sqrtW = new Float64Array(pe.sqrtW.length ? members : 0);

@@ -287,11 +287,12 @@ export function isolationNotes(loaded: LoadedPoints, model: SurfaceModel, keep: 
 }
 
 /** Read, clean and fit; `beforeFit` sees the clean points first (the memory check before the long work). */
-export async function fitPointsFile(src: PointsSource, fit: FitOptions = {}, beforeFit?: (loaded: LoadedPoints) => void): Promise<LoadedPoints & FittedModel> {
+export async function fitPointsFile(src: PointsSource, fit: FitOptions = {}, beforeFit?: (loaded: LoadedPoints) => void): Promise<LoadedPoints & FittedModel & { breaklineNotes: string[] }> {
   const loaded = await loadPoints(src, fit.progress);
   beforeFit?.(loaded);
   const t = loaded.table;
-  const breaklines = await breaklinesFor(src, loaded);
+  const { lines: breaklines, notes: breaklineNotes } = await breaklinesFor(src, loaded);
+  loaded.notes.push(...breaklineNotes);
   let fitted: FittedModel;
   try {
     fitted = await fitSurfaceParallelWithFactors(loaded.points, {
@@ -319,20 +320,21 @@ export async function fitPointsFile(src: PointsSource, fit: FitOptions = {}, bef
     model.hull = convexHullRing(x, y);
   }
   loaded.notes.push(...isolationNotes(loaded, model, Boolean(src.keepIsolated)));
-  return { ...loaded, ...fitted };
+  return { ...loaded, ...fitted, breaklineNotes };
 }
 
 /**
  * The breaklines of a fit: the file's lines brought into the points' CRS, then the coded strings;
  * the summary's lines about them go to loaded.notes.
  */
-async function breaklinesFor(src: PointsSource, loaded: LoadedPoints): Promise<NonNullable<FitOptions["breaklines"]>> {
+async function breaklinesFor(src: PointsSource, loaded: LoadedPoints): Promise<{ lines: NonNullable<FitOptions["breaklines"]>; notes: string[] }> {
   const out: NonNullable<FitOptions["breaklines"]> = [];
+  const notes: string[] = [];
   const { points, table } = loaded;
   if (src.breaklines) {
     const { lines, note } = await breaklinesInCrs(src.breaklines, loaded.crs, boundingBox(points.x, points.y));
     out.push(...lines);
-    loaded.notes.push(note);
+    notes.push(note);
   }
   if (src.strings) {
     const col = columnByOption(table.columns, src.strings.column, "strings", { file: src.file, line: 1 });
@@ -349,17 +351,17 @@ async function breaklinesFor(src: PointsSource, loaded: LoadedPoints): Promise<N
       }
     }
     const gapText = res.gaps.map((g) => `${printableText(g.code)} ${Number.isFinite(g.gap) ? lengthText(g.gap, loaded.crs) : "none"}`).join(", ");
-    loaded.notes.push(
+    notes.push(
       `Strings: ${res.strings.length} from codes ${src.strings.codes.map(printableText).join(", ")} in column ${printableText(src.strings.column)} ` +
         `(${res.strings.reduce((a, s) => a + s.points.length, 0)} shots; split at gaps above ${gapText}${res.gaps[0]?.given ? ", as given" : ", 5 × the median spacing along each code"})` +
         (res.single.length ? `; ${res.single.length} single shots left out of the strings (lines ${res.single.slice(0, 5).join(", ")}${res.single.length > 5 ? ", …" : ""})` : ""),
     );
     for (const s of res.strings) {
-      loaded.notes.push(`  string ${printableText(s.name)}: ${s.points.length} shots, ${lengthText(s.length, loaded.crs)} long, lines ${s.firstLine}–${s.lastLine}`);
+      notes.push(`  string ${printableText(s.name)}: ${s.points.length} shots, ${lengthText(s.length, loaded.crs)} long, lines ${s.firstLine}–${s.lastLine}`);
     }
     out.push(...res.strings.map((s) => ({ name: `string ${s.name}`, x: s.x, y: s.y, z: s.z })));
   }
-  return out;
+  return { lines: out, notes };
 }
 
 /** The input rows as --json reports them: columns, filter, skipped rows, merged groups, non-detects, isolated samples. */

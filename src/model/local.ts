@@ -73,6 +73,11 @@ export interface BreaklinePart {
   /** Per patch: the disc it is a side of (patches of one disc share centre and radius), and which side. */
   parent: number[];
   side: number[];
+  /**
+   * Sides whose points could not carry the model (too few for the trend), fitted as their weighted
+   * mean level, with that level's standard error (the spread of the side's values; null for one point).
+   */
+  constant: { patch: number; se: number | null }[];
 }
 
 function checkBreaklinePart(b: unknown, p: number, bad: (what: string) => Error): BreaklinePart {
@@ -88,6 +93,9 @@ function checkBreaklinePart(b: unknown, p: number, bad: (what: string) => Error)
   if (!(q >= 0 && finiteArray(o.points!.x, q) && finiteArray(o.points!.y, q) && finiteArray(o.points!.z, q))) throw bad("breakline points are not numbers");
   if (!finiteArray(o.parent, p) || !finiteArray(o.side, p) || !o.parent.every((j, k) => Number.isInteger(j) && j >= 0 && (k === 0 || j >= o.parent![k - 1])) || !o.side.every((x) => Number.isInteger(x) && x >= 0)) {
     throw bad("breakline sides do not match the patches");
+  }
+  if (!Array.isArray(o.constant) || !o.constant.every((c) => c && Number.isInteger(c.patch) && c.patch >= 0 && c.patch < p && (c.se === null || (finite(c.se) && c.se >= 0)))) {
+    throw bad("breakline constant sides not a list of patches");
   }
   return o as BreaklinePart;
 }

@@ -145,6 +145,9 @@ interface Cut {
   onLine: Uint8Array;
   /** Vertical faces kept apart (separateFaces). */
   faces: number;
+  /** Sides fitted as a constant level (constantPatch), with their standard errors. */
+  constant: number[];
+  constantSe: number[];
 }
 
 /** The fit's coordinate mapping (the stretch, then centring and scaling), as evaluate/global.ts coordinateMapper. */
@@ -220,7 +223,7 @@ function cutStage(input: LocalInput, layout: PatchLayout, data: PatchData, minPo
   return {
     layout: cutLayoutOut,
     data: { u, v, values, sqrtW, s: data.s },
-    cut: { lines, cellTarget, domain, extra, parent: c.parent, side: c.side, report: c.report, onLine, faces },
+    cut: { lines, cellTarget, domain, extra, parent: c.parent, side: c.side, report: c.report, onLine, faces, constant: [], constantSe: [] },
   };
 }
 
@@ -423,6 +426,8 @@ function assemble(st: Stage, choice: Choice, blocks: PatchBlock[]): LocalModel {
     for (const f of failed) {
       const members = layout.index.subarray(layout.start[f.patch], layout.start[f.patch + 1]);
       const r = constantPatch(data, { cu: layout.cu[f.patch], cv: layout.cv[f.patch], radius: layout.radius[f.patch], members }, m);
+      st.cut.constant.push(f.patch);
+      st.cut.constantSe.push(r.se);
       scalars.set(r.scalars, f.patch * SCALARS);
       trendCoef.set(r.trend, f.patch * m);
       member[f.patch] = r.members;
@@ -565,7 +570,8 @@ function assemble(st: Stage, choice: Choice, blocks: PatchBlock[]): LocalModel {
   if (held) warnings.push(`${held} of ${p} patches hold λ at the numerical floor (GCV asked for less smoothing than double precision resolves there)`);
   if (raised) warnings.push(`${raised} of ${p} patches raised the given smoothing to their numerical floor so that their systems stay stable`);
   if (enlarged) warnings.push(`${enlarged} patches were enlarged because their points could not carry the ${choice.model.trend} trend`);
-  if (looN < n) warnings.push(`${n - looN} points have no leave-one-out residual (without them a patch cannot carry the ${choice.model.trend} trend)`);
+  const onLine = st.cut ? st.cut.onLine.reduce((a, x) => a + x, 0) : 0;
+  if (looN < n - onLine) warnings.push(`${n - onLine - looN} points have no leave-one-out residual (without them a patch cannot carry the ${choice.model.trend} trend)`);
   if (condition > 1e10) warnings.push(`a patch system is close to ill-conditioned (condition estimate ${condition.toExponential(2)})`);
   if (robustWeight && !converged) warnings.push(`the robust fit did not settle in ${passes} passes in every patch; its weights may still change`);
 
@@ -680,5 +686,6 @@ function breaklinePart(cut: Cut): BreaklinePart {
     lineWeight: LINE_WEIGHT,
     parent: Array.from(cut.parent),
     side: Array.from(cut.side),
+    constant: cut.constant.map((j, k) => ({ patch: j, se: Number.isFinite(cut.constantSe[k]) ? cut.constantSe[k] : null })),
   };
 }

@@ -263,7 +263,7 @@ export function patchFailure(j: number, message: string): RbfieldError {
  * keeps its own level and borrows nothing from across the line. Hat diagonal ωᵢ/Σω; leave-one-out
  * residual yᵢ − mean of the others.
  */
-export function constantPatch(data: PatchData, g: PatchGeometry, m: number): { scalars: number[]; trend: Float64Array; members: Float64Array } {
+export function constantPatch(data: PatchData, g: PatchGeometry, m: number): { scalars: number[]; trend: Float64Array; members: Float64Array; se: number } {
   const n = g.members.length;
   let sw = 0, swy = 0;
   for (const i of g.members) {
@@ -285,5 +285,10 @@ export function constantPatch(data: PatchData, g: PatchGeometry, m: number): { s
     out[o + 6] = w;
   });
   const scalars = [mean, 1, 1, 0, 0, 1, 0, CHOICES.indexOf("gcv"), Math.max(n - 1, 0), 0, 0, 1, 0];
-  return { scalars, trend: new Float64Array(m), members: out };
+  // Its standard error: the weighted spread of the side's values about their mean (a level is all
+  // this side can say), NaN for a single point.
+  let ss = 0;
+  for (const i of g.members) ss += (data.sqrtW ? data.sqrtW[i] ** 2 : 1) * (data.values[i] - mean) ** 2;
+  const se = n > 1 ? Math.sqrt(ss / sw * n / (n - 1)) : NaN;
+  return { scalars, trend: new Float64Array(m), members: out, se };
 }
