@@ -15,11 +15,11 @@ import { stringsFromCodes } from "../src/clean/strings.ts";
 import { makeEvaluator } from "../src/evaluate/evaluate.ts";
 import { gridModel } from "../src/evaluate/grid.ts";
 import { makeErrorEstimator } from "../src/evaluate/stderr.ts";
-import { fitSurface } from "../src/fit/surface.ts";
+import { fitSurface, fitSurfaceParallel } from "../src/fit/surface.ts";
 import type { FitOptions } from "../src/fit/options.ts";
 import { readModel } from "../src/job.ts";
-import { modelFiles, type SurfaceModel } from "../src/model/model.ts";
-import { parseBreaklines } from "../src/read/breaklines.ts";
+import { modelFiles, modelToJson, type SurfaceModel } from "../src/model/model.ts";
+import { breaklinesInCrs, parseBreaklines } from "../src/read/breaklines.ts";
 import type { CleanPoints, GridValues } from "../src/types.ts";
 import { contourLines } from "../src/write/contours.ts";
 import { heronFigures } from "../bench/breaklines.ts";
@@ -131,6 +131,28 @@ describe("analytic surfaces: the error next to the line falls by an order of mag
     const a = errors(without, f, [-0.5, -0.2, 0.2, 0.5], 0.05), b = errors(withLines, f, [-0.5, -0.2, 0.2, 0.5], 0.05);
     console.log(`channel: RMSE within 0.05 of its edges ${a.near.toExponential(3)} without, ${b.near.toExponential(3)} with; overall ${a.all.toExponential(3)} / ${b.all.toExponential(3)}`);
     expect(b.near).toBeLessThan(a.near / 10);
+  });
+});
+
+describe("breaklines: determinism and the model record", () => {
+  it("fits to the same model file in one thread and in 2 workers (more than one block of sides)", async () => {
+    const f = (x: number, y: number) => Math.abs(x) + g(x, y) + (y > 0.3 ? 0.5 : 0);
+    const lines: FitOptions["breaklines"] = [line3d("ridge", 0, f), { name: "fault", x: [-1.5, 1.5], y: [0.3, 0.3], z: null }];
+    const options: FitOptions = { kernel: "thin-plate", trend: "linear", patchPoints: 30, breaklines: lines };
+    const pts = pointsOf(f, 1500, 5);
+    const serial = modelToJson(fitSurface(pts, options));
+    expect(JSON.parse(serial).local.radius.length, "more than one block of patches").toBeGreaterThan(64);
+    expect(modelToJson(await fitSurfaceParallel(pts, options, 2)) === serial).toBe(true);
+  }, 120_000);
+
+  it("refuses breaklines in degrees for points on a local grid, naming both; projects them for points in a projected CRS", async () => {
+    // WGS 84 → UTM 32N: the projection itself is checked against gdaltransform in test/crs.test.ts.
+    const file = { file: "lines.geojson", lines: [{ name: "a", x: [9.1, 9.2], y: [48.1, 48.1], z: null }] };
+    await expect(breaklinesInCrs(file, { label: "local site grid" }, { xmin: 0, ymin: 0, xmax: 100, ymax: 100 })).rejects.toThrow(/WGS 84 longitude\/latitude.*nothing relates the two/);
+    const r = await breaklinesInCrs(file, { epsg: 32632, label: "EPSG:32632" }, { xmin: 500000, ymin: 5300000, xmax: 520000, ymax: 5340000 });
+    expect(r.lines[0].x[0]).toBeGreaterThan(500000);
+    expect(r.lines[0].x[0]).toBeLessThan(520000);
+    expect(r.note).toMatch(/projected to EPSG:32632/);
   });
 });
 

@@ -14,6 +14,8 @@
 // Fit and evaluation build side maps with this same code from the same numbers (the lines mapped
 // by mapLines, the disc, cellTarget), so both find the same sides.
 
+import Flatbush from "flatbush";
+
 /** Lines in the global scaled frame: segment k from (ax, ay) to (bx, by), of line `line[k]`. */
 export interface Segments {
   ax: Float64Array;
@@ -320,15 +322,19 @@ export function cutLayout(
   const parent: number[] = [], side: number[] = [];
   const lists: number[][] = [], reports: number[][] = [];
   const maps: (SideMap | null)[] = [];
+  // The line points, indexed once (a disc takes those strictly inside it, as data points: ψ > 0).
+  const q = u.length - n;
+  const lineIndex = new Flatbush(Math.max(q, 1));
+  for (let i = n; i < u.length; i++) lineIndex.add(u[i], v[i], u[i], v[i]);
+  if (q === 0) lineIndex.add(0, 0, 0, 0);
+  lineIndex.finish();
   for (let j = 0; j < disc.count; j++) {
     const cu = disc.cu[j], cv = disc.cv[j], r = disc.radius[j];
     const map = new SideMap(cu, cv, r, seg, cellTarget, domain);
-    // Line points in the disc (strictly inside, as data points are: ψ > 0).
-    const extra: number[] = [];
-    for (let i = n; i < u.length; i++) {
-      const du = u[i] - cu, dv = v[i] - cv;
-      if (du * du + dv * dv < r * r) extra.push(i);
-    }
+    const extra = q === 0 ? [] : lineIndex.search(cu - r, cv - r, cu + r, cv + r, (k) => {
+      const du = u[n + k] - cu, dv = v[n + k] - cv;
+      return du * du + dv * dv < r * r;
+    }).map((k) => n + k).sort((a, b) => a - b);
     const own = members(j);
     if (map.near.length === 0 || map.sides <= 1) {
       maps.push(null);
