@@ -238,6 +238,26 @@ describe("coded strings and vertical faces", () => {
     expect(r.gaps.find((x) => x.code === "K")!.gap).toBe(5);
   });
 
+  it("refuses a string that crosses itself, naming the shots' lines; nothing written", async () => {
+    const tmp = fs.mkdtempSync(path.join(os.tmpdir(), "rbfield-bl-"));
+    try {
+      // A 5 × 5 grid of ground shots, then a "K" string shot as a figure of eight (its 1st and 3rd legs cross).
+      const rows = ["x,y,z,code"];
+      for (let i = 0; i < 5; i++) for (let j = 0; j < 5; j++) rows.push(`${i * 10},${j * 10},${(i + j) / 10},GS`);
+      for (const [x, y] of [[5, 5], [25, 25], [25, 5], [5, 25]]) rows.push(`${x},${y},1,K`);
+      const file = path.join(tmp, "pts.csv");
+      fs.writeFileSync(file, rows.join("\n") + "\n");
+      const out = path.join(tmp, "m.rbfield.json");
+      const r = await cli(["fit", file, "--crs", "local:m", "--strings", "code=K", "--out", out]);
+      expect(r.code).toBe(ExitCode.input);
+      expect(r.err.trim().split("\n")).toHaveLength(1);
+      expect(r.err).toMatch(/line 29: string K 1 \(lines 27–30\) crosses itself between the shots on lines 27 and 29/);
+      expect(fs.existsSync(out)).toBe(false);
+    } finally {
+      fs.rmSync(tmp, { recursive: true, force: true });
+    }
+  });
+
   it("keeps a kerb top and a channel shot at one position apart (faceKey), merging others as before", () => {
     const table = {
       file: "t.csv", format: "csv", columns: ["x", "y", "z"], hasHeader: true, xColumn: 0, yColumn: 1, zColumn: 2, unusable: [],

@@ -571,6 +571,12 @@ function assemble(st: Stage, choice: Choice, blocks: PatchBlock[]): LocalModel {
   if (raised) warnings.push(`${raised} of ${p} patches raised the given smoothing to their numerical floor so that their systems stay stable`);
   if (enlarged) warnings.push(`${enlarged} patches were enlarged because their points could not carry the ${choice.model.trend} trend`);
   const onLine = st.cut ? st.cut.onLine.reduce((a, x) => a + x, 0) : 0;
+  if (st.cut) {
+    // Points on no side of any disc (between lines closer than the side raster resolves).
+    let lost = 0;
+    for (let i = 0; i < n; i++) if (home[i] < 0 && !st.cut.onLine[i]) lost++;
+    if (lost) warnings.push(`${lost} points lie between breaklines closer together than the sides are resolved (a quarter of the median spacing); their fitted value is their reading`);
+  }
   if (looN < n - onLine) warnings.push(`${n - onLine - looN} points have no leave-one-out residual (without them a patch cannot carry the ${choice.model.trend} trend)`);
   if (condition > 1e10) warnings.push(`a patch system is close to ill-conditioned (condition estimate ${condition.toExponential(2)})`);
   if (robustWeight && !converged) warnings.push(`the robust fit did not settle in ${passes} passes in every patch; its weights may still change`);

@@ -3,7 +3,8 @@
 //
 // A side map of one disc is a label raster over the disc's bounding square: cells touched by a line
 // segment are blocked (a 4-connected chain, so no 4-connected path of free cells crosses a line), the
-// free cells inside the disc are labelled by a 4-connected flood fill. The side of a place x:
+// free cells inside the disc and inside the data's bounding box are labelled by a 4-connected flood
+// fill (so a line that runs out of the data's box separates there). The side of a place x:
 //   the label of its cell when the cell is free (no line touches the cell, so the whole cell lies on
 //   one side); else the label of the nearest free cell within SEARCH cells whose centre x sees (the
 //   segment from x to the centre crosses no line segment; a segment through x itself is ignored, so
