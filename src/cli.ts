@@ -6,7 +6,7 @@ import { ExitCode, RbfieldError } from "./errors.ts";
 import type { GridOptions } from "./evaluate/grid.ts";
 import { KERNELS, TRENDS } from "./fit/kernels.ts";
 import type { FitOptions } from "./fit/surface.ts";
-import { readMask } from "./job.ts";
+import { readBreaklines, readMask } from "./job.ts";
 import { DUPLICATE_RULES } from "./clean/clean.ts";
 import { parseWhere } from "./read/filter.ts";
 import type { MaskFile } from "./read/mask.ts";
@@ -56,6 +56,9 @@ const MODEL: Spec = {
   robust: { type: "boolean" },
   method: { type: "string" },
   "patch-points": { type: "string" },
+  breaklines: { type: "string" },
+  strings: { type: "string" },
+  "string-gap": { type: "string" },
 };
 const GRID: Spec = { cell: { type: "string" }, extent: { type: "string" }, mask: { type: "string" }, force: { type: "boolean" } };
 const STDERR: Spec = { stderr: { type: "string" } };
@@ -112,7 +115,14 @@ const MODEL_HELP = `  --kernel K                auto|${KERNELS.join("|")}
   --method auto|global|local  fitting method (default auto: the local method above 2,000 points,
                             else the global one); global takes at most 5,000 points
   --patch-points N          local method: points per patch (default 150; more is more accurate
-                            and slower)`;
+                            and slower)
+  --breaklines FILE         GeoJSON LineString/MultiLineString: with z on every vertex the surface
+                            passes through the line and may change slope across it; without z the
+                            line is a barrier (a fault) the surface may jump across (local method)
+  --strings COL=CODE[,CODE…]  join shots with these codes in column COL, in file order, into 3-D
+                            breaklines (a string ends where another code comes between or at a gap)
+  --string-gap DIST         largest distance between consecutive shots of a string (default: 5 ×
+                            the median spacing along the code's strings)`;
 const GRID_HELP = `  --cell SIZE               cell size in map units (default: half the median point spacing,
                             at least 200 cells along the longer side, rounded to 1, 2, 2.5 or 5·10ᵏ)
   --extent XMIN,YMIN,XMAX,YMAX  outer edges of the grid (default: the data's bounding box, or the
@@ -471,7 +481,25 @@ function pointsSource(file: string, v: Record<string, unknown>) {
     detectionLimitColumn: v["detection-limit-column"] as string | undefined,
     duplicates: choice(v, "duplicates", DUPLICATE_RULES),
     keepIsolated: Boolean(v["keep-isolated"]),
+    // Read now, so that a bad breakline file is refused before any long work.
+    breaklines: v.breaklines === undefined ? undefined : readBreaklines(v.breaklines as string),
+    strings: stringsOption(v),
+    stringGap: num(v["string-gap"] as string | undefined, "string-gap"),
   };
+}
+
+/** --strings COL=CODE[,CODE…]. */
+function stringsOption(v: Record<string, unknown>): { column: string; codes: string[] } | undefined {
+  const text = v.strings as string | undefined;
+  if (text === undefined) {
+    if (v["string-gap"] !== undefined) throw usage("--string-gap needs --strings COL=CODE[,CODE…]");
+    return undefined;
+  }
+  const at = text.indexOf("=");
+  const column = at > 0 ? text.slice(0, at).trim() : "";
+  const codes = at > 0 ? text.slice(at + 1).split(",").map((c) => c.trim()).filter((c) => c !== "") : [];
+  if (column === "" || codes.length === 0) throw usage(`--strings must be COL=CODE[,CODE…] (e.g. code=KT,CH,BT), not "${messageText(text, 40)}"`);
+  return { column, codes };
 }
 
 interface Io {

@@ -36,5 +36,8 @@ export { contourVerb, fitVerb, gridVerb, predictVerb, runVerb, type VerbResult }
 export { readLabValues } from "./read/nondetects.ts";
 export { filterRows } from "./read/filter.ts";
 export { maskInCrs, readMaskFile } from "./read/mask.ts";
+// breaklines and coded strings
+export { type Breakline, breaklinesInCrs, parseBreaklines, readBreaklineFile } from "./read/breaklines.ts";
+export { stringsFromCodes } from "./clean/strings.ts";
 export { isolatedSamples } from "./clean/isolated.ts";
 export { LOCAL_AUTO_POINTS } from "./fit/local/local.ts";

@@ -26,6 +26,12 @@ export interface CleanOptions {
   minPoints?: number;
   /** How coincident points become one (default "mean"). */
   duplicates?: DuplicateRule;
+  /**
+   * Vertical faces: a key per table row ("" for most); coincident rows merge only when their keys
+   * are equal, so two shots at one position on different strings (a kerb top and its channel) stay
+   * two points. Default: every key "".
+   */
+  faceKey?: (row: number) => string;
 }
 
 export const DUPLICATE_RULES: readonly DuplicateRule[] = ["mean", "max", "min", "first"];
@@ -111,6 +117,8 @@ export function cleanPoints(table: CleanInput, options: CleanOptions = {}): Clea
   // 2. Group coincident points; a group's first point decides membership.
   // Hash table of groups keyed by exact coordinates (tol 0) or by cells of size tol.
   const groupOf = new Int32Array(m);
+  const faceKey = options.faceKey;
+  const sameFace = (a: number, b: number) => !faceKey || faceKey(prow[a]) === faceKey(prow[b]);
   const firstOf: number[] = [];
   let multi = false;
   let size = 16;
@@ -129,7 +137,7 @@ export function cleanPoints(table: CleanInput, options: CleanOptions = {}): Clea
     for (let p = 0; p < m; p++) {
       const b = hashPair(floatHash(px[p]), floatHash(py[p])) & mask;
       let g = head[b];
-      while (g >= 0 && !(px[firstOf[g]] === px[p] && py[firstOf[g]] === py[p])) g = next[g];
+      while (g >= 0 && !(px[firstOf[g]] === px[p] && py[firstOf[g]] === py[p] && sameFace(firstOf[g], p))) g = next[g];
       if (g >= 0) {
         groupOf[p] = g;
         multi = true;
@@ -148,7 +156,7 @@ export function cleanPoints(table: CleanInput, options: CleanOptions = {}): Clea
             const q = firstOf[g];
             const ex = px[p] - px[q];
             const ey = py[p] - py[q];
-            if (ex * ex + ey * ey < tol2 && (found < 0 || g < found)) found = g;
+            if (ex * ex + ey * ey < tol2 && sameFace(q, p) && (found < 0 || g < found)) found = g;
           }
         }
       }

@@ -11,8 +11,9 @@
 // minⱼ ‖x − cⱼ‖/ρⱼ exceeds c, all discs are enlarged by the same factor τ(x)/c, so the nearest
 // patch reaches x at relative distance c. The weights are continuous in x (τ is), equal the plain
 // ones wherever τ ≤ c (every data point and the whole bounding box), and never all vanish.
-import type Flatbush from "flatbush";
+import Flatbush from "flatbush";
 import { discIndex, wendlandOfSquared } from "../fit/local/patches.ts";
+import { mapLines, type Segments, SideMap } from "../fit/local/sides.ts";
 import { trendRow, trendTerms } from "../fit/kernels.ts";
 import type { LocalModel } from "../model/model.ts";
 import type { KernelName } from "../types.ts";
@@ -45,11 +46,42 @@ export interface PackedLocal {
   w: Float64Array;
   /** m trend coefficients per patch. */
   c: Float64Array;
+  /** Breaklines: patch j is side side[j] of disc parent[j]; the side maps are rebuilt from seg and cellTarget. */
+  sides?: PackedSides;
+}
+
+export interface PackedSides {
+  parent: Int32Array;
+  side: Int32Array;
+  seg: Segments;
+  cellTarget: number;
+  domain: Float64Array;
+  /** Per patch: the standard error of a side fitted as a constant level (NaN: not such a side, or unknown). */
+  constantSe: Float64Array;
+  /** Per patch: 1 for a side fitted as a constant level. */
+  constant: Uint8Array;
+  /** The 3-D lines' segments (indices into seg) and their levels at both ends (after the transform). */
+  seg3: Int32Array;
+  za: Float64Array;
+  zb: Float64Array;
+}
+
+/**
+ * The taper of the on-line correction: β(r) = (1 − r)²(1 + 2r) for r < 1, else 0 (the cubic Hermite
+ * step: β(0) = 1, β(1) = 0, β'(0) = β'(1) = 0, so the corrected surface keeps continuous slopes
+ * wherever the nearest line point moves smoothly).
+ */
+function taper(r: number): number {
+  return r < 1 ? (1 - r) * (1 - r) * (1 + 2 * r) : 0;
 }
 
 /** Scaled coordinates (global frame) of the model's data points: the same arithmetic as the fit. */
 export function localCentres(model: LocalModel): { u: Float64Array; v: Float64Array } {
-  return mappedPoints(model.points, localMapper(model.local.scaling, model.stretch));
+  const b = model.local.breaklines;
+  const map = localMapper(model.local.scaling, model.stretch);
+  if (!b || b.points.x.length === 0) return mappedPoints(model.points, map);
+  // The 3-D lines' points follow the data points (patch point numbers n, n + 1, …).
+  return mappedPoints({ x: [...model.points.x, ...b.points.x], y: [...model.points.y, ...b.points.y] }, map);
 }
 
 function localMapper(scaling: { cx: number; cy: number; s: number }, stretch: LocalModel["stretch"]) {
@@ -88,7 +120,37 @@ export function packLocal(model: LocalModel): PackedLocal {
     pv,
     w: Float64Array.from(l.weights),
     c: Float64Array.from(l.trendCoefficients),
+    ...(l.breaklines
+      ? {
+        sides: {
+          parent: Int32Array.from(l.breaklines.parent),
+          side: Int32Array.from(l.breaklines.side),
+          seg: mapLines(l.breaklines.lines, localMapper(l.scaling, model.stretch)),
+          cellTarget: l.breaklines.cellTarget,
+          domain: Float64Array.from(l.breaklines.domain),
+          constant: Uint8Array.from(l.breaklines.parent, (_, j) => (l.breaklines!.constant.some((c) => c.patch === j) ? 1 : 0)),
+          constantSe: Float64Array.from(l.breaklines.parent, (_, j) => l.breaklines!.constant.find((c) => c.patch === j)?.se ?? NaN),
+          ...lineLevels(l.breaklines.lines, model.transform),
+        },
+      }
+      : {}),
   };
+}
+
+/** The 3-D segments (in mapLines' order) and their end levels, after the value transform. */
+function lineLevels(lines: { x: number[]; z: number[] | null }[], transform: "none" | "log"): { seg3: Int32Array; za: Float64Array; zb: Float64Array } {
+  const seg3: number[] = [], za: number[] = [], zb: number[] = [];
+  const t = (z: number) => (transform === "log" ? Math.log(z) : z);
+  let k = 0;
+  for (const l of lines) {
+    for (let v = 0; v + 1 < l.x.length; v++, k++) {
+      if (!l.z) continue;
+      seg3.push(k);
+      za.push(t(l.z[v]));
+      zb.push(t(l.z[v + 1]));
+    }
+  }
+  return { seg3: Int32Array.from(seg3), za: Float64Array.from(za), zb: Float64Array.from(zb) };
 }
 
 /** The typed arrays of a packed local model, for postMessage transfer lists. */
@@ -106,7 +168,7 @@ export interface Blender {
   weights: Float64Array;
 }
 
-export function makeBlender(p: Pick<PackedLocal, "cu" | "cv" | "radius" | "scaling" | "stretch" | "coverage">): Blender {
+export function makeBlender(p: Pick<PackedLocal, "cu" | "cv" | "radius" | "scaling" | "stretch" | "coverage" | "sides">): Blender {
   const { cu, cv, radius, coverage } = p;
   const count = cu.length;
   let largest = 0;
@@ -140,11 +202,47 @@ export function makeBlender(p: Pick<PackedLocal, "cu" | "cv" | "radius" | "scali
         }
       }
       found = inside;
-      if (found === 0 || nearest > c2) return enlarged(u, v);
+      if (found === 0 || nearest > c2) return bySide(u, v, enlarged(u, v));
       for (let a = 0; a < found; a++) weights[a] /= total;
-      return found;
+      return bySide(u, v, found);
     },
   };
+  // Breaklines: of each disc only the side that holds (u, v) blends (fit/local/sides.ts).
+  const sides = p.sides;
+  const maps = new Map<number, SideMap | null>();
+  const sideMap = (d: number): SideMap | null => {
+    let m = maps.get(d);
+    if (m === undefined) {
+      const x = new SideMap(cu[entryOf(d)], cv[entryOf(d)], radius[entryOf(d)], sides!.seg, sides!.cellTarget, sides!.domain);
+      m = x.near.length === 0 || x.sides <= 1 ? null : x;
+      maps.set(d, m);
+    }
+    return m;
+  };
+  // The first patch of each disc (patches of one disc are consecutive).
+  const firstOf = new Map<number, number>();
+  if (sides) for (let j = sides.parent.length - 1; j >= 0; j--) firstOf.set(sides.parent[j], j);
+  const entryOf = (d: number) => firstOf.get(d)!;
+  function bySide(u: number, v: number, count: number): number {
+    if (!sides || count === 0) return count;
+    let kept = 0, total = 0, lastDisc = -1, label = -1;
+    for (let a = 0; a < count; a++) {
+      const j = ids[a];
+      const d = sides.parent[j];
+      if (d !== lastDisc) {
+        const m = sideMap(d);
+        label = m ? m.sideAt(u, v) : -1;
+        lastDisc = d;
+      }
+      if (label >= 0 && sides.side[j] !== label) continue;
+      ids[kept] = j;
+      weights[kept++] = weights[a];
+      total += weights[a];
+    }
+    for (let a = 0; a < kept; a++) weights[a] /= total;
+    found = kept;
+    return kept;
+  }
   function collect(j: number): boolean {
     if (found === ids.length) {
       const more = new Int32Array(2 * ids.length);
@@ -237,10 +335,22 @@ export function localEvaluator(p: PackedLocal): Evaluator {
     for (let t = 0; t < m; t++) sum += c[j * m + t] * row[t];
     return zc[j] + zs[j] * sum;
   };
+  const near = p.sides && p.sides.seg3.length ? nearestLine(p.sides) : null;
   const raw = (x: number, y: number): number => {
     blender.map(x, y, uv);
     const count = blender.cover(uv[0], uv[1]);
     let f = 0;
+    const hit = near ? near(uv[0], uv[1]) : null;
+    if (hit) {
+      // Within δ of a 3-D line: each side's fit is corrected so that it equals the line's linear
+      // interpolation L on the line: fⱼ(x) + β(d/δ)·(L(x*) − fⱼ(x*)), x* the nearest line point.
+      const b = taper(hit.d / hit.delta);
+      for (let a = 0; a < count; a++) {
+        const j = blender.ids[a];
+        f += blender.weights[a] * (patchValue(j, uv[0], uv[1]) + b * (hit.level - patchValue(j, hit.u, hit.v)));
+      }
+      return count > 0 ? f : NaN;
+    }
     for (let a = 0; a < count; a++) f += blender.weights[a] * patchValue(blender.ids[a], uv[0], uv[1]);
     return count > 0 ? f : NaN;
   };
@@ -249,6 +359,8 @@ export function localEvaluator(p: PackedLocal): Evaluator {
 
 /** A packed local model cut down to some of its patches (ascending): their arrays, unchanged. */
 export function subsetPatches(p: PackedLocal, patches: Int32Array): PackedLocal {
+  // With breaklines the sides are found per disc over all patches: the whole model is kept.
+  if (p.sides) return p;
   const pick = (a: Float64Array) => Float64Array.from(patches, (j) => a[j]);
   const m = p.m;
   const start = new Int32Array(patches.length + 1);
@@ -278,5 +390,41 @@ export function subsetPatches(p: PackedLocal, patches: Int32Array): PackedLocal 
     pv,
     w,
     c,
+  };
+}
+
+/**
+ * The nearest point of a 3-D line within δ (the side rasters' cell size, a quarter of the median
+ * spacing) of a place in the scaled frame, with the line's level there; null when none is that near.
+ */
+function nearestLine(sides: PackedSides): (u: number, v: number) => { u: number; v: number; d: number; level: number; delta: number } | null {
+  const { seg, seg3, za, zb } = sides;
+  const delta = sides.cellTarget;
+  const index = new Flatbush(seg3.length);
+  for (const k of seg3) {
+    index.add(Math.min(seg.ax[k], seg.bx[k]) - delta, Math.min(seg.ay[k], seg.by[k]) - delta, Math.max(seg.ax[k], seg.bx[k]) + delta, Math.max(seg.ay[k], seg.by[k]) + delta);
+  }
+  index.finish();
+  const out = { u: 0, v: 0, d: 0, level: 0, delta };
+  return (u, v) => {
+    let best = delta;
+    let found = false;
+    for (const a of index.search(u, v, u, v)) {
+      const k = seg3[a];
+      const dx = seg.bx[k] - seg.ax[k], dy = seg.by[k] - seg.ay[k];
+      const l2 = dx * dx + dy * dy;
+      const t = l2 > 0 ? Math.max(0, Math.min(1, ((u - seg.ax[k]) * dx + (v - seg.ay[k]) * dy) / l2)) : 0;
+      const px = seg.ax[k] + t * dx, py = seg.ay[k] + t * dy;
+      const d = Math.hypot(u - px, v - py);
+      if (d < best || (!found && d <= best)) {
+        best = d;
+        found = true;
+        out.u = px;
+        out.v = py;
+        out.d = d;
+        out.level = za[a] + t * (zb[a] - za[a]);
+      }
+    }
+    return found && out.d < delta ? out : null;
   };
 }

@@ -64,7 +64,10 @@ export interface PackedLocalErrors {
 export function packLocalErrors(model: LocalModel): PackedLocalErrors {
   const l = model.local;
   const surface = packLocal(model);
-  const values = transformedValues({ z: Float64Array.from(model.points.z), lines: model.points.line }, model.transform);
+  const b = l.breaklines;
+  // The 3-D lines' points (patch point numbers n, n + 1, …) follow the data points.
+  const z = b ? [...model.points.z, ...b.points.z] : model.points.z;
+  const values = transformedValues({ z: Float64Array.from(z), lines: b ? [...model.points.line, ...b.points.z.map(() => 0)] : model.points.line }, model.transform);
   const y = new Float64Array(l.index.length);
   for (let j = 0; j + 1 < l.start.length; j++) {
     for (let k = l.start[j]; k < l.start[j + 1]; k++) y[k] = (values[l.index[k]] - l.zc[j]) / l.zs[j];
@@ -256,6 +259,11 @@ export function localErrorEstimatorPacked(pe: PackedLocalErrors): ErrorEstimator
         se = 0;
         for (let c = 0; c < count; c++) {
           const j = blender.ids[c];
+          // A side fitted as a constant level: the spread of its values (fit/local/patch_fit.ts, constantPatch).
+          if (packed.sides?.constant[j]) {
+            se += blender.weights[c] * packed.sides.constantSe[j];
+            continue;
+          }
           const { rest, b } = patchVariance(j, uv[0], uv[1]);
           se += blender.weights[c] * zs[j] * Math.sqrt(Math.max(b * rest, 0));
         }
@@ -287,6 +295,8 @@ export function localErrorWork(pe: PackedLocalErrors): number {
  * data points inside `box` (map units), whose stored errors are all a window inside it can meet.
  */
 export function subsetLocalErrors(pe: PackedLocalErrors, patches: Int32Array, box: { xmin: number; ymin: number; xmax: number; ymax: number }): PackedLocalErrors {
+  // With breaklines the whole model is kept (subsetPatches).
+  if (pe.surface.sides) return pe;
   const s = pe.surface;
   const members = patches.reduce((t, j) => t + s.start[j + 1] - s.start[j], 0);
   const y = new Float64Array(members), sqrtW = new Float64Array(pe.sqrtW.length ? members : 0);

@@ -48,6 +48,12 @@ export interface FitOptions {
   flagLevel?: number;
   /** Refit by iteratively reweighted least squares with Tukey's biweight (bounded influence of blunders). */
   robust?: boolean;
+  /**
+   * Breaklines in map coordinates (the points' CRS): z on every vertex (3-D: the surface passes
+   * through the line and may change slope across it) or null (a 2-D barrier: it may jump). Fitted by
+   * the local method with its patches cut into sides (fit/local/sides.ts).
+   */
+  breaklines?: { name: string; x: number[]; y: number[]; z: number[] | null }[];
   crs?: Crs;
   source?: { file: string; x: string; y: string; z: string };
   /** Called with short progress messages during long work. */

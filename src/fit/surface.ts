@@ -160,7 +160,14 @@ function planFit(points: CleanPoints, options: FitOptions): FitPlan {
   const transform = options.transform ?? "none";
   const n = points.x.length;
   if (n < 3) throw new RbfieldError(`${n} usable points are too few to fit a surface: at least 3 are needed`, ExitCode.input);
-  const { method, why: methodChoice } = chooseMethod(n, options.method ?? "auto");
+  let { method, why: methodChoice } = chooseMethod(n, options.method ?? "auto");
+  if (options.breaklines?.length) {
+    // Breaklines cut the local method's patches into sides (fit/local/sides.ts); a small survey is
+    // then one or a few patches.
+    if (options.method === "global") throw new RbfieldError(`breaklines are honoured by the local method only; drop ${opt("method")} global`, ExitCode.usage, undefined, "method");
+    method = "local";
+    methodChoice = `local method (partition of unity) with its patches cut by ${options.breaklines.length} breakline${options.breaklines.length === 1 ? "" : "s"} into sides`;
+  }
   if (kernelOpt !== "auto" && trendOpt !== "auto") {
     const problem = trendProblem(kernelOpt, trendOpt);
     if (problem) throw new RbfieldError(problem, ExitCode.usage);

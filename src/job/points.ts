@@ -13,6 +13,8 @@ import { type CrsChoice, crsRecord, projectTable, tableCrs } from "../read/proje
 import { chooseTextColumns, columnByOption } from "../read/columns.ts";
 import { filterRows, type WhereCondition, type WhereResult } from "../read/filter.ts";
 import { type MaskFile, maskInCrs, readMaskFile } from "../read/mask.ts";
+import { type BreaklineFile, breaklinesInCrs, readBreaklineFile, selfCrossing } from "../read/breaklines.ts";
+import { stringsFromCodes } from "../clean/strings.ts";
 import { describeLabValues, type LabValues, type NonDetectRule, readLabValues } from "../read/nondetects.ts";
 import { formatNumber, lengthText } from "../text.ts";
 import { type FitOptions, type FittedModel, fitSurfaceParallelWithFactors } from "../fit/surface.ts";
@@ -60,6 +62,12 @@ export interface PointsSource {
   duplicates?: DuplicateRule;
   /** Keep isolated samples inside the default grid extent and the hull mask (they are fitted either way). */
   keepIsolated?: boolean;
+  /** Breaklines (--breaklines FILE), read before any long work (read/breaklines.ts). */
+  breaklines?: BreaklineFile;
+  /** Coded strings (--strings COL=CODE[,CODE…]): shots of these codes joined into 3-D breaklines (clean/strings.ts). */
+  strings?: { column: string; codes: string[] };
+  /** Largest distance between consecutive shots of a string (default: 5 × the median along the code's strings). */
+  stringGap?: number;
 }
 
 export interface LoadedPoints {
@@ -143,7 +151,17 @@ export async function loadPoints(src: PointsSource, progress?: FitOptions["progr
   await projectTable(table, crsChoice);
   // Merge first, then judge conflicts against the limit: given, or 5% of the value range (common practice
   // for "the same shot twice": small differences are instrument noise, large ones a blunder).
-  const points = cleanPoints(table, { mergeConflicts: true, minPoints: 3, duplicates: src.duplicates });
+  // Shots on coded strings at one position keep their own levels (vertical faces): one key per code.
+  let faceKey: ((row: number) => string) | undefined;
+  if (src.strings) {
+    const col = columnByOption(table.columns, src.strings.column, "strings", { file: src.file, line: 1 });
+    const want = new Set(src.strings.codes.map((c) => c.trim().toLowerCase()));
+    faceKey = (row) => {
+      const c = cellText(table, row, col).trim().toLowerCase();
+      return want.has(c) ? c : "";
+    };
+  }
+  const points = cleanPoints(table, { mergeConflicts: true, minPoints: 3, duplicates: src.duplicates, faceKey });
   if (!src.mergeConflicts) {
     const { lo, hi } = valueRange(points.z);
     const limit = src.maxSpread ?? 0.05 * (hi - lo);
@@ -269,14 +287,17 @@ export function isolationNotes(loaded: LoadedPoints, model: SurfaceModel, keep: 
 }
 
 /** Read, clean and fit; `beforeFit` sees the clean points first (the memory check before the long work). */
-export async function fitPointsFile(src: PointsSource, fit: FitOptions = {}, beforeFit?: (loaded: LoadedPoints) => void): Promise<LoadedPoints & FittedModel> {
+export async function fitPointsFile(src: PointsSource, fit: FitOptions = {}, beforeFit?: (loaded: LoadedPoints) => void): Promise<LoadedPoints & FittedModel & { breaklineNotes: string[] }> {
   const loaded = await loadPoints(src, fit.progress);
   beforeFit?.(loaded);
   const t = loaded.table;
+  const { lines: breaklines, notes: breaklineNotes } = await breaklinesFor(src, loaded);
+  loaded.notes.push(...breaklineNotes);
   let fitted: FittedModel;
   try {
     fitted = await fitSurfaceParallelWithFactors(loaded.points, {
       ...fit,
+      ...(breaklines.length ? { breaklines } : {}),
       weights: loaded.weights,
       crs: loaded.crs,
       source: { file: path.basename(src.file), x: t.columns[t.xColumn], y: t.columns[t.yColumn], z: t.columns[t.zColumn] },
@@ -306,7 +327,48 @@ export async function fitPointsFile(src: PointsSource, fit: FitOptions = {}, bef
     model.hull = convexHullRing(x, y);
   }
   loaded.notes.push(...isolationNotes(loaded, model, Boolean(src.keepIsolated)));
-  return { ...loaded, ...fitted };
+  return { ...loaded, ...fitted, breaklineNotes };
+}
+
+/**
+ * The breaklines of a fit: the file's lines brought into the points' CRS, then the coded strings;
+ * the summary's lines about them go to loaded.notes.
+ */
+async function breaklinesFor(src: PointsSource, loaded: LoadedPoints): Promise<{ lines: NonNullable<FitOptions["breaklines"]>; notes: string[] }> {
+  const out: NonNullable<FitOptions["breaklines"]> = [];
+  const notes: string[] = [];
+  const { points, table } = loaded;
+  if (src.breaklines) {
+    const { lines, note } = await breaklinesInCrs(src.breaklines, loaded.crs, boundingBox(points.x, points.y));
+    out.push(...lines);
+    notes.push(note);
+  }
+  if (src.strings) {
+    const col = columnByOption(table.columns, src.strings.column, "strings", { file: src.file, line: 1 });
+    const codes = (points.rows ?? []).map((r) => cellText(table, r, col));
+    const res = stringsFromCodes(points, codes, src.strings.codes, src.stringGap);
+    for (const s of res.strings) {
+      const c = selfCrossing(s.x, s.y);
+      if (c) {
+        throw inputError(
+          `string ${printableText(s.name)} (lines ${s.firstLine}–${s.lastLine}) crosses itself between the shots on lines ${points.lines[s.points[c[0]]]} and ` +
+            `${points.lines[s.points[c[1]]]}; give the shots another code or split the string with ${opt("stringGap")}`,
+          { file: src.file, line: points.lines[s.points[c[1]]] },
+        );
+      }
+    }
+    const gapText = res.gaps.map((g) => `${printableText(g.code)} ${Number.isFinite(g.gap) ? lengthText(g.gap, loaded.crs) : "none"}`).join(", ");
+    notes.push(
+      `Strings: ${res.strings.length} from codes ${src.strings.codes.map(printableText).join(", ")} in column ${printableText(src.strings.column)} ` +
+        `(${res.strings.reduce((a, s) => a + s.points.length, 0)} shots; split at gaps above ${gapText}${res.gaps[0]?.given ? ", as given" : ", 5 × the median spacing along each code"})` +
+        (res.single.length ? `; ${res.single.length} single shots left out of the strings (lines ${res.single.slice(0, 5).join(", ")}${res.single.length > 5 ? ", …" : ""})` : ""),
+    );
+    for (const s of res.strings) {
+      notes.push(`  string ${printableText(s.name)}: ${s.points.length} shots, ${lengthText(s.length, loaded.crs)} long, lines ${s.firstLine}–${s.lastLine}`);
+    }
+    out.push(...res.strings.map((s) => ({ name: `string ${s.name}`, x: s.x, y: s.y, z: s.z })));
+  }
+  return { lines: out, notes };
 }
 
 /** The input rows as --json reports them: columns, filter, skipped rows, merged groups, non-detects, isolated samples. */
@@ -364,6 +426,11 @@ export function readModel(file: string): SurfaceModel {
       }
     },
   });
+}
+
+/** Read a breakline file (GeoJSON LineString/MultiLineString) and the CRS it declares. */
+export function readBreaklines(file: string): BreaklineFile {
+  return readBreaklineFile(file);
 }
 
 /** Read a mask polygon file (GeoJSON Polygon/MultiPolygon) and the CRS it declares. */

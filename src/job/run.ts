@@ -147,7 +147,7 @@ async function runInto(opts: RunOptions, files: Record<string, string>, inputs: 
   let maskedCells = 0;
   for (const v of grid.values) if (Number.isNaN(v)) maskedCells++;
   const summary = summaryText("rbfield run summary", [
-    [...pointNotes(fitted, opts, true), ...isolationNotes(fitted, model, Boolean(opts.keepIsolated))],
+    [...pointNotes(fitted, opts, true), ...isolationNotes(fitted, model, Boolean(opts.keepIsolated)), ...fitted.breaklineNotes],
     modelSummaryLines(model),
     [
       ...masked.notes,

@@ -47,6 +47,57 @@ export interface LocalPart {
    * back-transform). Optional (added within version 2; absent in earlier local models).
    */
   pointStdErrors?: number[];
+  /**
+   * Breaklines (optional, added within version 2; absent in models fitted without them): the lines,
+   * and which side of which disc each patch is. With them, patch j is side `side[j]` of the disc
+   * (cu[j], cv[j], radius[j]), and at a place only the patches whose side holds the place blend
+   * (fit/local/sides.ts). Patch point numbers from n on are the 3-D lines' points (`points`).
+   */
+  breaklines?: BreaklinePart;
+}
+
+/** The breaklines of a local model and the sides its patches are (fit/local/sides.ts). */
+export interface BreaklinePart {
+  /** The lines in map coordinates (the points' CRS); z null for a 2-D barrier line. */
+  lines: { name: string; x: number[]; y: number[]; z: number[] | null }[];
+  /** Side-raster cell size in the global scaled frame (the side maps are rebuilt from it). */
+  cellTarget: number;
+  /** The data's bounding box in the global scaled frame [umin, vmin, umax, vmax]: sides are found within it. */
+  domain: number[];
+  /** Vertical faces kept apart: coincident vertices of two 3-D lines with different levels (fit/local/sides.ts, separateFaces). */
+  faces: number;
+  /** Points along the 3-D lines (point n + k of the patches), map coordinates and levels. */
+  points: { x: number[]; y: number[]; z: number[] };
+  /** Their observation weight ω (the data points' mean is 1). */
+  lineWeight: number;
+  /** Per patch: the disc it is a side of (patches of one disc share centre and radius), and which side. */
+  parent: number[];
+  side: number[];
+  /**
+   * Sides whose points could not carry the model (too few for the trend), fitted as their weighted
+   * mean level, with that level's standard error (the spread of the side's values; null for one point).
+   */
+  constant: { patch: number; se: number | null }[];
+}
+
+function checkBreaklinePart(b: unknown, p: number, bad: (what: string) => Error): BreaklinePart {
+  const o = b as Partial<BreaklinePart>;
+  if (typeof o !== "object" || o === null) throw bad("breaklines not a record");
+  if (!Array.isArray(o.lines) || !o.lines.every((l) =>
+    l && typeof l.name === "string" && finiteArray(l.x, l.x?.length) && l.x.length >= 2 && finiteArray(l.y, l.x.length) &&
+    (l.z === null || finiteArray(l.z, l.x.length))
+  )) throw bad("breaklines are not lines of numbers");
+  if (!finiteArray(o.domain, 4) || !(o.domain[0] <= o.domain[2] && o.domain[1] <= o.domain[3]) || !(Number.isInteger(o.faces) && o.faces! >= 0)) throw bad("breakline domain missing");
+  if (!(finite(o.cellTarget) && o.cellTarget > 0) || !(finite(o.lineWeight) && o.lineWeight > 0)) throw bad("breakline settings missing");
+  const q = Array.isArray(o.points?.x) ? o.points!.x.length : -1;
+  if (!(q >= 0 && finiteArray(o.points!.x, q) && finiteArray(o.points!.y, q) && finiteArray(o.points!.z, q))) throw bad("breakline points are not numbers");
+  if (!finiteArray(o.parent, p) || !finiteArray(o.side, p) || !o.parent.every((j, k) => Number.isInteger(j) && j >= 0 && (k === 0 || j >= o.parent![k - 1])) || !o.side.every((x) => Number.isInteger(x) && x >= 0)) {
+    throw bad("breakline sides do not match the patches");
+  }
+  if (!Array.isArray(o.constant) || !o.constant.every((c) => c && Number.isInteger(c.patch) && c.patch >= 0 && c.patch < p && (c.se === null || (finite(c.se) && c.se >= 0)))) {
+    throw bad("breakline constant sides not a list of patches");
+  }
+  return o as BreaklinePart;
 }
 
 const finite = (v: unknown): v is number => typeof v === "number" && Number.isFinite(v);
@@ -76,7 +127,9 @@ export function checkLocalPart(part: unknown, n: number, trend: TrendName, bad: 
     throw bad("patch offsets missing or not increasing");
   }
   const total = start[p];
-  if (!finiteArray(l.index, total) || !l.index.every((i) => Number.isInteger(i) && i >= 0 && i < n)) throw bad("patch point numbers missing or out of range");
+  const lines = l.breaklines === undefined ? undefined : checkBreaklinePart(l.breaklines, p, bad);
+  const all = n + (lines ? lines.points.x.length : 0);
+  if (!finiteArray(l.index, total) || !l.index.every((i) => Number.isInteger(i) && i >= 0 && i < all)) throw bad("patch point numbers missing or out of range");
   if (!finiteArray(l.weights, total) || !sane(l.weights)) throw bad("patch weights do not match the patch points");
   if (l.memberWeights !== null && !(finiteArray(l.memberWeights, total) && l.memberWeights.every((w) => w > 0 && w < 1e200))) {
     throw bad("patch observation weights are not positive numbers");

@@ -154,7 +154,7 @@ export function readCrs(crs: unknown): Crs | undefined {
 }
 
 /** Start offsets of the elements of the top-level "features" array (text known to be valid JSON). */
-function featureOffsets(s: string): number[] {
+export function featureOffsets(s: string): number[] {
   let offsets: number[] = [];
   let depth = 0;
   let lastKey = "";

@@ -264,9 +264,10 @@ export function renderMap(input: MapInput, options: MapOptions): string {
   const points = input.points ?? [];
   const pointR = (residualColour ? 0.7 : 0.45) * u;
   const outlines = (input.outline ?? []).map((ring) => ring.map(([x, y]) => P(x, y)));
+  const breaklines = (input.breaklines ?? []).map((line) => line.map(([x, y]) => P(x, y)));
   const labelSize = 2 * u;
   const placed = placeContourLabels(contourInputs, {
-    lines: outlines,
+    lines: [...outlines, ...breaklines],
     points: points.map((q) => {
       const [x, y] = P(q.x, q.y);
       return { x, y, r: (q.flagged ? 1.5 * u : pointR) + 0.15 * u };
@@ -286,6 +287,10 @@ export function renderMap(input: MapInput, options: MapOptions): string {
   if (outlines.length) {
     body += `<g id="${p}outline" fill="none" stroke="${INK}" stroke-width="${n(0.25 * u, 3)}" stroke-dasharray="${n(1.6 * u, 3)} ${n(0.9 * u, 3)}">` +
       outlines.map((r) => el("path", { d: pathData(r, true) })).join("") + `</g>`;
+  }
+  if (breaklines.length) {
+    body += `<g id="${p}breaklines" fill="none" stroke="${INK}" stroke-width="${n(0.5 * u, 3)}" stroke-linejoin="round" stroke-linecap="round" stroke-dasharray="${n(3 * u, 3)} ${n(0.6 * u, 3)} ${n(0.4 * u, 3)} ${n(0.6 * u, 3)}">` +
+      breaklines.map((l) => el("path", { d: pathData(l) })).join("") + `</g>`;
   }
   body += drawPoints(points, P, pointR, residualColour ? residualRange : 0, u, p);
   body += `<g id="${p}contour-labels" font-size="${n(labelSize, 3)}" text-anchor="middle" fill="${INK}">` +

@@ -115,6 +115,22 @@ export function modelSummaryLines(model: SurfaceModel): string[] {
     }
     lines.push("  blunder test: Pope's τ of each point in its nearest patch, at the survey-wide level (not iterated)");
   }
+  const bl = model.method === "local" ? model.local.breaklines : undefined;
+  if (bl) {
+    const sidesOf = new Map<number, number>();
+    for (const d of bl.parent) sidesOf.set(d, (sidesOf.get(d) ?? 0) + 1);
+    const discs = sidesOf.size;
+    const cut = [...sidesOf.values()].filter((c) => c > 1).length;
+    const three = bl.lines.filter((l) => l.z).length;
+    lines.push(
+      `  breaklines: ${bl.lines.length} (${three} 3-D, ${bl.lines.length - three} 2-D barriers); ${cut} of ${discs} patch discs cut into sides, each side fitted on its own ` +
+        `(3-D lines add ${bl.points.x.length} points along them, near-exact; on a 3-D line the surface is the line's linear interpolation)`,
+    );
+    if (bl.faces) lines.push(`  vertical faces: ${bl.faces} places where two 3-D lines share a position with different levels; each side keeps its own level`);
+    if (bl.constant.length) lines.push(`  ${bl.constant.length} sides too small for the ${model.trend} trend were fitted as their mean level`);
+    const shots = model.looStandardised.filter((t, i) => t === null && model.loo[i] === null).length;
+    if (shots) lines.push(`  shots at a 3-D line's vertices (string shots) are represented by the line: no leave-one-out residual or blunder test for them`);
+  }
   if (model.transform === "log") {
     lines.push("  values fitted as ln z; estimates back-transformed as exp(f + σ²/2) (lognormal bias correction); σ, GCV and residuals are in log units");
   }

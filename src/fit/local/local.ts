@@ -49,6 +49,10 @@ import {
   smoothingChoiceOf,
 } from "./patch_fit.ts";
 import { buildPatches, compress, growPatch, type PatchLayout, patchWeight, samplePatches } from "./patches.ts";
+import { constantPatch } from "./patch_fit.ts";
+import { cutLayout, type LineRecord, linePoints, mapLines, separateFaces } from "./sides.ts";
+import { stretchMap } from "../../geometry.ts";
+import type { BreaklinePart } from "../../model/local.ts";
 import type { FitJob, RankJob } from "./patch_worker.ts";
 
 /**
@@ -114,17 +118,129 @@ interface Stage {
   data: PatchData;
   groups: ReturnType<typeof kernelGroups>;
   samples: number[];
+  /** Breaklines: the layout's patches are the sides of the discs (fit/local/sides.ts). */
+  cut: Cut | null;
+}
+
+/**
+ * Observation weight ω of a 3-D line's points against the data points' mean of 1: their noise
+ * variance is 10⁻⁶ of a reading's, so the surface passes through the line to about 10⁻³ of the
+ * readings' scatter while the systems stay well conditioned (near-exact data).
+ */
+export const LINE_WEIGHT = 1e6;
+
+/** What cutting the discs by breaklines adds to the stage. */
+interface Cut {
+  lines: LineRecord[];
+  cellTarget: number;
+  /** The data's bounding box in the scaled frame (umin, vmin, umax, vmax): where sides are found. */
+  domain: number[];
+  /** The 3-D lines' points (map coordinates, values as given); point n + k of the patch data. */
+  extra: { x: number[]; y: number[]; z: number[]; line: number[] };
+  parent: Int32Array;
+  side: Int32Array;
+  /** Per member of the cut layout: 1 where the member's diagnostics come from this side. */
+  report: Uint8Array;
+  /** Data points that coincide with a 3-D line's vertex (the line stands for them in the fits). */
+  onLine: Uint8Array;
+  /** Vertical faces kept apart (separateFaces). */
+  faces: number;
+  /** Sides fitted as a constant level (constantPatch), with their standard errors. */
+  constant: number[];
+  constantSe: number[];
+}
+
+/** The fit's coordinate mapping (the stretch, then centring and scaling), as evaluate/global.ts coordinateMapper. */
+function fitMapper(prep: Prepared): (x: number, y: number, out: Float64Array) => void {
+  const { cx, cy, s } = prep;
+  const rotate = prep.stretch ? stretchMap(prep.stretch) : null;
+  return (x, y, out) => {
+    if (rotate) rotate(x, y, out);
+    else {
+      out[0] = x;
+      out[1] = y;
+    }
+    out[0] = (out[0] - cx) / s;
+    out[1] = (out[1] - cy) / s;
+  };
+}
+
+/** Cut the discs by the breaklines: the sides become the patches; 3-D lines add their points. */
+function cutStage(input: LocalInput, layout: PatchLayout, data: PatchData, minPoints: number, m: number): { layout: PatchLayout; data: PatchData; cut: Cut } {
+  const { prep } = input;
+  const given = input.options.breaklines!;
+  const n = prep.n;
+  const map = fitMapper(prep);
+  const step = 0.5 * prep.spacingScaled;
+  // Data points at a 3-D line's vertex (the shots of a coded string): the line stands for them.
+  const at = new Set<string>();
+  for (const l of given) if (l.z) l.x.forEach((x, k) => at.add(`${x},${l.y[k]}`));
+  const onLine = new Uint8Array(n);
+  for (let i = 0; i < n; i++) if (at.has(`${input.points.x[i]},${input.points.y[i]}`)) onLine[i] = 1;
+  const { lines, faces } = separateFaces(given, input.points, onLine, medianSpacing(input.points.x, input.points.y), pointIndex(input.points.x, input.points.y));
+  if (faces) input.options.progress?.(`${faces} vertical faces: coincident line vertices with different levels kept apart`);
+  const extra = linePoints(lines, map, step);
+  const q = extra.x.length;
+  const u = new Float64Array(n + q), v = new Float64Array(n + q), values = new Float64Array(n + q), sqrtW = new Float64Array(n + q);
+  u.set(data.u);
+  v.set(data.v);
+  values.set(data.values);
+  const uv = new Float64Array(2);
+  for (let i = 0; i < n; i++) sqrtW[i] = data.sqrtW ? data.sqrtW[i] : 1;
+  for (let k = 0; k < q; k++) {
+    map(extra.x[k], extra.y[k], uv);
+    u[n + k] = uv[0];
+    v[n + k] = uv[1];
+    const z = extra.z[k];
+    if (input.transform === "log" && !(z > 0)) {
+      throw new RbfieldError(`${opt("transform")} log needs positive levels on the breaklines; line "${lines[extra.line[k]].name}" has ${z}`, ExitCode.input);
+    }
+    values[n + k] = input.transform === "log" ? Math.log(z) : z;
+    sqrtW[n + k] = Math.sqrt(LINE_WEIGHT);
+  }
+  const seg = mapLines(lines, map);
+  const cellTarget = 0.25 * prep.spacingScaled;
+  const members = (j: number) => layout.index.subarray(layout.start[j], layout.start[j + 1]).filter((i) => !onLine[i]);
+  const box = boundingBox(data.u, data.v);
+  const domain = [box.xmin, box.ymin, box.xmax, box.ymax];
+  const c = cutLayout(layout, members, u, v, n, seg, cellTarget, domain);
+  const e = c.parent.length;
+  const occupied = new Uint8Array(e);
+  for (let k = 0; k < e; k++) {
+    let real = 0;
+    for (let t = c.start[k]; t < c.start[k + 1]; t++) if (c.index[t] < n) real++;
+    occupied[k] = layout.occupied[c.parent[k]] && real >= Math.max(m + 3, minPoints / 2) ? 1 : 0;
+  }
+  const cutLayoutOut: PatchLayout = {
+    count: e,
+    cu: Float64Array.from(c.parent, (j) => layout.cu[j]),
+    cv: Float64Array.from(c.parent, (j) => layout.cv[j]),
+    radius: Float64Array.from(c.parent, (j) => layout.radius[j]),
+    start: c.start,
+    index: c.index,
+    occupied,
+  };
+  return {
+    layout: cutLayoutOut,
+    data: { u, v, values, sqrtW, s: data.s },
+    cut: { lines, cellTarget, domain, extra, parent: c.parent, side: c.side, report: c.report, onLine, faces, constant: [], constantSe: [] },
+  };
 }
 
 function stage(input: LocalInput): Stage {
   const s = settings(input.options);
   const { prep } = input;
   const minPoints = Math.max(s.minPoints, trendTerms(input.trendOpt === "auto" ? "quadratic" : input.trendOpt) + 2);
-  const layout = buildPatches(prep.u, prep.v, { leafPoints: s.leafPoints, minPoints, overlap: s.overlap });
-  const data: PatchData = { u: prep.u, v: prep.v, values: prep.values, sqrtW: prep.sqrtW, s: prep.s };
+  let layout = buildPatches(prep.u, prep.v, { leafPoints: s.leafPoints, minPoints, overlap: s.overlap });
+  let data: PatchData = { u: prep.u, v: prep.v, values: prep.values, sqrtW: prep.sqrtW, s: prep.s };
+  let cut: Cut | null = null;
+  if (input.options.breaklines?.length) {
+    const m = trendTerms(input.trendOpt === "auto" ? "linear" : input.trendOpt);
+    ({ layout, data, cut } = cutStage(input, layout, data, minPoints, m));
+  }
   const needShape = input.shapeOpt === "auto" && input.candidates.some((c) => hasShape(c.kernel));
   const ranks = input.candidates.length > 1 || needShape;
-  return { input, settings: s, layout, data, groups: kernelGroups(input.candidates), samples: ranks ? samplePatches(layout, SAMPLE_PATCHES) : [] };
+  return { input, settings: s, layout, data, groups: kernelGroups(input.candidates), samples: ranks ? samplePatches(layout, SAMPLE_PATCHES) : [], cut };
 }
 
 function geometryOf(layout: PatchLayout): (j: number) => PatchGeometry {
@@ -304,7 +420,20 @@ function assemble(st: Stage, choice: Choice, blocks: PatchBlock[]): LocalModel {
   // Patches whose points cannot carry the model (on a line, too few for the trend): enlarge and
   // refit, in patch order in this thread, so the result does not depend on the workers.
   let enlarged = 0;
-  if (failed.length) {
+  if (failed.length && st.cut) {
+    // A side that cannot carry the model keeps its own level (constantPatch): growing its disc would
+    // reach across the line.
+    for (const f of failed) {
+      const members = layout.index.subarray(layout.start[f.patch], layout.start[f.patch + 1]);
+      const r = constantPatch(data, { cu: layout.cu[f.patch], cv: layout.cv[f.patch], radius: layout.radius[f.patch], members }, m);
+      st.cut.constant.push(f.patch);
+      st.cut.constantSe.push(r.se);
+      scalars.set(r.scalars, f.patch * SCALARS);
+      trendCoef.set(r.trend, f.patch * m);
+      member[f.patch] = r.members;
+      lists[f.patch] = members;
+    }
+  } else if (failed.length) {
     const index = pointIndex(data.u, data.v);
     failed.sort((a, b) => a.patch - b.patch);
     for (const f of failed) {
@@ -336,9 +465,11 @@ function assemble(st: Stage, choice: Choice, blocks: PatchBlock[]): LocalModel {
   const home = new Int32Array(n).fill(-1);
   const homeD = new Float64Array(n).fill(Infinity);
   const homeK = new Int32Array(n);
+  const report = st.cut?.report;
   for (let j = 0; j < p; j++) {
     for (let k = start[j]; k < start[j + 1]; k++) {
       const i = index[k];
+      if (report && !report[k]) continue;
       psi[k] = patchWeight(data.u[i], data.v[i], layout.cu[j], layout.cv[j], layout.radius[j]);
       total[i] += psi[k];
       const du = data.u[i] - layout.cu[j], dv = data.v[i] - layout.cv[j];
@@ -356,6 +487,7 @@ function assemble(st: Stage, choice: Choice, blocks: PatchBlock[]): LocalModel {
   for (let j = 0; j < p; j++) {
     for (let k = start[j]; k < start[j + 1]; k++) {
       const i = index[k];
+      if (report && !report[k]) continue;
       const w = psi[k] / total[i];
       fitted[i] += w * fieldOf(k, j, 1);
       loo[i] += w * fieldOf(k, j, 2);
@@ -364,8 +496,15 @@ function assemble(st: Stage, choice: Choice, blocks: PatchBlock[]): LocalModel {
       pointSe[i] += w * patchOf(j, 1) * Math.sqrt(Math.max(patchOf(j, 9) * patchOf(j, 3) * fieldOf(k, j, 4) / fieldOf(k, j, 6), 0));
     }
   }
+  // Data points a 3-D line point stands for: on the line, which the surface passes through.
+  for (let i = 0; i < n; i++) {
+    if (home[i] >= 0) continue;
+    fitted[i] = prep.values[i];
+    loo[i] = NaN;
+    hat[i] = 1;
+  }
   // Observation weights as fitted: the user's, times the home patch's robustness weight (mean 1).
-  const robustWeight = options.robust ? Float64Array.from({ length: n }, (_, i) => fieldOf(homeK[i], home[i], 5)) : null;
+  const robustWeight = options.robust ? Float64Array.from({ length: n }, (_, i) => (home[i] >= 0 ? fieldOf(homeK[i], home[i], 5) : 1)) : null;
   let omega: Float64Array | null = null;
   if (prep.sqrtW || robustWeight) {
     omega = Float64Array.from({ length: n }, (_, i) => (prep.sqrtW ? prep.sqrtW[i] ** 2 : 1) * (robustWeight ? robustWeight[i] : 1));
@@ -399,8 +538,8 @@ function assemble(st: Stage, choice: Choice, blocks: PatchBlock[]): LocalModel {
   const flagged: number[] = [];
   for (let i = 0; i < n; i++) {
     const j = home[i];
-    tau[i] = fieldOf(homeK[i], j, 3);
-    if (Math.abs(tau[i]) > critical(patchOf(j, 8))) flagged.push(i);
+    tau[i] = j >= 0 ? fieldOf(homeK[i], j, 3) : NaN;
+    if (j >= 0 && Math.abs(tau[i]) > critical(patchOf(j, 8))) flagged.push(i);
   }
   flagged.sort((a, b) => Math.abs(tau[b]) - Math.abs(tau[a]) || a - b);
   const usedCritical = [...new Set(Array.from({ length: p }, (_, j) => critical(patchOf(j, 8))))].filter(Number.isFinite);
@@ -431,7 +570,14 @@ function assemble(st: Stage, choice: Choice, blocks: PatchBlock[]): LocalModel {
   if (held) warnings.push(`${held} of ${p} patches hold λ at the numerical floor (GCV asked for less smoothing than double precision resolves there)`);
   if (raised) warnings.push(`${raised} of ${p} patches raised the given smoothing to their numerical floor so that their systems stay stable`);
   if (enlarged) warnings.push(`${enlarged} patches were enlarged because their points could not carry the ${choice.model.trend} trend`);
-  if (looN < n) warnings.push(`${n - looN} points have no leave-one-out residual (without them a patch cannot carry the ${choice.model.trend} trend)`);
+  const onLine = st.cut ? st.cut.onLine.reduce((a, x) => a + x, 0) : 0;
+  if (st.cut) {
+    // Points on no side of any disc (between lines closer than the side raster resolves).
+    let lost = 0;
+    for (let i = 0; i < n; i++) if (home[i] < 0 && !st.cut.onLine[i]) lost++;
+    if (lost) warnings.push(`${lost} points lie between breaklines closer together than the sides are resolved (a quarter of the median spacing); their fitted value is their reading`);
+  }
+  if (looN < n - onLine) warnings.push(`${n - onLine - looN} points have no leave-one-out residual (without them a patch cannot carry the ${choice.model.trend} trend)`);
   if (condition > 1e10) warnings.push(`a patch system is close to ill-conditioned (condition estimate ${condition.toExponential(2)})`);
   if (robustWeight && !converged) warnings.push(`the robust fit did not settle in ${passes} passes in every patch; its weights may still change`);
 
@@ -454,7 +600,7 @@ function assemble(st: Stage, choice: Choice, blocks: PatchBlock[]): LocalModel {
     consensus: choice.consensus,
   };
   const weights = new Float64Array(index.length);
-  const memberWeights = omega ? new Float64Array(index.length) : null;
+  const memberWeights = omega || st.cut ? new Float64Array(index.length) : null;
   for (let j = 0; j < p; j++) {
     for (let k = start[j]; k < start[j + 1]; k++) {
       weights[k] = fieldOf(k, j, 0);
@@ -529,7 +675,23 @@ function assemble(st: Stage, choice: Choice, blocks: PatchBlock[]): LocalModel {
       memberWeights: memberWeights ? Array.from(memberWeights) : null,
       trendCoefficients: Array.from(trendCoef),
       pointStdErrors: Array.from(pointSe),
+      ...(st.cut ? { breaklines: breaklinePart(st.cut) } : {}),
     },
   };
   return model;
+}
+
+/** The model's record of the breaklines and the sides (model/local.ts, BreaklinePart). */
+function breaklinePart(cut: Cut): BreaklinePart {
+  return {
+    lines: cut.lines.map((l) => ({ name: l.name, x: l.x.slice(), y: l.y.slice(), z: l.z ? l.z.slice() : null })),
+    cellTarget: cut.cellTarget,
+    domain: cut.domain.slice(),
+    faces: cut.faces,
+    points: { x: cut.extra.x.slice(), y: cut.extra.y.slice(), z: cut.extra.z.slice() },
+    lineWeight: LINE_WEIGHT,
+    parent: Array.from(cut.parent),
+    side: Array.from(cut.side),
+    constant: cut.constant.map((j, k) => ({ patch: j, se: Number.isFinite(cut.constantSe[k]) ? cut.constantSe[k] : null })),
+  };
 }

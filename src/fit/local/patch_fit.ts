@@ -256,3 +256,39 @@ export function rankPatch(data: PatchData, g: PatchGeometry, groups: KernelGroup
 export function patchFailure(j: number, message: string): RbfieldError {
   return new RbfieldError(`the local fit failed on patch ${j + 1} even after enlarging it: ${message}`, ExitCode.numerical);
 }
+
+/**
+ * A side of a patch cut by breaklines whose points cannot carry the model (too few for the trend):
+ * the weighted mean of its values (RBF weights 0, trend coefficients 0, zc the mean), so the side
+ * keeps its own level and borrows nothing from across the line. Hat diagonal ωᵢ/Σω; leave-one-out
+ * residual yᵢ − mean of the others.
+ */
+export function constantPatch(data: PatchData, g: PatchGeometry, m: number): { scalars: number[]; trend: Float64Array; members: Float64Array; se: number } {
+  const n = g.members.length;
+  let sw = 0, swy = 0;
+  for (const i of g.members) {
+    const w = data.sqrtW ? data.sqrtW[i] ** 2 : 1;
+    sw += w;
+    swy += w * data.values[i];
+  }
+  const mean = swy / sw;
+  const out = new Float64Array(n * MEMBER_FIELDS);
+  g.members.forEach((i, k) => {
+    const w = data.sqrtW ? data.sqrtW[i] ** 2 : 1;
+    const o = k * MEMBER_FIELDS;
+    out[o] = 0;
+    out[o + 1] = mean;
+    out[o + 2] = sw - w > 0 ? data.values[i] - (swy - w * data.values[i]) / (sw - w) : NaN;
+    out[o + 3] = NaN;
+    out[o + 4] = w / sw;
+    out[o + 5] = 1;
+    out[o + 6] = w;
+  });
+  const scalars = [mean, 1, 1, 0, 0, 1, 0, CHOICES.indexOf("gcv"), Math.max(n - 1, 0), 0, 0, 1, 0];
+  // Its standard error: the weighted spread of the side's values about their mean (a level is all
+  // this side can say), NaN for a single point.
+  let ss = 0;
+  for (const i of g.members) ss += (data.sqrtW ? data.sqrtW[i] ** 2 : 1) * (data.values[i] - mean) ** 2;
+  const se = n > 1 ? Math.sqrt(ss / sw * n / (n - 1)) : NaN;
+  return { scalars, trend: new Float64Array(m), members: out, se };
+}

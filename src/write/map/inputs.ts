@@ -52,6 +52,9 @@ export function mapInputFromModel(model: SurfaceModel, grid: GridValues, o: Mode
     ...(shown.length < pts.x.length ? { pointsTotal: pts.x.length } : {}),
     outline: o.outline ?? [model.hull],
     outlineLabel: o.outlineLabel ?? (o.outline ? "Mask outline" : "Data outline (convex hull)"),
+    ...(model.method === "local" && model.local.breaklines
+      ? { breaklines: model.local.breaklines.lines.map((l) => l.x.map((x, k) => [x, l.y[k]] as [number, number])) }
+      : {}),
     title: o.title ?? `${model.source.z} surface, ${model.source.file}`,
     dataFile: model.source.file,
     date: o.date,

@@ -102,5 +102,8 @@ export function symbolRows(input: MapInput, options: MapOptions, u: number, inde
   if (input.outline?.length) {
     rows.push({ label: input.outlineLabel ?? "Data outline", symbol: line(0.25, `${n(1.6 * u, 3)} ${n(0.9 * u, 3)}`) });
   }
+  if (input.breaklines?.length) {
+    rows.push({ label: "Breakline (the surface is fitted on each side)", symbol: line(0.5, `${n(3 * u, 3)} ${n(0.6 * u, 3)} ${n(0.4 * u, 3)} ${n(0.6 * u, 3)}`) });
+  }
   return rows;
 }

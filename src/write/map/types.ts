@@ -29,6 +29,8 @@ export interface MapInput {
   outline?: [number, number][][];
   /** Legend text for the outline, e.g. "Data outline (convex hull)". */
   outlineLabel?: string;
+  /** Breaklines the surface was fitted with (open polylines, map coordinates). */
+  breaklines?: [number, number][][];
   title: string;
   dataFile: string;
   /** Date as printed (given by the caller, so output is byte-identical for the same inputs). */
