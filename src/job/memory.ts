@@ -7,6 +7,7 @@
 // Measured 2026-12-02 on the 2-core machine with other work running; the engine's garbage collector
 // makes a peak vary by up to 30 % between runs of the same job, hence the margins.
 import * as fs from "node:fs";
+import process from "node:process";
 import { ExitCode, opt, RbfieldError } from "../errors.ts";
 import { LOCAL_AUTO_POINTS } from "../fit/surface.ts";
 import { DEFAULT_PATCH_POINTS } from "../fit/local/local.ts";
@@ -217,7 +218,8 @@ function readNumber(file: string, pattern: RegExp): number | undefined {
 
 /**
  * The machine's memory as this process may use it: Deno.systemMemoryInfo() when the sys permission
- * is granted, else MemTotal from /proc/meminfo (Linux; read permission, which the command line has),
+ * is granted (the command line asks for --allow-sys=systemMemoryInfo: Deno reads /proc only with
+ * --allow-all), else MemTotal from /proc/meminfo where readable,
  * and a smaller cgroup limit (containers: /sys/fs/cgroup/memory.max, or memory.limit_in_bytes of
  * cgroup v1). Undefined when none of these is readable.
  */
@@ -287,8 +289,16 @@ export function fmtBytes(bytes: number, compact = false): string {
   return `${Math.max(1, Math.round(bytes / MiB))}${sep}MiB`;
 }
 
-/** The largest resident set of this process so far (VmHWM, Linux), or null where it cannot be read. */
+/**
+ * The largest resident set of this process so far: getrusage's ru_maxrss (node:process
+ * resourceUsage().maxRSS, in KiB on Linux; no permission needed), else VmHWM of /proc/self/status
+ * (Linux, where readable), else null.
+ */
 export function peakResidentBytes(): number | null {
+  try {
+    const kib = process.resourceUsage().maxRSS;
+    if (Number.isFinite(kib) && kib > 0) return kib * 1024;
+  } catch { /* not on this platform */ }
   const kb = readNumber("/proc/self/status", /^VmHWM:\s+(\d+)\s+kB/m);
   return kb === undefined ? null : kb * 1024;
 }
