@@ -2,6 +2,7 @@
 // neither vanish nor turn negative, the blunder test and the robust fit. Each check names its
 // outside source: explicit formulas evaluated with ml-matrix (a general-purpose linear algebra
 // library), published definitions, scipy (Debian python3-scipy), or analytic facts.
+import { makeExtrapolationCheck } from "../src/evaluate/extrapolation.ts";
 import { execFileSync } from "node:child_process";
 import { describe, expect, it } from "vitest";
 import { inverse, Matrix } from "ml-matrix";
@@ -317,5 +318,18 @@ describe("extrapolation said out loud (evaluate/extrapolation.ts)", () => {
     const text = estimateSummaryLines(est, model).join("\n");
     expect(text).toMatch(/2 outside the data hull/);
     expect(text).toMatch(/WARNING: 1 estimate lies far outside the range of the readings \(line 4\)/);
+  });
+
+  it("for values fitted as logarithms, the range is the logarithms' range", () => {
+    // Readings between about 0.5 and 50: half the range of their logarithms (about 2.3) beyond them
+    // reaches down to about 0.05 and up to about 500. 0.2 and 100 are inside; 0.01, 2·10⁻⁶ and
+    // 5,000 are outside (on a linear scale the margin of half of 0.5…50 would have let 0.01 and
+    // 2·10⁻⁶ pass), and so is any value ≤ 0.
+    const pts = site(120, 53, (u, v) => Math.exp(Math.log(0.5) + (Math.log(100) * (u + v)) / 2), 0.01);
+    const model = fitSurface(pts, { kernel: "thin-plate", transform: "log" });
+    const check = makeExtrapolationCheck(model);
+    expect(check.range.lo).toBeGreaterThan(0.45);
+    expect(check.range.hi).toBeLessThan(55);
+    expect([0.2, 100, 0.01, 2e-6, 5000, 0, -1].map((v) => check.outOfRange(v))).toEqual([false, false, true, true, true, true, true]);
   });
 });

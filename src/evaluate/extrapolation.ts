@@ -6,7 +6,10 @@ import type { SurfaceModel } from "../model/model.ts";
 
 /** An estimate farther than this many median point spacings from the nearest reading is "far from data". */
 export const FAR_SPACINGS = 3;
-/** An estimate beyond the readings' range by more than this fraction of the range is "outside the range". */
+/**
+ * An estimate beyond the readings' range by more than this fraction of the range is "outside the
+ * range" (for a model of logarithms, of the range of the logarithms).
+ */
 export const RANGE_MARGIN = 0.5;
 
 export interface ExtrapolationCheck {
@@ -27,7 +30,12 @@ export function makeExtrapolationCheck(model: SurfaceModel): ExtrapolationCheck 
     lo = Math.min(lo, v);
     hi = Math.max(hi, v);
   }
-  const margin = RANGE_MARGIN * (hi - lo);
+  // Values fitted as logarithms are compared in logarithms: 10⁻⁶ mg/l beside readings of 0.5–50 is
+  // as far outside their range as 10⁵ is (a value ≤ 0 cannot come from such a model and is outside).
+  const log = model.transform === "log" && lo > 0;
+  const scale = log ? Math.log : (v: number) => v;
+  const slo = scale(lo), shi = scale(hi);
+  const margin = RANGE_MARGIN * (shi - slo);
   const e = model.extent;
   const onEdge = 1e-9 * Math.max(e.xmax - e.xmin, e.ymax - e.ymin, 1e-300);
   return {
@@ -38,7 +46,7 @@ export function makeExtrapolationCheck(model: SurfaceModel): ExtrapolationCheck 
       const outsideHull = !pointInRing(px, py, model.hull) && distanceToRing(px, py, model.hull) > onEdge;
       return { distance, outsideHull, far: distance > farDistance };
     },
-    outOfRange: (v) => v < lo - margin || v > hi + margin,
+    outOfRange: (v) => (log && !(v > 0)) || scale(v) < slo - margin || scale(v) > shi + margin,
     farDistance,
     range: { lo, hi },
   };
