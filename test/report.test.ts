@@ -203,3 +203,21 @@ describe("the report verb", () => {
     }
   });
 });
+
+describe("the report of a local-method model", () => {
+  // The local method chooses λ in each patch by GCV: the report says so (no single curve, never
+  // "smoothing given") and names the method and its patches in the model table.
+  it("names the method and its patches, and says λ was chosen per patch", () => {
+    const pts = makePoints(400, 11, (x, y) => 50 + 10 * franke((x - 600_000) / 100, (y - 4_100_000) / 100), 600_000, 4_100_000, 100);
+    const local = fitSurface(pts, { method: "local", kernel: "thin-plate", trend: "linear" });
+    const page = renderReport({
+      model: local,
+      map: mapInputFromModel(local, gridModel(local, { cell: 2 }), { rule: intervalRule(1), date: "2026-01-31" }),
+      title: "local",
+      date: "2026-01-31",
+    });
+    expect(page).toMatch(/<td>Method<\/td><td>local \(partition of unity\): \d+ patches of \d+–\d+ points/);
+    expect(page).toContain("λ was chosen by GCV in each patch of the local method");
+    expect(page).not.toContain("smoothing given");
+  });
+});

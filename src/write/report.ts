@@ -17,6 +17,7 @@ import { escapeXml } from "./map/svg.ts";
 import { evenSample } from "./map/sample.ts";
 import { FONT_STACK } from "./map/text.ts";
 import { KERNEL_TABLE } from "../fit/kernels.ts";
+import { breaklineText, localPatchText } from "./summary.ts";
 
 export interface ReportInput {
   model: SurfaceModel;
@@ -119,7 +120,7 @@ export function renderReport(input: ReportInput): string {
       id: "standard-error",
       title: "Standard error of the estimate",
       html: `<p class="note">How far the surface may be from the true one under the model, from ${esc(formatUncertainty(lo, MINUS))} to ${esc(formatUncertainty(hi, MINUS))}${esc(unit ? ` ${unit}` : "")}. ` +
-        `It grows away from the readings. A model-based figure, not a survey tolerance: a new reading would scatter by a further σ = ${esc(withUnit(d.sigma))}.</p>` +
+        `It grows away from the readings. A model-based figure, not a survey tolerance: a new reading would scatter by a further ${model.transform === "log" ? `factor of about exp(σ) = ${esc(sig(Math.exp(d.sigma), 3))} (σ = ${esc(withUnit(d.sigma))})` : `σ = ${esc(withUnit(d.sigma))}`}.</p>` +
         (hi >= lo ? inlineSheet(renderMap(seMap, { ...sheet, shade: false, pointColour: "plain", idPrefix: "se-" })) : "<p>No unmasked cells.</p>"),
     });
   }
@@ -128,6 +129,8 @@ export function renderReport(input: ReportInput): string {
   const kernelText = KERNEL_TABLE[model.kernel]?.text ?? model.kernel;
   const smoothing = d.smoothingChoice === "gcv" ? "chosen by GCV" : d.smoothingChoice === "given" ? "given" : "given, raised for numerical stability";
   const modelRows: [string, string][] = [
+    ["Method", localPatchText(model) ? `local (partition of unity): ${localPatchText(model)}` : "global (one fit to every point)"],
+    ...(breaklineText(model) ? [["Breaklines", breaklineText(model)!] as [string, string]] : []),
     ["Kernel", kernelText],
     ["Shape ε", model.shape === null ? "none (scale-free kernel)" : `${sig(model.shape)} ${perUnitText(model.crs)} (${d.shapeChoice === "auto" ? "chosen by GCV" : "given"})`],
     ["Trend", trendOf(model)],
@@ -161,10 +164,14 @@ export function renderReport(input: ReportInput): string {
   // ---- Selection ----
   const chosen = { lambda: model.lambda, gcv: d.gcv };
   let selection = gcvChart(d.gcvCurve, chosen, ru ? (ru === "log units" ? " (log units²)" : ` (${ru}²)`) : "");
-  if (!selection) selection = `<p class="note">No GCV curve in the model (smoothing given).</p>`;
+  if (!selection) {
+    selection = localPatchText(model)
+      ? `<p class="note">λ was chosen by GCV in each patch of the local method (from ${esc(sig(d.local!.lambda.min))} to ${esc(sig(d.local!.lambda.max))}): there is no single GCV curve.</p>`
+      : `<p class="note">No GCV curve in the model (smoothing given).</p>`;
+  }
   if (d.selection) {
     const by = d.selection.by === "gcv" ? "GCV score" : d.selection.by === "loocv" ? "leave-one-out RMSE" : "leave-one-out RMSE, simplest within one standard error of the best";
-    selection += `<h3>Candidate models</h3><p class="note">Ranked by ${esc(by)}${d.selection.onSubsample ? `, on a ${d.selection.onSubsample}-point subsample` : ""}; the chosen model is marked.</p>` +
+    selection += `<h3>Candidate models</h3><p class="note">Ranked by ${esc(by)}${d.selection.onSubsample ? (d.local?.consensus ? `, on ${d.local.consensus.samples} sample patches of the local method (${d.selection.onSubsample} patch members pooled; the patches overlap, so a point may count more than once)` : `, on a ${d.selection.onSubsample}-point subsample`) : ""}; the chosen model is marked.</p>` +
       table(
         ["", "kernel", "trend", "shape ε", "λ", "edf", "GCV", `LOO RMSE${ruText}`, "± SE", "note"],
         d.selection.ranking.map((c) => [

@@ -61,6 +61,26 @@ function labelOfLine(model: SurfaceModel): (line: number) => string {
   return (line) => (at.has(line) ? pointLabel(model, at.get(line)!) : `line ${line}`);
 }
 
+/** The local method's patches in words (summary and report), or null for a global model. */
+export function localPatchText(model: SurfaceModel): string | null {
+  const l = model.diagnostics.local;
+  if (!l) return null;
+  return `${l.patches} patches of ${l.pointsPerPatch.min}–${l.pointsPerPatch.max} points (median ${fmt(l.pointsPerPatch.median)}) blended with Wendland weights; ` +
+    `λ by GCV in each patch from ${fmt(l.lambda.min)} to ${fmt(l.lambda.max)}`;
+}
+
+/** A breakline model's lines and sides in words (summary and report), or null without breaklines. */
+export function breaklineText(model: SurfaceModel): string | null {
+  const bl = model.method === "local" ? model.local.breaklines : undefined;
+  if (!bl) return null;
+  const sidesOf = new Map<number, number>();
+  for (const d of bl.parent) sidesOf.set(d, (sidesOf.get(d) ?? 0) + 1);
+  const cut = [...sidesOf.values()].filter((c) => c > 1).length;
+  const three = bl.lines.filter((l) => l.z).length;
+  return `${bl.lines.length} (${three} 3-D, ${bl.lines.length - three} 2-D barriers); ${cut} of ${sidesOf.size} patch discs cut into sides, each side fitted on its own ` +
+    `(3-D lines add ${bl.points.x.length} points along them, near-exact; on a 3-D line the surface is the line's linear interpolation)`;
+}
+
 /** Lines describing the model and its diagnostics. */
 export function modelSummaryLines(model: SurfaceModel): string[] {
   const d = model.diagnostics;
@@ -76,7 +96,7 @@ export function modelSummaryLines(model: SurfaceModel): string[] {
       `Selection: ${sel.ranking.length} candidate models ranked by ${byText}` +
         (sel.onSubsample
           ? model.method === "local" && d.local?.consensus
-            ? ` on the ${sel.onSubsample} points of ${d.local.consensus.samples} sample patches (leave-one-out errors pooled)`
+            ? ` on ${d.local.consensus.samples} sample patches (${sel.onSubsample} patch members pooled; the patches overlap, so a point may count more than once)`
             : ` on a ${sel.onSubsample}-point subsample`
           : "") + " (best first):",
     );
@@ -106,10 +126,7 @@ export function modelSummaryLines(model: SurfaceModel): string[] {
   if (d.methodChoice) lines.push(`  ${d.methodChoice}`);
   if (d.local) {
     const l = d.local;
-    lines.push(
-      `  ${l.patches} patches of ${l.pointsPerPatch.min}–${l.pointsPerPatch.max} points (median ${fmt(l.pointsPerPatch.median)}) blended with Wendland weights; ` +
-        `λ by GCV in each patch from ${fmt(l.lambda.min)} to ${fmt(l.lambda.max)} (the λ below is their median)`,
-    );
+    lines.push(`  ${localPatchText(model)!} (the λ below is their median)`);
     if (l.lambdaByLeaveOneOut) {
       lines.push(`  ${l.lambdaByLeaveOneOut} patches had two GCV minima (near-coincident readings); their λ was taken where the leave-one-out error is smaller`);
     }
@@ -117,15 +134,7 @@ export function modelSummaryLines(model: SurfaceModel): string[] {
   }
   const bl = model.method === "local" ? model.local.breaklines : undefined;
   if (bl) {
-    const sidesOf = new Map<number, number>();
-    for (const d of bl.parent) sidesOf.set(d, (sidesOf.get(d) ?? 0) + 1);
-    const discs = sidesOf.size;
-    const cut = [...sidesOf.values()].filter((c) => c > 1).length;
-    const three = bl.lines.filter((l) => l.z).length;
-    lines.push(
-      `  breaklines: ${bl.lines.length} (${three} 3-D, ${bl.lines.length - three} 2-D barriers); ${cut} of ${discs} patch discs cut into sides, each side fitted on its own ` +
-        `(3-D lines add ${bl.points.x.length} points along them, near-exact; on a 3-D line the surface is the line's linear interpolation)`,
-    );
+    lines.push(`  breaklines: ${breaklineText(model)!}`);
     if (bl.faces) lines.push(`  vertical faces: ${bl.faces} places where two 3-D lines share a position with different levels; each side keeps its own level`);
     if (bl.constant.length) lines.push(`  ${bl.constant.length} sides too small for the ${model.trend} trend were fitted as their mean level`);
     const shots = model.looStandardised.filter((t, i) => t === null && model.loo[i] === null).length;
