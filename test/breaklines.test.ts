@@ -99,6 +99,19 @@ describe("analytic surfaces: the error next to the line falls by an order of mag
     expect(worst).toBeLessThan(1e-6 * 1.6);
   });
 
+  it("the standard error on a 3-D line is at least the fit's noise σ, never 0 (the line's levels are shots)", () => {
+    // The fits take a line's levels as exact; a shot's level is as good as the survey's noise, so on
+    // the line the standard error is at least σ (common practice: a surveyed level carries its own
+    // tolerance).
+    const f = (x: number, y: number) => Math.abs(x) + g(x, y);
+    const ridge = line3d("ridge", 0, f);
+    const model = fitSurface(pointsOf(f), { breaklines: [ridge], kernel: "thin-plate", trend: "linear" });
+    const se = makeErrorEstimator(model);
+    const sigma = model.diagnostics.sigma;
+    expect(sigma).toBeGreaterThan(0);
+    for (const y of [-0.5, 0, 0.37]) expect(se.at(0, y)).toBeGreaterThanOrEqual(sigma);
+  });
+
   it("a step (fault) z = g + H(x) with a 2-D barrier line: band error ÷ ≥ 10", () => {
     const f = (x: number, y: number) => g(x, y) + (x < 0 ? 0 : 1);
     const fault = { name: "fault", x: [0, 0], y: [-1.5, 1.5], z: null };
@@ -256,6 +269,33 @@ describe("coded strings and vertical faces", () => {
     }
   });
 
+  it("a file without a header row: --strings code=… names the --code column, --strings 5=… its position (README 'Breaklines and strings')", async () => {
+    const tmp = fs.mkdtempSync(path.join(os.tmpdir(), "rbfield-bl-"));
+    try {
+      // The figure of eight above as a data-collector export: point, y, x, z, code (no header; codes recur).
+      const rows: string[] = [];
+      let id = 1000;
+      for (let i = 0; i < 5; i++) for (let j = 0; j < 5; j++) rows.push(`${id++},${j * 10},${i * 10},${(i + j) / 10},GS`);
+      for (const [x, y] of [[5, 5], [25, 25], [25, 5], [5, 25]]) rows.push(`${id++},${y},${x},1,K`);
+      const file = path.join(tmp, "export.csv");
+      fs.writeFileSync(file, rows.join("\n") + "\n");
+      const out = path.join(tmp, "m.rbfield.json");
+      const base = ["fit", file, "--crs", "local:m", "--x", "3", "--y", "2", "--z", "4", "--out", out];
+      // The strings are found (their crossing is reported), so the column was: not "column 'code' not found".
+      for (const extra of [["--code", "5", "--strings", "code=K"], ["--strings", "5=K"]]) {
+        const r = await cli([...base, ...extra]);
+        expect(r.code, r.err).toBe(ExitCode.input);
+        expect(r.err).toMatch(/line 28: string K 1 \(lines 26–29\) crosses itself/);
+      }
+      // Without --code nothing names a code column in a file without names.
+      const r = await cli([...base, "--strings", "code=K"]);
+      expect(r.err).toContain("--strings column 'code' not found");
+      expect(fs.existsSync(out)).toBe(false);
+    } finally {
+      fs.rmSync(tmp, { recursive: true, force: true });
+    }
+  });
+
   it("keeps a kerb top and a channel shot at one position apart (faceKey), merging others as before", () => {
     const table = {
       file: "t.csv", format: "csv", columns: ["x", "y", "z"], hasHeader: true, xColumn: 0, yColumn: 1, zColumn: 2, unusable: [],
@@ -308,6 +348,15 @@ describe("coded strings and vertical faces", () => {
         expect(Math.abs(e1.at(x, 29.8) - heronLevel(x, 29.8))).toBeLessThan(0.02);
         expect(Math.abs(e1.at(x, 30.2) - heronLevel(x, 30.2))).toBeLessThan(0.02);
       }
+      // At the string shots themselves the standard error is about the fit's σ, not 0 (their levels
+      // are taken as exact by the fits; a shot is as good as the survey's noise). Kerb lines sit a
+      // hair off their shots (a vertical face's two lines are moved 0.5 % of the spacing apart), so
+      // the taper there is just below 1.
+      const se = makeErrorEstimator(model);
+      const ids = model.points.text?.find((t) => t.role === "code")?.values ?? [];
+      const shots = ids.flatMap((c, i) => (c === "KT" ? [i] : [])).slice(0, 5);
+      expect(shots.length).toBe(5);
+      for (const i of shots) expect(se.at(model.points.x[i], model.points.y[i])).toBeGreaterThan(0.95 * model.diagnostics.sigma);
     } finally {
       fs.rmSync(tmp, { recursive: true, force: true });
     }

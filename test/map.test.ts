@@ -102,8 +102,9 @@ const num = (s: string) => Number(s.replace("\u2212", "-"));
 /** Paper ↔ ground from two labelled ticks on each axis (what a reader does with a ruler). */
 function groundMapping(svg: string) {
   const all = texts(svg);
+  // The i-th labelled tick of an axis (labels too close to the frame's corners are left out).
   const tick = (axis: "x" | "y", i: number) => {
-    const t = all.find((e) => e.a.id === `tick-${axis}-${i}`)!;
+    const t = all.filter((e) => e.a.id?.startsWith(`tick-${axis}-`))[i];
     return { at: Number(axis === "x" ? t.a.x : t.a.y), value: num(t.text) };
   };
   const x0 = tick("x", 0), x1 = tick("x", 1), y0 = tick("y", 0), y1 = tick("y", 1);
@@ -438,5 +439,21 @@ describe("the colour scale of log-spaced values", () => {
     // A linear scale on [0, 100] puts 40 at 0.4 of its length (ticks every 20).
     const linear = colourRamp(x, 0, width, [0, 100], "values", "", 1, "l").svg;
     expect(linear).toMatch(new RegExp(`<text x="${x + 0.4 * width}"[^>]*>40<`));
+  });
+});
+
+describe("the grid of a map or report drawn from a model", () => {
+  // Four cells per millimetre across a 250 mm frame is finer than print shows (a 0.25 mm cell; common
+  // practice in cartography to sample a raster near the output resolution): without a cell given,
+  // a dense survey's map is drawn on about 1000 cells along its longer side, a sparse one's on its
+  // default cell. Fake models carry what the layout reads: extent, spacing, hull.
+  it("is no finer than about 1000 cells along the longer side", async () => {
+    const { drawingCell, defaultCell } = await import("../src/evaluate/grid.ts");
+    const fake = (spacing: number) => ({ extent: { xmin: 0, ymin: 0, xmax: 1000, ymax: 600 }, spacing, hull: [[0, 0], [1000, 0], [1000, 600], [0, 600], [0, 0]] }) as never;
+    // 200,000 points 0.5 m apart: default cell 0.25 m (4000 × 2400 cells); drawn at 1 m (1000 × 600).
+    expect(defaultCell(fake(0.5))).toBe(0.25);
+    expect(drawingCell(fake(0.5))).toBe(1);
+    // A sparse survey (40 m apart): its default 5 m cell stays.
+    expect(drawingCell(fake(40))).toBe(5);
   });
 });

@@ -20,6 +20,21 @@ export function defaultCell(model: SurfaceModel): number {
   return niceFloor(Math.min(model.spacing / 2 || side / 200, side / 200));
 }
 
+/**
+ * Cells along the longer side of a grid made only to be drawn — `map` or `report` from a model without
+ * `cell` — about four per millimetre across a 250 mm map frame: finer cells cannot be seen on the
+ * sheet and only cost time (a 200,000-point model's default grid has 12 million cells).
+ */
+export const DRAWING_CELLS = 1000;
+
+/** The cell of a grid made only to be drawn: the default cell, or coarser so the longer side has about DRAWING_CELLS cells. */
+export function drawingCell(model: SurfaceModel, options: GridLayoutOptions = {}): number {
+  const cell = defaultCell(model);
+  const spec = gridLayout(model, { ...options, cell });
+  const side = Math.max(spec.xmax - spec.xmin, spec.ymax - spec.ymin);
+  return Math.max(cell, niceFloor(side / DRAWING_CELLS));
+}
+
 export interface GridLayoutOptions {
   cell?: number;
   /** [xmin, ymin, xmax, ymax], outer edges of the outer cells. */

@@ -71,7 +71,7 @@ export interface PackedSides {
  * step: β(0) = 1, β(1) = 0, β'(0) = β'(1) = 0, so the corrected surface keeps continuous slopes
  * wherever the nearest line point moves smoothly).
  */
-function taper(r: number): number {
+export function taper(r: number): number {
   return r < 1 ? (1 - r) * (1 - r) * (1 + 2 * r) : 0;
 }
 
@@ -397,7 +397,7 @@ export function subsetPatches(p: PackedLocal, patches: Int32Array): PackedLocal 
  * The nearest point of a 3-D line within δ (the side rasters' cell size, a quarter of the median
  * spacing) of a place in the scaled frame, with the line's level there; null when none is that near.
  */
-function nearestLine(sides: PackedSides): (u: number, v: number) => { u: number; v: number; d: number; level: number; delta: number } | null {
+export function nearestLine(sides: PackedSides): (u: number, v: number) => { u: number; v: number; d: number; level: number; delta: number } | null {
   const { seg, seg3, za, zb } = sides;
   const delta = sides.cellTarget;
   const index = new Flatbush(seg3.length);

@@ -36,7 +36,7 @@ import { kernelOfSquared, trendRow, weightedKernelMatrix } from "../fit/kernels.
 import { transformedValues } from "../fit/prepare.ts";
 import type { LocalModel } from "../model/model.ts";
 import type { TrendName } from "../types.ts";
-import { localBuffers, localEvaluator, makeBlender, type PackedLocal, packLocal, subsetPatches } from "./local.ts";
+import { localBuffers, localEvaluator, makeBlender, nearestLine, type PackedLocal, packLocal, subsetPatches, taper } from "./local.ts";
 import type { ErrorEstimator } from "./stderr.ts";
 
 /** Bytes of patch factors kept at once per thread (least recently used dropped first; job/memory.ts counts it). */
@@ -59,6 +59,12 @@ export interface PackedLocalErrors {
   /** Data points' map coordinates (to recognise a data point), empty with pointSe. */
   px: Float64Array;
   py: Float64Array;
+  /**
+   * With 3-D breaklines, the noise σ of the fit (log units for log fits), else 0: the fits take a
+   * line's levels as exact, so the standard error within δ of a line is raised to σ·β(d/δ) (the
+   * on-line correction's taper, evaluate/local.ts): on a line the surface is as good as a shot.
+   */
+  lineSigma: number;
 }
 
 export function packLocalErrors(model: LocalModel): PackedLocalErrors {
@@ -83,6 +89,7 @@ export function packLocalErrors(model: LocalModel): PackedLocalErrors {
     pointSe: withPoints ? Float64Array.from(l.pointStdErrors!) : new Float64Array(0),
     px: withPoints ? Float64Array.from(model.points.x) : new Float64Array(0),
     py: withPoints ? Float64Array.from(model.points.y) : new Float64Array(0),
+    lineSigma: b && b.lines.some((line) => line.z) ? model.diagnostics.sigma : 0,
   };
 }
 
@@ -246,6 +253,7 @@ export function localErrorEstimatorPacked(pe: PackedLocalErrors): ErrorEstimator
   };
 
   const estimate = packed.logBias ? localEvaluator(packed) : undefined;
+  const near = pe.lineSigma > 0 && packed.sides?.seg3.length ? nearestLine(packed.sides) : null;
   const work = localErrorWork(pe);
   return {
     processScale: NaN,
@@ -267,6 +275,11 @@ export function localErrorEstimatorPacked(pe: PackedLocalErrors): ErrorEstimator
           const { rest, b } = patchVariance(j, uv[0], uv[1]);
           se += blender.weights[c] * zs[j] * Math.sqrt(Math.max(b * rest, 0));
         }
+      }
+      if (near) {
+        blender.map(x, yy, uv);
+        const hit = near(uv[0], uv[1]);
+        if (hit) se = Math.max(se, pe.lineSigma * taper(hit.d / hit.delta));
       }
       if (!estimate) return se;
       // Lognormal back-transform, as for the global method (stderr.ts).
@@ -319,6 +332,7 @@ export function subsetLocalErrors(pe: PackedLocalErrors, patches: Int32Array, bo
     pointSe: Float64Array.from(inside, (i) => pe.pointSe[i]),
     px: Float64Array.from(inside, (i) => pe.px[i]),
     py: Float64Array.from(inside, (i) => pe.py[i]),
+    lineSigma: pe.lineSigma,
   };
 }
 

@@ -6,7 +6,7 @@ import { roundStepBelow } from "./format.ts";
 import { hex, paletteRgb, type PaletteName, scalePosition } from "./palette.ts";
 import { LOG_125, LOG_DECADES, logLevels } from "../levels.ts";
 import { el, escapeXml, n } from "./svg.ts";
-import { wrapText } from "./text.ts";
+import { textWidth, wrapText } from "./text.ts";
 
 export const INK = "#1a1a1a";
 export const MUTED = "#555555";
@@ -74,18 +74,26 @@ export function coordinateTicks(f: MapFrame, crsText: string, u: number, prefix:
   for (const gx of xs) {
     const [px] = toPaper(f, gx, 0);
     marks += `M${n(px, 3)} ${n(f.y, 3)}v${n(-tick, 3)}M${n(px, 3)} ${n(bottom, 3)}v${n(tick, 3)}`;
-    labels += text(px, bottom + tick + size * 1.05, formatFixed(gx, decimals, "-"), { size, anchor: "middle", id: `${prefix}tick-x-${xs.indexOf(gx)}` });
+    // A label that would reach past the frame's corner into the other edge's labels is left out.
+    const label = formatFixed(gx, decimals, "-");
+    const half = textWidth(label, size) / 2;
+    if (px - half < f.x - 0.5 * tick || px + half > right + 0.5 * tick) continue;
+    labels += text(px, bottom + tick + size * 1.05, label, { size, anchor: "middle", id: `${prefix}tick-x-${xs.indexOf(gx)}` });
   }
   for (const gy of ys) {
     const [, py] = toPaper(f, 0, gy);
     marks += `M${n(f.x, 3)} ${n(py, 3)}h${n(-tick, 3)}M${n(right, 3)} ${n(py, 3)}h${n(tick, 3)}`;
     const lx = f.x - tick - 0.6 * u;
-    labels += text(lx, py, formatFixed(gy, decimals, "-"), {
-      size,
-      anchor: "middle",
-      transform: `rotate(-90 ${n(lx, 3)} ${n(py, 3)})`,
-      id: `${prefix}tick-y-${ys.indexOf(gy)}`,
-    });
+    const label = formatFixed(gy, decimals, "-");
+    const half = textWidth(label, size) / 2;
+    if (py + half <= bottom + 0.5 * tick && py - half >= f.y - 0.5 * tick) {
+      labels += text(lx, py, label, {
+        size,
+        anchor: "middle",
+        transform: `rotate(-90 ${n(lx, 3)} ${n(py, 3)})`,
+        id: `${prefix}tick-y-${ys.indexOf(gy)}`,
+      });
+    }
     for (const gx of xs) {
       const [px] = toPaper(f, gx, 0);
       const c = 1.2 * u;

@@ -40,7 +40,7 @@ export function methodSummary(model: SurfaceModel, unit = ""): string {
     `Radial-basis-function regression: ${kernel} with ${trendOf(model)} trend`,
     model.shape === null ? "" : `shape ε = ${formatSignificant(model.shape)} ${perUnitText(model.crs)}`,
     `smoothing λ = ${formatSignificant(model.lambda)} (${d.smoothingChoice === "gcv" ? "by GCV" : "given"})`,
-    `${formatSignificant(d.edf)} effective degrees of freedom from ${d.n} points`,
+    `${formatSignificant(d.edf)} effective degrees of freedom from ${d.n.toLocaleString("en")} points`,
     `leave-one-out RMSE ${formatSignificant(d.loocvRmse, 3)}${ru ? ` ${ru}` : ""}`,
   ].filter((p) => p !== "");
   let text = parts.join("; ") + ".";

@@ -5,7 +5,7 @@
 // sample.
 
 /** Most survey points drawn on a map or in a chart. */
-export const MAX_DRAWN_POINTS = 5000;
+export const MAX_DRAWN_POINTS = 2000;
 
 /**
  * Indices of the points to draw, ascending: all of them up to `max`, else the first point of each
