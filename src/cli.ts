@@ -14,6 +14,7 @@ import {
   levelOptions,
   maskOption,
   maxMemoryOption,
+  optionError,
   pointsSource,
   RENAMED,
   sheetOptions,
@@ -60,7 +61,7 @@ export async function main(args: string[], io: Io): Promise<number> {
     try {
       parsed = parseArgs({ args: rest, options: VERB_OPTIONS[verb], allowPositionals: true, strict: true });
     } catch (e) {
-      throw usage(`${verb}: ${(e as Error).message.split("\n")[0]} (see 'deno task rbfield ${verb} --help')`);
+      throw optionError(verb, rest, e as Error);
     }
     const v = parsed.values as Record<string, unknown>;
     const pos = parsed.positionals;

@@ -58,7 +58,8 @@ const MODEL_HELP = `  --kernel K                auto|${KERNELS.join("|")}
                             passes through the line and may change slope across it; without z the
                             line is a barrier (a fault) the surface may jump across (local method)
   --strings COL=CODE[,CODE…]  join shots with these codes in column COL, in file order, into 3-D
-                            breaklines (a string ends where another code comes between or at a gap)
+                            breaklines (a string ends where another code comes between or at a gap);
+                            COL by name or position, or "code" for the --code column
   --string-gap DIST         largest distance between consecutive shots of a string (default: 5 ×
                             the median spacing along the code's strings)`;
 const GRID_HELP = `  --cell SIZE               cell size in map units (default: half the median point spacing,
@@ -193,10 +194,11 @@ ${COMMON_HELP}
 A contour map to print: index contours (every fifth) heavier and labelled, survey points and
 possible blunders, the data outline, scale bar, north arrow, coordinate ticks, a legend and a title
 block with the method and the caution. PDF and SVG stay vector. From a MODEL, a grid is made first
-(grid options apply).
+(grid options apply; without --cell, no finer than about 1000 cells along the longer side, which is
+as fine as a sheet shows).
 
 ${LEVELS_HELP}
-  --paper P                 A4|A3|A1|letter|tabloid (default A4)
+  --paper P                 A4|A3|A1|letter|tabloid, any case (default A4)
   --orientation O           landscape|portrait (default landscape)
   --scale N                 print at 1:N (default: the largest round scale that fits the sheet)
   --relief                  colour relief with hillshade under the contours (default: lines only)
@@ -211,7 +213,8 @@ The report of a saved model as one self-contained HTML file that opens in any br
 network: the contour map with relief, the standard-error map, the GCV curve over λ with the choice
 marked, the candidate ranking, leave-one-out residuals (histogram, reading against estimate), the
 points flagged, the model table with the rows skipped or merged when fitting, warnings and the
-caution: the same page as run's report.html. The grid options make the maps' grid, as for 'grid'.
+caution: the same page as run's report.html. The grid options make the maps' grid, as for 'grid'
+(without --cell, no finer than about 1000 cells along the longer side).
 
 ${LEVELS_HELP}
 ${TITLE_HELP}

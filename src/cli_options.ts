@@ -75,6 +75,36 @@ export const VERB_OPTIONS: Record<string, Spec> = {
   report: { ...COMMON, ...GRID, ...TITLE, ...LEVELS, out: { type: "string" } },
 };
 
+/** What each verb takes before its options, for the example in optionElsewhere. */
+const VERB_INPUTS: Record<string, string> = {
+  fit: "POINTS", grid: "MODEL", tiles: "TILE…", contour: "MODEL", predict: "MODEL LOCATIONS", run: "POINTS", map: "MODEL", report: "MODEL",
+};
+
+/**
+ * The one line for an option parseArgs refused: an option the verb does not take but another verb
+ * does says which verb takes it, with an example ("run: --scale is an option of 'map', not of
+ * 'run': deno task rbfield map MODEL --scale 500 --out …"); other refusals keep parseArgs's first
+ * sentence. `args`: the verb's arguments, for the value given with the option.
+ */
+export function optionError(verb: string, args: string[], error: Error): RbfieldError {
+  const message = error.message.split("\n")[0];
+  const help = (v: string) => `(see 'deno task rbfield ${v} --help')`;
+  const unknown = /^Unknown option '(-{1,2})([^']*)'/.exec(message);
+  if (!unknown) return usage(`${verb}: ${message} ${help(verb)}`);
+  const name = unknown[2];
+  const flag = `${unknown[1]}${messageText(name, 40)}`;
+  const takers = Object.keys(VERB_OPTIONS).filter((v) => v !== verb && Object.hasOwn(VERB_OPTIONS[v], name));
+  if (unknown[1] !== "--" || takers.length === 0) return usage(`${verb}: unknown option ${flag} ${help(verb)}`);
+  const at = args.findIndex((a) => a === `--${name}` || a.startsWith(`--${name}=`));
+  const given = at < 0 ? undefined : args[at].includes("=") ? args[at].slice(args[at].indexOf("=") + 1) : args[at + 1];
+  const value = VERB_OPTIONS[takers[0]][name].type === "string" ? ` ${given !== undefined && !given.startsWith("--") ? messageText(given, 20) : "VALUE"}` : "";
+  const quoted = takers.map((v) => `'${v}'`);
+  const of = quoted.length === 1 ? quoted[0] : `${quoted.slice(0, -1).join(", ")} and ${quoted.at(-1)}`;
+  return usage(
+    `${verb}: ${flag} is an option of ${of}, not of '${verb}': deno task rbfield ${takers[0]} ${VERB_INPUTS[takers[0]]} ${flag}${value} --out … ${help(takers[0])}`,
+  );
+}
+
 /** Options renamed since the first release, and what to write instead. */
 export const RENAMED: Record<string, string> = {
   drift: "--trend (none|constant|linear|quadratic|auto)",
@@ -135,14 +165,16 @@ export function dateOption(v: Record<string, unknown>): string | undefined {
 export const PAPERS = ["A4", "A3", "A1", "letter", "tabloid"] as const;
 
 export function sheetOptions(v: Record<string, unknown>): MapOptions {
-  const paper = (v.paper as string | undefined) ?? "A4";
-  if (!(PAPERS as readonly string[]).includes(paper)) throw usage(`--paper must be one of ${PAPERS.join(", ")}, not "${paper}"`);
-  const orientation = (v.orientation as string | undefined) ?? "landscape";
+  const given = (v.paper as string | undefined) ?? "A4";
+  // Paper names in any case (a3, A3, Letter): the canonical spelling of the one that matches.
+  const paper = PAPERS.find((p) => p.toLowerCase() === given.trim().toLowerCase());
+  if (paper === undefined) throw usage(`--paper must be one of ${PAPERS.join(", ")} (any case), not "${messageText(given, 20)}"`);
+  const orientation = ((v.orientation as string | undefined) ?? "landscape").trim().toLowerCase();
   if (orientation !== "landscape" && orientation !== "portrait") throw usage(`--orientation must be landscape or portrait, not "${orientation}"`);
   const scaleText = v.scale as string | undefined;
   const scale = scaleText === undefined ? undefined : num(scaleText.replace(/^1:/, ""), "scale");
   if (scale !== undefined && !(scale > 0)) throw usage(`--scale must be a positive number (1:N), not "${scaleText}"`);
-  return { paper: paper as MapOptions["paper"], orientation, scale, relief: Boolean(v.relief), labelPoints: Boolean(v["label-points"]) };
+  return { paper, orientation, scale, relief: Boolean(v.relief), labelPoints: Boolean(v["label-points"]) };
 }
 
 export function levelsOption(v: Record<string, unknown>): number[] | undefined {

@@ -7,7 +7,7 @@ import { CAUTION } from "./caution.ts";
 import { ExitCode, opt, RbfieldError } from "./errors.ts";
 import { gridModelParallel } from "./evaluate/parallel.ts";
 import { gridStandardErrorParallel } from "./evaluate/stderr.ts";
-import { gridLayout, type GridOptions } from "./evaluate/grid.ts";
+import { drawingCell, gridLayout, type GridOptions } from "./evaluate/grid.ts";
 import { checkMemory, estimateMemory, memoryAdvice, type MemoryLimit, memoryLimit, methodFor, peakResidentBytes } from "./job/memory.ts";
 import type { FitOptions } from "./fit/surface.ts";
 import {
@@ -19,6 +19,7 @@ import {
   gridOptionsFor,
   inputJson,
   type PointsSource,
+  projectedFrom,
   readGrid,
   readLocations,
   readModel,
@@ -37,9 +38,10 @@ import { mapInputFromGrid, mapInputFromModel, type MapInput, type MapOptions, re
 import { mapToPdf, mapToPng } from "./write/map/print.ts";
 import { renderReport } from "./write/report.ts";
 import { estimatesCsv } from "./write/csv.ts";
-import { encodeGeoTiff, geoTiffTags } from "./write/geotiff.ts";
+import { type BandText, bandText, encodeGeoTiff, geoTiffTags } from "./write/geotiff.ts";
 import { assembleTiles, gridTile, tileDescription, type TileFile, tileGridId, tileStandardError } from "./evaluate/tiles.ts";
-import { contourText, gridText, modelSummaryLines, pointLabel } from "./write/summary.ts";
+import { contourText, gridText, missedLevelWarnings, modelSummaryLines, pointLabel } from "./write/summary.ts";
+import { valueRange } from "./numbers.ts";
 
 /** What a verb hands back to the CLI. */
 export interface VerbResult {
@@ -127,7 +129,7 @@ export async function fitVerb(src: PointsSource, fit: FitOptions, out: string, o
   writeFilesAtomic(files);
   const data = files[1]?.[0] ?? null;
   return {
-    text: [...r.notes, ...modelSummaryLines(r.model), `Model written to ${out}${data ? ` (its arrays in ${data})` : ""}`, "", CAUTION, ""].join("\n"),
+    text: [...r.notes, ...modelSummaryLines(r.model, projectedFrom(r.crsChoice)), `Model written to ${out}${data ? ` (its arrays in ${data})` : ""}`, "", CAUTION, ""].join("\n"),
     json: { ...modelJson(r.model), input: inputJson(r, r.model), model: out, modelData: data, memory: memoryJson(estimate, limit) },
     warnings: [],
   };
@@ -159,7 +161,10 @@ export async function gridVerb(o: GridVerbOptions): Promise<VerbResult> {
   if (o.tile) return await tileVerb(o, model, masked, memory);
   const grid = await gridModelParallel(model, masked.grid);
   const se = o.stderr ? await gridStandardErrorParallel(model, grid, o.grid.progress) : undefined;
-  writeFilesAtomic([[o.out, encodeGeoTiff(grid)], ...(o.stderr && se ? [[o.stderr, encodeGeoTiff(se.grid)] as [string, Uint8Array]] : [])]);
+  writeFilesAtomic([
+    [o.out, encodeGeoTiff(grid, { band: bandText(model.source.z, "values") })],
+    ...(o.stderr && se ? [[o.stderr, encodeGeoTiff(se.grid, { band: bandText(model.source.z, "standard errors") })] as [string, Uint8Array]] : []),
+  ]);
   const s = grid.spec;
   const seLine = o.stderr && se
     ? `Standard error of the estimate written to ${o.stderr}${se.stride > 1 ? ` (computed every ${se.stride} cells and interpolated)` : ""}; ` +
@@ -220,8 +225,10 @@ async function tileVerb(o: GridVerbOptions, model: SurfaceModel, masked: { grid:
   }
   const id = tileGridId(modelBytes, t.whole, masked.grid.mask);
   writeFilesAtomic([
-    [o.out, encodeGeoTiff(t.grid, { description: tileDescription(t, "values", id) })],
-    ...(o.stderr && se ? [[o.stderr, encodeGeoTiff(se.grid, { description: tileDescription(t, "standard errors", id) })] as [string, Uint8Array]] : []),
+    [o.out, encodeGeoTiff(t.grid, { description: tileDescription(t, "values", id), band: bandText(model.source.z, "values") })],
+    ...(o.stderr && se
+      ? [[o.stderr, encodeGeoTiff(se.grid, { description: tileDescription(t, "standard errors", id), band: bandText(model.source.z, "standard errors") })] as [string, Uint8Array]]
+      : []),
   ]);
   const w = t.window, s = t.grid.spec;
   const from = t.patches === null ? `all ${t.points.toLocaleString("en")} points` : `${t.patches.toLocaleString("en")} patches holding ${t.points.toLocaleString("en")} of ${model.points.x.length.toLocaleString("en")} points`;
@@ -272,6 +279,8 @@ export async function tilesVerb(o: TilesVerbOptions): Promise<VerbResult> {
   const estimate = estimateMemory({ points: 0, method: "global", cells: 3 * cells / 2 });
   checkMemory(estimate, limit, []);
   const files: TileFile[] = [];
+  // The band text of the tiles (the grid's own: what the values are and their unit) goes on the whole grid.
+  let band: BandText | undefined;
   for (const file of o.tiles) {
     const grid = await readGrid(file);
     let tags;
@@ -281,9 +290,10 @@ export async function tilesVerb(o: TilesVerbOptions): Promise<VerbResult> {
       throw new RbfieldError(`cannot read the GeoTIFF tags (${(e as Error).message})`, ExitCode.input, { file });
     }
     files.push({ file, grid: { ...grid, crs: tags.crs }, description: tags.description });
+    band ??= tags.band;
   }
   const grid = assembleTiles(files);
-  writeFileAtomic(o.out, encodeGeoTiff(grid));
+  writeFileAtomic(o.out, encodeGeoTiff(grid, band ? { band } : {}));
   const s = grid.spec;
   // The summary names the cell in the CRS's unit, as 'grid' does (the GeoTIFF keys give the EPSG code only).
   const named = grid.crs.epsg !== undefined ? await describeCrs(grid.crs.epsg).catch(() => grid.crs) : grid.crs;
@@ -324,12 +334,13 @@ export async function contourVerb(o: ContourVerbOptions): Promise<VerbResult> {
   const rule = chooseLevelRule(o, grid.values, model?.transform);
   const r = contourGeoJson(grid, rule, { bands: o.bands, threeD: o.threeD, progress: o.grid.progress });
   writeFileAtomic(o.out, r.text);
+  const missed = model ? missedLevelWarnings(model, rule, valueRange(grid.values)) : [];
   const what = o.bands ? `${r.features} filled bands between contours` : `Contour lines${o.threeD ? " with the level as z" : ""}`;
   return {
     text: `${what} (${contourText(rule, r.levels.length)}) written to ${o.out}; ` +
       `coordinates in the grid's CRS: ${crsText(grid.crs)}\n\n${CAUTION}\n`,
-    json: { levels: r.levels, levelRule: rule, bands: o.bands, threeD: Boolean(o.threeD), file: o.out, caution: CAUTION },
-    warnings: [],
+    json: { levels: r.levels, levelRule: rule, bands: o.bands, threeD: Boolean(o.threeD), file: o.out, warnings: missed, caution: CAUTION },
+    warnings: missed,
   };
 }
 
@@ -415,6 +426,8 @@ export async function mapVerb(o: MapVerbOptions): Promise<VerbResult> {
   } else {
     const model = readModel(o.input);
     const gridOpts = (await gridOptionsFor(model, o.grid, o.mask)).grid;
+    // A grid only to be drawn: no finer than the sheet can show, unless a cell is given.
+    if (gridOpts.cell === undefined) gridOpts.cell = drawingCell(model, gridOpts);
     checkGridMemory(model, gridOpts, o.maxMemory, {});
     const grid = await gridModelParallel(model, gridOpts);
     input = mapInputFromModel(model, grid, { rule: chooseLevelRule(o, grid.values, model.transform), title: o.title, date });
@@ -468,6 +481,7 @@ export async function reportVerb(o: ReportVerbOptions): Promise<VerbResult> {
   const date = o.date ?? new Date().toISOString().slice(0, 10);
   const model = readModel(o.model);
   const gridOpts = (await gridOptionsFor(model, o.grid, o.mask)).grid;
+  if (gridOpts.cell === undefined) gridOpts.cell = drawingCell(model, gridOpts);
   checkGridMemory(model, gridOpts, o.maxMemory, { stderr: true });
   o.grid.progress?.("gridding");
   const grid = await gridModelParallel(model, gridOpts);

@@ -7,6 +7,7 @@ import * as fs from "node:fs";
 import * as os from "node:os";
 import * as path from "node:path";
 import { main } from "../src/cli.ts";
+import { sheetOptions } from "../src/cli_options.ts";
 
 async function cli(args: string[]) {
   let out = "", err = "";
@@ -183,5 +184,31 @@ describe("rbfield CLI", () => {
       expect(r.code).toBe(0);
       expect(r.out).toMatch(new RegExp(`Usage: deno task rbfield ${verb}`));
     }
+  });
+});
+
+describe("option text people type (common practice: paper names are written A3, a3 or Letter alike)", () => {
+  it("--paper takes any case and gives the canonical name; --orientation too; other names are refused", () => {
+    expect(sheetOptions({ paper: "a3" }).paper).toBe("A3");
+    expect(sheetOptions({ paper: "Letter" }).paper).toBe("letter");
+    expect(sheetOptions({ paper: "TABLOID", orientation: "Portrait" })).toMatchObject({ paper: "tabloid", orientation: "portrait" });
+    expect(() => sheetOptions({ paper: "a5" })).toThrow(/--paper must be one of A4, A3, A1, letter, tabloid/);
+  });
+
+  it("an option of another verb says which verb takes it, in one line (exit 2, nothing written)", async () => {
+    const out = path.join(tmp, "scale-run");
+    const r = await cli(["run", pointsFile, "--scale", "500", "--out", out]);
+    expect(r.code).toBe(2);
+    expect(r.err.trim().split("\n")).toHaveLength(1);
+    expect(r.err).toContain("run: --scale is an option of 'map', not of 'run': deno task rbfield map MODEL --scale 500 --out …");
+    expect(r.err).not.toContain("positional argument");
+    expect(fs.existsSync(out)).toBe(false);
+    // Taken by several verbs: all are named.
+    const s = await cli(["fit", pointsFile, "--cell", "2", "--out", path.join(tmp, "cell.json")]);
+    expect(s.err).toContain("fit: --cell is an option of 'grid', 'contour', 'run', 'map' and 'report', not of 'fit'");
+    // Taken by no verb: unknown, with the verb's help.
+    const u = await cli(["run", pointsFile, "--bogus", "--out", out]);
+    expect(u.code).toBe(2);
+    expect(u.err.trim()).toBe("rbfield: run: unknown option --bogus (see 'deno task rbfield run --help')");
   });
 });

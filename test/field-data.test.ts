@@ -233,6 +233,17 @@ describe("duplicates: --duplicates mean|max|min|first and RPD (US EPA SW-846 Cha
     });
   }
 
+  it("a spread is a difference of readings: written to their decimals, without binary leftovers (IEEE 754; common practice)", async () => {
+    // 19.7 − 18.8 is 0.8999999999999986 in binary floating point; 35.7 − 34.8 is 0.9000000000000057.
+    const f = write("dups-decimals.csv", "well,x,y,nitrate\nA,0,0,18.8\nA,0,0,19.7\nB,10,0,35.7\nB,10,0,34.8\nC,0,10,5.0\nD,10,10,7.25\nE,5,5,6\n");
+    const r = await cli(["fit", f, "--out", path.join(tmp, "dups-decimals.json"), "--merge-conflicts", "--json", ...FAST]);
+    expect(r.code, r.err).toBe(0);
+    const groups = JSON.parse(r.out).input.duplicates.groups;
+    expect(groups.map((g: { spread: number }) => g.spread)).toEqual([0.9, 0.9]);
+    // "well" names the point-id column (README 'Point ids and codes').
+    expect(groups[0].members.map((m: { point: string }) => m.point)).toEqual(["A", "A"]);
+  });
+
   it("duplicates.csv lists every merged row; skipped.csv is written with its header when nothing was skipped", async () => {
     const dir = path.join(tmp, "dups-run");
     const r = await cli(["run", file, "--out", dir, "--duplicates", "max", "--merge-conflicts", ...FAST]);
@@ -287,6 +298,31 @@ describe("point numbers and codes: in residuals.csv and in the blunder flags", (
     expect(row.at(-1)).toBe("possible blunder");
     const json = JSON.parse((await cli(["fit", file, "--out", path.join(tmp, "export.json"), "--x", "3", "--y", "2", "--z", "4", "--id", "1", "--code", "5", "--json", ...FAST])).out);
     expect(json.flagged).toContainEqual({ line: 48, point: "1047", code: "GS", label: "point 1047 (code GS, line 48)" });
+  });
+
+  it("a headerless export gets names for people: the value is 'value (column 4)', estimates.csv a header of roles (README 'Points', 'Outputs of run')", async () => {
+    const shots = fieldShots(7);
+    const file = write("export2.csv", shots.map((s) => `${s.id},${s.n.toFixed(3)},${s.e.toFixed(3)},${s.z.toFixed(3)},${s.code}`).join("\n") + "\n");
+    const dir = path.join(tmp, "export2");
+    const r = await cli(["run", file, "--out", dir, "--x", "3", "--y", "2", "--z", "4", "--crs", "EPSG:32631", ...FAST]);
+    expect(r.code, r.err).toBe(0);
+    // Not "4 surface" with a legend "4": the columns of a file without a header have no names.
+    const model = JSON.parse(fs.readFileSync(path.join(dir, "model.rbfield.json"), "utf8"));
+    expect(model.source).toEqual({ file: "export2.csv", x: "column 3", y: "column 2", z: "value (column 4)" });
+    expect(r.out).toContain("Input: export2.csv (x = column 3, y = column 2, value = value (column 4))");
+    const rows = csvRows(path.join(dir, "estimates.csv"));
+    expect(rows[0]).toEqual(["column_1", "y", "x", "z", "column_5", "estimate", "std_error", "nearest_reading", "extrapolation"]);
+    // The cells stay as written (the file's first row is data, line 1).
+    expect(rows[1].slice(0, 5)).toEqual([String(shots[0].id), shots[0].n.toFixed(3), shots[0].e.toFixed(3), shots[0].z.toFixed(3), shots[0].code]);
+
+    // A set-out list whose ids do not recur (S1, S2 …): with --x 3 --y 2 its first row is data (issue: S1 was lost).
+    const setout = write("setout.csv", "S1,4000010.0,500020.0\nS2,4000030.0,500040.0\nS3,4000020.0,500030.0\n");
+    const est = path.join(tmp, "setout-est.csv");
+    const p = await cli(["predict", path.join(dir, "model.rbfield.json"), setout, "--out", est, "--x", "3", "--y", "2", "--quiet"]);
+    expect(p.code, p.err).toBe(0);
+    const e = csvRows(est);
+    expect(e[0].slice(0, 4)).toEqual(["column_1", "y", "x", "estimate"]);
+    expect(e.slice(1).map((row) => row[0])).toEqual(["S1", "S2", "S3"]);
   });
 
   it("with a header, the id is the first identifier-named column and the code a column named description", async () => {
@@ -375,5 +411,36 @@ describe("samples far from all others", () => {
     const kept = await cli(["fit", file, "--out", out, "--keep-isolated", ...FAST]);
     expect(kept.code, kept.err).toBe(0);
     expect(readModel(out).extent).toEqual({ xmin: Math.min(...e), ymin: Math.min(...n), xmax: 500604, ymax: 4000603 });
+  });
+});
+
+describe("non-detects and the blunder test", () => {
+  // A non-detect is no measurement of a value: it says the value lies between 0 and the detection
+  // limit (common practice in environmental QA), and the number entered (half the limit) is a
+  // substitute. So it is never listed as a possible blunder — the advice to correct or remove a
+  // blunder would delete a clean well — and what is checked instead is whether the surface exceeds
+  // the limit there. The file: 36 wells on a 6 × 6 pattern (50 m) with readings 20–45 mg/l rising to
+  // the east, and one "<0.5" in the middle of them: its substitute 0.25 lies far below every
+  // neighbour, so the surface there exceeds 0.5.
+  it("are never flagged as blunders; the surface exceeding the limit at one is a warning naming it", async () => {
+    const rows = ["well,x,y,nitrate"];
+    let k = 0;
+    for (let i = 0; i < 6; i++) {
+      for (let j = 0; j < 6; j++) {
+        k++;
+        const value = i === 2 && j === 3 ? "<0.5" : (20 + 5 * i + 0.5 * ((k * 7) % 5)).toFixed(1);
+        rows.push(`MW-${k},${50 * i},${50 * j},${value}`);
+      }
+    }
+    const file = write("nd-wells.csv", rows.join("\n") + "\n");
+    const out = path.join(tmp, "nd-wells.rbfield.json");
+    const r = await cli(["fit", file, "--out", out, "--transform", "log", "--json", ...FAST]);
+    expect(r.code, r.err).toBe(0);
+    const json = JSON.parse(r.out);
+    // The non-detect is MW-16 on line 17 (header on line 1).
+    expect(json.input.nonDetects.values.map((d: { line: number }) => d.line)).toEqual([17]);
+    const model = modelFromJson(fs.readFileSync(out, "utf8"), out);
+    expect(model.diagnostics.flags.lines).not.toContain(17);
+    expect(model.diagnostics.warnings.join("\n")).toMatch(/the surface exceeds the detection limit at 1 of 1 non-detects \(point MW-16 \(line 17\)\)/);
   });
 });

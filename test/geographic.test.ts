@@ -47,6 +47,9 @@ describe.skipIf(skip)("latitude/longitude in, projected surface out (gdaltransfo
     const r1 = await cli(["run", pts, "--out", out, "--kernel", "thin-plate", "--trend", "linear", "--locations", locs, "--quiet"]);
     expect(r1.code, r1.err).toBe(0);
     expect(r1.out).toContain("projected to EPSG:32631 (WGS 84 / UTM zone 31N)");
+    // The model's CRS is the result of that projection, said so beside it (not "CRS EPSG:32631" alone
+    // under "Coordinates: EPSG:4326 …").
+    expect(r1.out).toContain("Input: heads.csv (x = lon, y = lat, value = head); CRS EPSG:32631 (projected from EPSG:4326)");
     const truth = gdalUtm(places).map(plane);
     const rows = fs.readFileSync(path.join(out, "estimates.csv"), "utf8").trim().split("\r\n").slice(1);
     rows.forEach((row, i) => {
@@ -57,6 +60,10 @@ describe.skipIf(skip)("latitude/longitude in, projected surface out (gdaltransfo
     const info = JSON.parse(spawnSync("gdalinfo", ["-json", path.join(out, "surface.tif")], { encoding: "utf8" }).stdout);
     expect(info.coordinateSystem.wkt).toContain('ID["EPSG",32631]');
     expect(info.coordinateSystem.wkt).toContain('LENGTHUNIT["metre",1]');
+    // What the band holds, as GDAL reads it (GDAL_METADATA, role "description").
+    expect(info.bands[0].description).toBe("head");
+    const se = JSON.parse(spawnSync("gdalinfo", ["-json", path.join(out, "stderr.tif")], { encoding: "utf8" }).stdout);
+    expect(se.bands[0].description).toBe("standard error of head");
   });
 
   it("a local grid in feet carries the foot to the GeoTIFF (ProjLinearUnitsGeoKey)", async () => {

@@ -5,7 +5,7 @@ import { tmpdir } from "node:os";
 import { join } from "node:path";
 import process from "node:process";
 import { writeArrayBuffer } from "geotiff";
-import { encodeGeoTiff } from "../src/write/geotiff.ts";
+import { type BandText, bandText, encodeGeoTiff, geoTiffTags } from "../src/write/geotiff.ts";
 import { decodeGeoTiff } from "../src/read/geotiff.ts";
 import { ExitCode, RbfieldError } from "../src/errors.ts";
 import type { Crs, GridValues } from "../src/types.ts";
@@ -63,6 +63,37 @@ describe("encodeGeoTiff / decodeGeoTiff round trip", () => {
     expect(a).toEqual(b);
     // TIFF 6.0 §2: big-endian header "MM", 42.
     expect(Array.from(a.subarray(0, 4))).toEqual([0x4d, 0x4d, 0, 42]);
+  });
+
+  it("the band text: the value's name without its bracketed unit, the unit apart (README 'Points': units in brackets)", async () => {
+    expect(bandText("Level (m)", "values")).toEqual({ description: "Level", unit: "m" });
+    expect(bandText("nitrate [mg/L]", "standard errors")).toEqual({ description: "standard error of nitrate", unit: "mg/L" });
+    expect(bandText("nitrate_mgL", "values")).toEqual({ description: "nitrate_mgL" });
+    // A file without a header row: "value (column 4)" holds no unit.
+    expect(bandText("value (column 4)", "values")).toEqual({ description: "value (column 4)" });
+    // Read back as written, and the same inputs give the same bytes (tiles put together rely on it).
+    const band = bandText("head (m)", "values");
+    const a = encodeGeoTiff(sampleGrid(MGA55), { band });
+    expect((await geoTiffTags(a)).band).toEqual(band);
+    expect(encodeGeoTiff(sampleGrid(MGA55), { band })).toEqual(a);
+    expect((await geoTiffTags(encodeGeoTiff(sampleGrid(MGA55)))).band).toBeUndefined();
+  });
+
+  it("long texts in every tag still fit the fixed header, never written broken (TIFF 6.0 §2: every IFD value at its offset)", async () => {
+    const grid = sampleGrid({ label: "L".repeat(300) });
+    // A tile's description (about 100 characters) and a long band text fit beside a long local CRS label.
+    const tile = "rbfield tile 12,3 of 20 x 20; tile size 1024; grid 20000 x 20000; standard errors; grid id 0123abcd";
+    const fits = await geoTiffTags(encodeGeoTiff(grid, { description: tile, band: { description: "B".repeat(300), unit: "U".repeat(50) } }));
+    expect(fits.description).toBe(tile);
+    expect(fits.band).toEqual({ description: "B".repeat(60), unit: "U".repeat(16) });
+    expect(fits.crs.label).toBe("L".repeat(200));
+    // Texts at every limit leave the band text no room: it is left out, the rest is intact.
+    const bytes = encodeGeoTiff(grid, { description: "D".repeat(300), band: { description: "B".repeat(300), unit: "U".repeat(50) } });
+    const tags = await geoTiffTags(bytes);
+    expect(tags.description).toBe("D".repeat(200));
+    expect(tags.band).toBeUndefined();
+    expect(tags.crs.label).toBe("L".repeat(200));
+    expect(Array.from((await decodeGeoTiff(bytes, "mem.tif")).values)).toEqual(asFloat32(grid.values));
   });
 
   it("refuses a nodata value Float32 cannot hold exactly, and real values equal to nodata", () => {
@@ -148,7 +179,7 @@ describe.skipIf(skipGdal)("GeoTIFF as read by GDAL's gdalinfo", () => {
   const dir = mkdtempSync(join(tmpdir(), "rbfield-gdal-"));
   afterAll(() => rmSync(dir, { recursive: true, force: true }));
 
-  function gdalinfo(grid: GridValues, name: string, options?: { nodata?: number }): GdalInfo {
+  function gdalinfo(grid: GridValues, name: string, options?: { nodata?: number; band?: BandText }): GdalInfo {
     const file = join(dir, name);
     writeFileSync(file, encodeGeoTiff(grid, options));
     const run = spawnSync("gdalinfo", ["-json", "-stats", file], { encoding: "utf8" });
@@ -200,6 +231,17 @@ describe.skipIf(skipGdal)("GeoTIFF as read by GDAL's gdalinfo", () => {
     const wkt: string = info.coordinateSystem.wkt;
     expect(wkt).toMatch(/^GEOGCRS\[/);
     expect(wkt).toMatch(/ID\["EPSG",4326\]\]\s*$/);
+  });
+
+  it("names what the band holds and its unit (GDAL_METADATA roles description and unittype, GDAL's GTiff driver)", () => {
+    const info = gdalinfo(sampleGrid(MGA55), "band.tif", { band: bandText("Level (m)", "values") });
+    expect(info.bands[0].description).toBe("Level");
+    expect(info.bands[0].unit).toBe("m");
+    const se = gdalinfo(sampleGrid(MGA55), "band-se.tif", { band: bandText("Level (m)", "standard errors") });
+    expect(se.bands[0].description).toBe("standard error of Level");
+    expect(se.bands[0].unit).toBe("m");
+    // The statistics are still those of the cells: the tag changes no value.
+    expect(Number(info.bands[0].metadata[""].STATISTICS_MINIMUM)).toBe(-2.125);
   });
 
   it("local site grid has no EPSG:4326 (geotiff.js's default) or any EPSG CRS", () => {

@@ -203,3 +203,25 @@ describe("log-spaced default levels after --transform log (1, 2, 5 series)", () 
     expect(r.out).not.toMatch(/"interval"/);
   });
 });
+
+describe("listed levels the readings cross but the surface does not reach", () => {
+  // Smoothing lowers peaks (a regression surface does not pass through its readings; common
+  // practice to show exceedances beside a smoothed map). The surface's range is given here, so the
+  // rule is checked alone: readings 10…30 and one peak of 52.8 under a surface whose top is 45.9.
+  it("warns for a level above the surface's top that a reading reaches, naming the reading", async () => {
+    const { fitSurface } = await import("../src/fit/surface.ts");
+    const { missedLevelWarnings } = await import("../src/write/summary.ts");
+    const n = 30;
+    const x = Float64Array.from({ length: n }, (_, i) => (i % 6) * 10), y = Float64Array.from({ length: n }, (_, i) => Math.floor(i / 6) * 10);
+    const z = Float64Array.from({ length: n }, (_, i) => (i === 14 ? 52.8 : 10 + (20 * i) / n));
+    const model = fitSurface({ x, y, z, lines: Array.from({ length: n }, (_, i) => i + 2), skipped: [], merged: [], rowsRead: n }, { kernel: "thin-plate" });
+    const surface = { lo: 9, hi: 45.9 };
+    const w = missedLevelWarnings(model, listRule([5, 11.3, 50, 60]), surface);
+    expect(w).toHaveLength(1);
+    expect(w[0]).toMatch(/^level 50 is above the surface's highest value \(45\.9\), but 1 reading reaches it \(line 16: 52\.8\)/);
+    // Below the surface's lowest value with a reading there too.
+    expect(missedLevelWarnings(model, listRule([10.2]), { lo: 10.5, hi: 45.9 })[0]).toMatch(/^level 10\.2 is below the surface's lowest value \(10\.5\), but 1 reading falls to it \(line 2: 10\)/);
+    // An interval's levels come from the surface's range: nothing to say.
+    expect(missedLevelWarnings(model, intervalRule(5), surface)).toEqual([]);
+  });
+});

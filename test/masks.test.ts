@@ -122,3 +122,22 @@ describe.skipIf(skip)("masks (gdalinfo, gdaltransform)", () => {
     expect(fs.existsSync(path.join(tmp, "never.tif"))).toBe(false);
   });
 });
+
+describe("a mask whose CRS needs a datum-shift grid rbfield does not bundle", () => {
+  it("is refused naming the mask file, --mask and the grid (WGS 84 → OSGB36 needs OSTN15: Ordnance Survey, 'A guide to coordinate systems in Great Britain')", async () => {
+    // Points on the British National Grid (EPSG:27700) near Trafalgar Square; a WGS 84 mask (no crs member) over them.
+    const r = mulberry32(27700);
+    const file = path.join(tmp, "bng.csv");
+    fs.writeFileSync(file, "easting,northing,level\n" + Array.from({ length: 20 }, () => `${(530000 + 100 * r()).toFixed(2)},${(180300 + 100 * r()).toFixed(2)},${(20 + r()).toFixed(3)}`).join("\n") + "\n");
+    const mask = path.join(tmp, "bng-mask.geojson");
+    fs.writeFileSync(mask, JSON.stringify({ type: "Polygon", coordinates: [[[-0.13, 51.507], [-0.125, 51.507], [-0.125, 51.51], [-0.13, 51.51], [-0.13, 51.507]]] }));
+    const dir = path.join(tmp, "bng-run");
+    const run = await cli(["run", file, "--out", dir, "--crs", "EPSG:27700", "--mask", mask, ...FAST]);
+    expect(run.code).not.toBe(0);
+    expect(run.err.trim().split("\n")).toHaveLength(1);
+    expect(run.err).toContain(`${mask}: the --mask file is in WGS 84 longitude/latitude`);
+    expect(run.err).toMatch(/OSTN15/);
+    expect(run.err).toContain("give the mask in EPSG:27700");
+    expect(fs.existsSync(dir)).toBe(false);
+  });
+});

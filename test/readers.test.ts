@@ -20,6 +20,7 @@ import { cleanPoints } from "../src/clean/clean.ts";
 import { ExitCode, RbfieldError } from "../src/errors.ts";
 import { delimitedReader } from "../src/read/delimited.ts";
 import { geojsonReader } from "../src/read/geojson.ts";
+import { chooseTextColumns } from "../src/read/columns.ts";
 import { parsePointTable, readPointTable } from "../src/read/points.ts";
 import type { PointReader, ReadOptions } from "../src/read/reader.ts";
 import { parseTable, READERS, readerFor, readTable, withCells } from "../src/read/registry.ts";
@@ -282,6 +283,42 @@ describe("files without a header row", () => {
     expect(t.hasHeader).toBe(true);
     expect(t.lines).toEqual([2]);
   });
+});
+
+describe("a set-out list: point ids that do not recur beside coordinates named by position (README 'Points'; common practice)", () => {
+  const text = "S1,181210.0,532120.0\nS2,181230.0,532140.0\nS3,181220.0,532130.0\n";
+
+  it("--x 3 --y 2 with numbers there: the first row is data, S1 is kept", () => {
+    const t = parsePointTable(text, "setout.csv", { x: "3", y: "2", needValue: false });
+    expect(t.hasHeader).toBe(false);
+    expect(t.lines).toEqual([1, 2, 3]);
+    expect(t.rows.map((r) => r[0])).toEqual(["S1", "S2", "S3"]);
+    expect(values(t.data[2])).toEqual([532120, 532140, 532130]);
+  });
+
+  it("a one-row list is data too", () => {
+    const t = parsePointTable("S1,181210.0,532120.0\n", "one.csv", { x: "3", y: "2", needValue: false });
+    expect(t.lines).toEqual([1]);
+    expect(t.rows[0][0]).toBe("S1");
+  });
+
+  it("a header row (names at those positions) stays a header; without positions the list is refused as before", () => {
+    const t = parsePointTable("id,north,east\n" + text, "named.csv", { x: "3", y: "2", needValue: false });
+    expect(t.hasHeader).toBe(true);
+    expect(t.lines).toEqual([2, 3, 4]);
+    // Without positions nothing says the first row is data: it is read as names, as before.
+    const e = errorOf(() => parsePointTable(text, "setout.csv", { needValue: false }));
+    expect(e.message).toMatch(/cannot tell which are the x and y columns from the header/);
+  });
+});
+
+describe("identifier columns of wells, boreholes and samples (README 'Point ids and codes'; common practice)", () => {
+  for (const name of ["well", "Well_ID", "wellid", "station", "Sample", "sample_id", "SITE_ID", "borehole", "BH", "point", "id"]) {
+    it(`'${name}' is the point-id column`, () => {
+      const t = parsePointTable(`${name},x,y,z\nA,1,2,3\nB,4,5,6\nC,7,8,9\n`, "w.csv");
+      expect(chooseTextColumns(t, {}).id).toBe(0);
+    });
+  }
 });
 
 describe("columns named by 1-based position", () => {

@@ -6,17 +6,19 @@ import { cleanPoints, describeCleaning } from "../clean/clean.ts";
 import { ISOLATION_SPACINGS, type Isolation, isolatedSamples } from "../clean/isolated.ts";
 import { ExitCode, inputError, opt, RbfieldError } from "../errors.ts";
 import type { GridOptions } from "../evaluate/grid.ts";
+import { evaluateModel } from "../evaluate/evaluate.ts";
 import { boundingBox, convexHullRing } from "../geometry.ts";
 import { valueRange } from "../numbers.ts";
 import { type CrsInfo } from "../crs/crs.ts";
 import { type CrsChoice, crsRecord, projectTable, tableCrs } from "../read/project.ts";
 import { chooseTextColumns, columnByOption } from "../read/columns.ts";
+import { isCodeName, normalizeName } from "../read/names.ts";
 import { filterRows, type WhereCondition, type WhereResult } from "../read/filter.ts";
 import { type MaskFile, maskInCrs, readMaskFile } from "../read/mask.ts";
 import { type BreaklineFile, breaklinesInCrs, readBreaklineFile, selfCrossing } from "../read/breaklines.ts";
 import { stringsFromCodes } from "../clean/strings.ts";
 import { describeLabValues, type LabValues, type NonDetectRule, readLabValues } from "../read/nondetects.ts";
-import { formatNumber, lengthText } from "../text.ts";
+import { decimalsOf, formatNumber, lengthText } from "../text.ts";
 import { type FitOptions, type FittedModel, fitSurfaceParallelWithFactors } from "../fit/surface.ts";
 import { modelFromJson, type SurfaceModel } from "../model/model.ts";
 import { sidecarPath } from "../model/binary.ts";
@@ -129,12 +131,40 @@ export function crsNote(c: CrsChoice): string {
     : `Coordinates: ${name(c.source)} (${c.how}), projected to ${name(c.target)}, ${unit(c.target)}, before fitting`;
 }
 
+/** The CRS the input's coordinates were projected from ("EPSG:4326"), or undefined when they were fitted as given. */
+export function projectedFrom(c: CrsChoice): string | undefined {
+  return c.source === c.target ? undefined : c.source.label;
+}
+
 const UNIT_WORDS = { metre: "metres", foot: "feet", "US survey foot": "US survey feet" } as const;
 
 /** The text of a table's cells without surrounding spaces ("" for no row or no column). */
 function cellsOf(table: PointTable): (row: number | undefined, j: number) => string {
   const text = cellTexts(table);
   return (row, j) => (row === undefined || j < 0 ? "" : text(row, j).trim());
+}
+
+/**
+ * A difference of readings (a duplicate group's spread) to the most decimals the readings were
+ * written with: 19.7 − 18.8 is 0.9000000000000004 in binary floating point, and no reading written
+ * with one decimal can differ by more than one decimal's worth (IEEE 754 rounding; common practice).
+ */
+function atInputDecimals(v: number, values: ArrayLike<number>): number {
+  let d = 0;
+  for (let i = 0; i < values.length; i++) d = Math.max(d, decimalsOf(values[i]));
+  return Number(v.toFixed(d));
+}
+
+/**
+ * The column of --strings COL=…: by name or 1-based position (columnByOption); a code-column name
+ * ("code", "desc" …) that no column has is the code column (--code, or the one found by its name),
+ * so `--code 5 --strings code=KT,CH` works on a file without a header row.
+ */
+function stringsColumn(table: PointTable, src: PointsSource, codeColumn: number): number {
+  const wanted = src.strings!.column;
+  const place = { file: src.file, line: 1 };
+  if (codeColumn >= 0 && isCodeName(wanted) && !table.columns.some((c) => normalizeName(c) === normalizeName(wanted))) return codeColumn;
+  return columnByOption(table.columns, wanted, "strings", place);
 }
 
 /** Read and clean a points file; `progress` hears how much of the file has been read. */
@@ -154,7 +184,7 @@ export async function loadPoints(src: PointsSource, progress?: FitOptions["progr
   // Shots on coded strings at one position keep their own levels (vertical faces): one key per code.
   let faceKey: ((row: number) => string) | undefined;
   if (src.strings) {
-    const col = columnByOption(table.columns, src.strings.column, "strings", { file: src.file, line: 1 });
+    const col = stringsColumn(table, src, codeColumn);
     const want = new Set(src.strings.codes.map((c) => c.trim().toLowerCase()));
     faceKey = (row) => {
       const c = cellText(table, row, col).trim().toLowerCase();
@@ -191,7 +221,7 @@ export async function loadPoints(src: PointsSource, progress?: FitOptions["progr
       members: g.lines.map((line, m) => ({ line, point: idOf(g.rows[m]), value: g.values[m] })),
       value: g.value,
       line: g.line,
-      spread: g.spread,
+      spread: atInputDecimals(g.spread, g.values),
       rpd: g.rpd,
     })),
   };
@@ -242,7 +272,7 @@ export function pointNotes(loaded: LoadedPoints, src: PointsSource, files: boole
   const notes = [
     `${columns}${texts.length ? `; ${texts.join(", ")}` : ""}`,
     crsNote(loaded.crsChoice),
-    `Points: ${rowsRead} rows read${filter}, ${points.x.length} used`,
+    `Points: ${rowsRead.toLocaleString("en")} rows read${filter}, ${points.x.length.toLocaleString("en")} used`,
     ...cleaning,
     ...describeLabValues(lab, files ? "in column qualifier of residuals.csv" : "with the points in the model file"),
   ];
@@ -286,6 +316,17 @@ export function isolationNotes(loaded: LoadedPoints, model: SurfaceModel, keep: 
   ];
 }
 
+/**
+ * The model's `source`: the file and its x, y and value column names. A file without a header row
+ * names its columns "1", "2", …, which read badly in titles and legends ("4 surface"): there the
+ * coordinates are "column 3" and the value "value (column 4)" (README "Points").
+ */
+export function sourceNames(file: string, t: PointTable): SurfaceModel["source"] {
+  const base = path.basename(file);
+  if (t.hasHeader !== false) return { file: base, x: t.columns[t.xColumn], y: t.columns[t.yColumn], z: t.columns[t.zColumn] };
+  return { file: base, x: `column ${t.xColumn + 1}`, y: `column ${t.yColumn + 1}`, z: `value (column ${t.zColumn + 1})` };
+}
+
 /** Read, clean and fit; `beforeFit` sees the clean points first (the memory check before the long work). */
 export async function fitPointsFile(src: PointsSource, fit: FitOptions = {}, beforeFit?: (loaded: LoadedPoints) => void): Promise<LoadedPoints & FittedModel & { breaklineNotes: string[] }> {
   const loaded = await loadPoints(src, fit.progress);
@@ -300,7 +341,7 @@ export async function fitPointsFile(src: PointsSource, fit: FitOptions = {}, bef
       ...(breaklines.length ? { breaklines } : {}),
       weights: loaded.weights,
       crs: loaded.crs,
-      source: { file: path.basename(src.file), x: t.columns[t.xColumn], y: t.columns[t.yColumn], z: t.columns[t.zColumn] },
+      source: sourceNames(src.file, t),
     });
   } catch (e) {
     // Fit-stage problems concern the points file: name it.
@@ -310,6 +351,7 @@ export async function fitPointsFile(src: PointsSource, fit: FitOptions = {}, bef
   const model = fitted.model;
   const texts = pointTexts(loaded);
   if (texts.length) model.points.text = texts;
+  nonDetectChecks(model, loaded.lab);
   // The rows cleaning skipped or merged travel with the model: the report of a saved model lists them.
   const pts = loaded.points;
   model.cleaning = {
@@ -344,7 +386,7 @@ async function breaklinesFor(src: PointsSource, loaded: LoadedPoints): Promise<{
     notes.push(note);
   }
   if (src.strings) {
-    const col = columnByOption(table.columns, src.strings.column, "strings", { file: src.file, line: 1 });
+    const col = stringsColumn(table, src, loaded.codeColumn);
     const codes = (points.rows ?? []).map((r) => cellText(table, r, col));
     const res = stringsFromCodes(points, codes, src.strings.codes, src.stringGap);
     for (const s of res.strings) {
@@ -369,6 +411,32 @@ async function breaklinesFor(src: PointsSource, loaded: LoadedPoints): Promise<{
     out.push(...res.strings.map((s) => ({ name: `string ${s.name}`, x: s.x, y: s.y, z: s.z })));
   }
   return { lines: out, notes };
+}
+
+/**
+ * Non-detects enter the fit as substitutes (half the limit by default), not as readings, so the
+ * blunder test does not apply to them: a non-detect is never listed as a possible blunder (the advice
+ * "check it in the field book, correct or remove it" would remove a clean well). What matters at a
+ * non-detect is whether the surface there exceeds its detection limit — the surface then spreads
+ * readings into a place measured clean — and the model's warnings say where (the summary, the
+ * report and --json show them).
+ */
+export function nonDetectChecks(model: SurfaceModel, lab: LabValues): void {
+  const entered = new Map(lab.nonDetects.filter((d) => d.value !== null && d.limit !== null).map((d) => [d.line, d.limit!]));
+  if (entered.size === 0) return;
+  const flags = model.diagnostics.flags;
+  flags.lines = flags.lines.filter((line) => !entered.has(line));
+  const pts = model.points;
+  const at = pts.line.map((line, i) => (entered.has(line) ? i : -1)).filter((i) => i >= 0);
+  if (at.length === 0) return;
+  const estimates = evaluateModel(model, at.map((i) => pts.x[i]), at.map((i) => pts.y[i]));
+  const above = at.filter((i, k) => estimates[k] > entered.get(pts.line[i])!);
+  const note = `non-detects are substitutes, not readings: they are not tested as possible blunders`;
+  model.diagnostics.warnings.push(
+    above.length
+      ? `the surface exceeds the detection limit at ${above.length} of ${at.length} non-detects (${above.slice(0, 10).map((i) => pointLabel(model, i)).join("; ")}${above.length > 10 ? "; …" : ""}): it spreads higher readings into places measured clean; ${note}`
+      : `the surface stays below the detection limit at all ${at.length} non-detects; ${note}`,
+  );
 }
 
 /** The input rows as --json reports them: columns, filter, skipped rows, merged groups, non-detects, isolated samples. */

@@ -17,8 +17,8 @@ import { mapInputFromModel } from "../write/map.ts";
 import { type FitOptions } from "../fit/surface.ts";
 import { encodeModel, type SurfaceModel } from "../model/model.ts";
 import { checkWritableFolder, ensureFolder, refuseFolderAsOutput, refuseInputAsOutput, writeFilesAtomic } from "../write/atomic.ts";
-import { contourText, fmt, gridText, modelSummaryLines, summaryText } from "../write/summary.ts";
-import { fitPointsFile, gridOptionsFor, inputJson, isolationNotes, type LoadedPoints, pointNotes, type PointsSource } from "./points.ts";
+import { contourText, fmt, gridText, missedLevelWarnings, modelSummaryLines, summaryText } from "../write/summary.ts";
+import { fitPointsFile, gridOptionsFor, inputJson, isolationNotes, type LoadedPoints, pointNotes, type PointsSource, projectedFrom } from "./points.ts";
 import { estimateColumns, estimateSummaryLines, estimateTable, estimateWarnings, readLocations, standardErrorLines } from "./estimates.ts";
 
 export interface RunOptions extends PointsSource {
@@ -129,6 +129,7 @@ async function runInto(opts: RunOptions, files: Record<string, string>, inputs: 
   opts.progress?.("gridding");
   const grid = await gridModelParallel(model, masked.grid);
   const rule = chooseLevelRule(opts, grid.values, model.transform);
+  const missed = missedLevelWarnings(model, rule, valueRange(grid.values));
   const lines = contourGeoJson(grid, rule, { threeD: opts.threeD, progress: opts.progress });
   const bands = contourGeoJson(grid, rule, { bands: true, progress: opts.progress });
   opts.progress?.("standard errors");
@@ -148,7 +149,7 @@ async function runInto(opts: RunOptions, files: Record<string, string>, inputs: 
   for (const v of grid.values) if (Number.isNaN(v)) maskedCells++;
   const summary = summaryText("rbfield run summary", [
     [...pointNotes(fitted, opts, true), ...isolationNotes(fitted, model, Boolean(opts.keepIsolated)), ...fitted.breaklineNotes],
-    modelSummaryLines(model),
+    modelSummaryLines(model, projectedFrom(fitted.crsChoice)),
     [
       ...masked.notes,
       `Grid: ${gridText(s, model.crs)}; ${maskedCells} cells masked`,
@@ -159,6 +160,7 @@ async function runInto(opts: RunOptions, files: Record<string, string>, inputs: 
       ...standardErrorLines(seRange, errors.stride),
       ...(model.method === "local" ? ["  local method: the standard error blends the patches' own (an upper bound on the blended estimate's)"] : []),
       `Contours: ${contourText(rule, lines.levels.length)}; bands between them`,
+      ...missed.map((w) => `WARNING: ${w}`),
       ...estimateSummaryLines(est, model),
     ],
     fileListLines(written),
@@ -179,7 +181,7 @@ async function runInto(opts: RunOptions, files: Record<string, string>, inputs: 
       stderrGrid: errors.grid,
       stderrNote: errors.stride > 1 ? `computed every ${errors.stride} cells and interpolated` : undefined,
       cleaning: { rowsRead: fitted.points.rowsRead, skipped: fitted.points.skipped, merged: fitted.points.merged },
-      warnings: estimateWarnings(est),
+      warnings: [...estimateWarnings(est), ...missed],
       title: opts.title ?? `${model.source.z} surface, ${model.source.file}`,
       date,
     },
@@ -196,5 +198,5 @@ async function runInto(opts: RunOptions, files: Record<string, string>, inputs: 
   // A binary part left by an earlier local run in this folder belongs to no model now.
   if (!modelFiles.binary) fs.rmSync(files.modelData, { force: true });
   const memory = { estimate: Math.max(estimate?.bytes ?? 0, gridEstimate.bytes), limit: limit.bytes, limitSource: limit.source, peak: peakResidentBytes() };
-  return { model, files: written, summary, warnings: estimateWarnings(est), input: inputJson(fitted, model), memory };
+  return { model, files: written, summary, warnings: [...estimateWarnings(est), ...missed], input: inputJson(fitted, model), memory };
 }

@@ -7,7 +7,7 @@
 // vertex = first, is allowed). Consecutive repeated vertices (same x, y and z) are dropped, as
 // exports often repeat them. The CRS is found and the lines projected as for masks (read/mask.ts).
 import * as fs from "node:fs";
-import { describeCrs, makeProjector } from "../crs/crs.ts";
+import { projectorFor } from "./mask.ts";
 import { ExitCode, opt, printable, RbfieldError } from "../errors.ts";
 import { jsonErrorPlace } from "../json_syntax.ts";
 import { crsText } from "../text.ts";
@@ -200,7 +200,7 @@ export async function breaklinesInCrs(b: BreaklineFile, crs: Crs, data: Box): Pr
         { file: b.file },
       );
     }
-    const projector = await makeProjector(await describeCrs(source, { file: b.file }), await describeCrs(crs.epsg));
+    const projector = await projectorFor(source, crs, { file: b.file, what: "breaklines", option: "breaklines", how });
     lines = b.lines.map((l) => {
       const t = projector.forward(Float64Array.from(l.x), Float64Array.from(l.y));
       return { ...l, x: Array.from(t.x), y: Array.from(t.y) };

@@ -94,6 +94,33 @@ const inDegrees = (b: Box) => b.xmin >= -180 && b.xmax <= 180 && b.ymin >= -90 &
 const WGS84 = 4326;
 
 /**
+ * The projector from a mask's (or breaklines file's) CRS to the points'. A refusal of the projection
+ * itself (a change of datum needing a grid rbfield does not bundle) names the file and its option,
+ * which the CRS module cannot know.
+ */
+export async function projectorFor(
+  source: number,
+  crs: Crs,
+  o: { file: string; what: string; option: string; how: string },
+): Promise<Awaited<ReturnType<typeof makeProjector>>> {
+  const from = await describeCrs(source, { file: o.file });
+  const to = await describeCrs(crs.epsg!);
+  try {
+    return await makeProjector(from, to);
+  } catch (e) {
+    if (!(e instanceof RbfieldError) || e.place) throw e;
+    const why = e.template.replace(/:\s*give the coordinates in a CRS on the target's own datum$/, "");
+    throw new RbfieldError(
+      `the ${opt(o.option)} file is in ${o.how} and cannot be brought into the points' CRS (${crsText(crs)}): ${why}; ` +
+        `give the ${o.what} in ${crsText(crs)} (or declare a CRS on its datum in a crs member)`,
+      e.exitCode,
+      { file: o.file },
+      o.option,
+    );
+  }
+}
+
+/**
  * The mask's polygons in the points' CRS (`crs`; `data` the points' extent), and a sentence for the
  * summary saying which CRS the mask was taken to be in.
  */
@@ -120,7 +147,7 @@ export async function maskInCrs(mask: MaskFile, crs: Crs, data: Box): Promise<{ 
         { file: mask.file },
       );
     }
-    const projector = await makeProjector(await describeCrs(source, { file: mask.file }), await describeCrs(crs.epsg));
+    const projector = await projectorFor(source, crs, { file: mask.file, what: "mask", option: "mask", how });
     polygons = mask.polygons.map((p) =>
       p.map((ring) => {
         const t = projector.forward(Float64Array.from(ring, (q) => q[0]), Float64Array.from(ring, (q) => q[1]));

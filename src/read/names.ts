@@ -14,6 +14,8 @@ export const Z_NAMES = [
 const ID_NAMES = new Set([
   "id", "fid", "oid", "objectid", "pointid", "ptid", "pt", "point", "pointno", "pointnumber", "ptno", "ptnum", "no", "num", "number",
   "index", "idx", "name", "label", "station", "site", "code", "desc", "descr", "description",
+  // Groundwater and soil sampling: wells, boreholes and samples (well_id, Sample ID, BH …; common practice).
+  "well", "wellid", "wellname", "wellno", "siteid", "stationid", "sample", "sampleid", "sampleno", "borehole", "boreholeid", "bh", "bhid",
 ]);
 /** Description codes of survey shots (GS, KB …): the code column named in blunder flags. */
 export const CODE_NAMES = ["code", "desc", "descr", "description"];

@@ -184,10 +184,12 @@ export class RowCollector {
    * repeat, while a header row has names, which do not. When the first shot's code is unique the row
    * reads as a header and the refusal to guess the columns tells the user to name them by position.
    */
-  private firstRowIsData(): boolean {
+  private firstRowIsData(options: ReadOptions): boolean {
     const first = this.firstCells;
-    if (!first || this.lines.length === 0) return false;
+    if (!first) return false;
     const decimalComma = this.decimalComma(false);
+    if (this.positionsHoldNumbers(options, decimalComma)) return true;
+    if (this.lines.length === 0) return false;
     let numeric = 0, recurring = false, words = false;
     for (let j = 0; j < first.length; j++) {
       const cell = this.firstTrimmed[j];
@@ -203,6 +205,30 @@ export class RowCollector {
     return numeric >= 2 && (!words || recurring);
   }
 
+  /**
+   * x and y (and the value, when given) named by 1-based position, and the first row holds numbers
+   * at the x and y positions: the first row is data, whatever text the other cells hold (a point id
+   * "S1" beside the coordinates; a value "ND"). A header row has names there; a first row with a
+   * cell equal to an option ("3") is a header, as columnByOption takes that option for the name.
+   */
+  private positionsHoldNumbers(options: ReadOptions, decimalComma: boolean): boolean {
+    if (options.x === undefined || options.y === undefined) return false;
+    const first = this.firstTrimmed;
+    const given = [options.x, options.y, options.z].filter((o) => o !== undefined).map((o) => o.trim().toLowerCase());
+    // An option equal to a cell of the first row names that column: the row is a header.
+    if (first.some((c) => given.includes(c.toLowerCase()))) return false;
+    for (const [k, wanted] of [options.x, options.y, options.z].entries()) {
+      if (wanted === undefined) continue;
+      const w = wanted.trim();
+      if (!/^\d+$/.test(w)) return false;
+      const p = Number(w);
+      if (p < 1 || p > first.length) return false;
+      const cell = first[p - 1];
+      if (k < 2 && Number.isNaN(parseNumber(cell, decimalComma))) return false;
+    }
+    return true;
+  }
+
   /** The typed table: columns chosen as the options say, numbers parsed, unusable rows listed. */
   finish(options: ReadOptions): TextTable {
     const { file } = this;
@@ -214,7 +240,7 @@ export class RowCollector {
         { file, line: end.line, column: end.column },
       );
     }
-    const firstIsData = this.firstRowIsData();
+    const firstIsData = this.firstRowIsData(options);
     const first = this.firstCells;
     let samples = this.samples;
     if (firstIsData && first) {

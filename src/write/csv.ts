@@ -13,6 +13,18 @@ export function csvField(text: string): string {
 }
 
 /**
+ * The input's columns in the header: their names; for a file without a header row (columns named
+ * "1", "2", … by position) the roles where known, x, y and z, and column_N for the others, so the
+ * header does not read as numbers (README "Estimates at points").
+ */
+export function inputHeader(table: PointTable): string[] {
+  if (table.hasHeader !== false) return table.columns;
+  return table.columns.map((_, j) =>
+    j === table.xColumn ? "x" : j === table.yColumn ? "y" : j === table.zColumn ? "z" : `column_${j + 1}`
+  );
+}
+
+/**
  * One record per input row: original cells (as written: cellTexts, made from the typed columns for
  * a table a reader made), then each added column (numbers formatted with formatNumber).
  */
@@ -31,7 +43,7 @@ export function estimatesCsv(
   }
   const width = table.columns.length;
   const out: string[] = [];
-  const header = [...table.columns, ...added.map((c) => c.name)];
+  const header = [...inputHeader(table), ...added.map((c) => c.name)];
   out.push(header.map(csvField).join(",") + "\r\n");
   const text = cellTexts(table);
   for (let i = 0; i < rows; i++) {

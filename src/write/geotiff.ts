@@ -1,7 +1,7 @@
 // GeoTIFF output: one Float32 band, pixel-is-area, georeferenced by tie point and pixel scale
 // (OGC GeoTIFF 1.1). Masked cells (NaN) are written as the nodata value and tagged GDAL_NODATA.
 import { projLinearUnitsGeoKey, unitOfEpsgCode } from "../crs/crs.ts";
-import { fromArrayBuffer, writeArrayBuffer } from "geotiff";
+import { fromArrayBuffer, globals, writeArrayBuffer } from "geotiff";
 import type { GeotiffWriterMetadata } from "geotiff";
 import { ExitCode, opt, RbfieldError } from "../errors.ts";
 import { fmt } from "../text.ts";
@@ -20,6 +20,49 @@ const FLOAT32_MAX = 3.4028234663852886e38;
 /** Classic TIFF addresses its bytes with 32-bit offsets (TIFF 6.0, §2); keep room for the header. */
 const MAX_TIFF_DATA_BYTES = 2 ** 32 - 2 ** 20;
 
+/** TIFF tag GDAL_METADATA: GDAL's XML of dataset and band metadata (ASCII), read by GDAL's GTiff driver. */
+const GDAL_METADATA = 42112;
+// geotiff.js v3 names the tag but gives its writer no field type for it; GDAL writes it as ASCII.
+(globals.fieldTagTypes as Record<number, string>)[GDAL_METADATA] ??= "ASCII";
+
+/** What the band holds, for GDAL's band description and unit type. */
+export interface BandText {
+  /** "level", "standard error of level". */
+  description: string;
+  /** The values' unit when known ("m", "mg/L"), else absent. */
+  unit?: string;
+}
+
+/**
+ * The band text of a grid of a value column: its name without a unit in brackets, and that unit
+ * ("Level (m)" → level … unit m; "nitrate_mgL" → no unit, as nothing says which part is one).
+ */
+export function bandText(valueName: string, content: "values" | "standard errors"): BandText {
+  const text = valueName.slice(0, 200);
+  const m = /^([^()[\]{}]*?)\s*[([{]\s*([^()[\]{}]+?)\s*[)\]}]\s*$/.exec(text);
+  // "value (column 4)", the name of a file without a header row, holds no unit.
+  const unit = m && m[1] !== "" && !/^column \d+$/.test(m[2]) ? m[2] : undefined;
+  const name = (unit ? m![1] : text).trim() || "value";
+  return { description: content === "values" ? name : `standard error of ${name}`, ...(unit ? { unit } : {}) };
+}
+
+/** GDAL_METADATA's XML for band 1 (sample 0): the description and unit type roles GDAL reads. */
+function gdalMetadataXml(band: BandText): string {
+  // Printable ASCII without XML's special characters, so the text needs no escapes and its length is bounded.
+  const esc = (t: string, limit: number) => asciiCitation(t, limit).replace(/[&<>"]/g, "?");
+  const items = [`<Item name="DESCRIPTION" sample="0" role="description">${esc(band.description, 60)}</Item>`];
+  if (band.unit) items.push(`<Item name="UNITTYPE" sample="0" role="unittype">${esc(band.unit, 16)}</Item>`);
+  return `<GDALMetadata>${items.join("")}</GDALMetadata>`;
+}
+
+/** The band text back from GDAL_METADATA's XML as gdalMetadataXml wrote it, or undefined. */
+function bandFromXml(xml: string): BandText | undefined {
+  const d = /<Item name="DESCRIPTION" sample="0" role="description">([^<]*)<\/Item>/.exec(xml);
+  if (!d) return undefined;
+  const u = /<Item name="UNITTYPE" sample="0" role="unittype">([^<]*)<\/Item>/.exec(xml);
+  return { description: d[1], ...(u ? { unit: u[1] } : {}) };
+}
+
 /** Is the CRS geographic? From its kind when known (models since the CRS module), else the EPSG range 4000–4999. */
 export function isGeographic(crs: { epsg?: number; kind?: string }): boolean {
   if (crs.kind !== undefined) return crs.kind === "geographic";
@@ -30,7 +73,7 @@ export function isGeographic(crs: { epsg?: number; kind?: string }): boolean {
  * Encodes a grid as an uncompressed, big-endian, single-band Float32 GeoTIFF.
  * The bytes depend only on the grid and options (no timestamps).
  */
-export function encodeGeoTiff(grid: GridValues, options: { nodata?: number; description?: string } = {}): Uint8Array {
+export function encodeGeoTiff(grid: GridValues, options: { nodata?: number; description?: string; band?: BandText } = {}): Uint8Array {
   const { spec, values, crs } = grid;
   const nodata = options.nodata ?? DEFAULT_NODATA;
   if (!Number.isInteger(spec.cols) || !Number.isInteger(spec.rows) || spec.cols < 1 || spec.rows < 1) {
@@ -64,15 +107,22 @@ export function encodeGeoTiff(grid: GridValues, options: { nodata?: number; desc
   const metadata = geoTiffMetadata(spec, crs, nodata);
   // A description (TIFF ImageDescription; a tile says which tile it is): printable ASCII only.
   if (options.description !== undefined) (metadata as Record<string, unknown>).ImageDescription = asciiCitation(options.description);
+  // What the band holds (gdalinfo: "Description = level", "Unit Type: m").
+  if (options.band !== undefined) (metadata as Record<string, unknown>).GDAL_METADATA = gdalMetadataXml(options.band);
   // geotiff.js writes the header (the first HEADER_BYTES: byte-order mark, one IFD and its values)
   // and then copies the values one at a time through a new DataView each (about 0.3–0.7 s per
   // million cells). It is asked for the header alone — one value, with the strip's true byte count
   // and one sample per pixel given, so every tag holds what it holds for the whole grid — and the
   // strip is written here: big-endian Float32, row by row, straight into the file's bytes.
-  const header = new Uint8Array(
-    writeArrayBuffer(new Float32Array(1), { ...metadata, StripByteCounts: [4 * n], SamplesPerPixel: [1] } as GeotiffWriterMetadata),
-  );
-  if (header.length !== HEADER_BYTES + 4) {
+  const headerOf = (m: GeotiffWriterMetadata) =>
+    new Uint8Array(writeArrayBuffer(new Float32Array(1), { ...m, StripByteCounts: [4 * n], SamplesPerPixel: [1] } as GeotiffWriterMetadata));
+  let header = headerOf(metadata);
+  // The band text is a courtesy: when very long texts elsewhere leave it no room, it is left out.
+  if (!ifdFitsHeader(header) && options.band !== undefined) {
+    delete (metadata as Record<string, unknown>).GDAL_METADATA;
+    header = headerOf(metadata);
+  }
+  if (header.length !== HEADER_BYTES + 4 || !ifdFitsHeader(header)) {
     throw new RbfieldError(`geotiff.js wrote an unexpected layout (${header.length} bytes for one value)`, ExitCode.internal);
   }
   const out = new Uint8Array(HEADER_BYTES + 4 * n);
@@ -118,6 +168,27 @@ export function geoTiffMetadata(spec: GridSpec, crs: Crs, nodata = DEFAULT_NODAT
   return metadata;
 }
 
+/** Bytes per value of the TIFF field types geotiff.js writes (TIFF 6.0 §2, "Types"). */
+const TYPE_BYTES: Record<number, number> = { 1: 1, 2: 1, 3: 2, 4: 4, 5: 8, 6: 1, 7: 1, 8: 2, 9: 4, 10: 8, 11: 4, 12: 8 };
+
+/**
+ * Every value of the first IFD lies inside the fixed header: geotiff.js drops bytes written past it
+ * without a word, so long texts (a tile's description, a local grid's citation, the band text)
+ * must be caught here rather than written as a broken file.
+ */
+function ifdFitsHeader(bytes: Uint8Array): boolean {
+  const view = new DataView(bytes.buffer, bytes.byteOffset, HEADER_BYTES);
+  const ifd = view.getUint32(4, false);
+  const entries = view.getUint16(ifd, false);
+  if (ifd + 2 + 12 * entries + 4 > HEADER_BYTES) return false;
+  for (let k = 0; k < entries; k++) {
+    const at = ifd + 2 + 12 * k;
+    const size = (TYPE_BYTES[view.getUint16(at + 2, false)] ?? 8) * view.getUint32(at + 4, false);
+    if (size > 4 && view.getUint32(at + 8, false) + size > HEADER_BYTES) return false;
+  }
+  return true;
+}
+
 /** Where geotiff.js v3 puts the strip: after a fixed 1000-byte header (its `numBytesInIfd`). */
 const HEADER_BYTES = 1000;
 
@@ -160,7 +231,7 @@ function writeStrip(grid: GridValues, nodata: number, view: DataView): void {
  * citation and unit), the nodata value and the description. For putting tiles back together byte
  * for byte; other GeoTIFFs are read by read/geotiff.ts.
  */
-export async function geoTiffTags(bytes: Uint8Array): Promise<{ crs: Crs; nodata: number | undefined; description: string | undefined }> {
+export async function geoTiffTags(bytes: Uint8Array): Promise<{ crs: Crs; nodata: number | undefined; description: string | undefined; band: BandText | undefined }> {
   const tiff = await fromArrayBuffer(bytes.slice().buffer as ArrayBuffer);
   const image = await tiff.getImage(0);
   const keys = (image.getGeoKeys() ?? {}) as Record<string, unknown>;
@@ -173,6 +244,8 @@ export async function geoTiffTags(bytes: Uint8Array): Promise<{ crs: Crs; nodata
   const nodataText = await text("GDAL_NODATA");
   const nodata = nodataText === undefined ? undefined : nodataText.trim().toLowerCase() === "nan" ? NaN : Number(nodataText);
   const description = await text("ImageDescription");
+  const xml = await text("GDAL_METADATA");
+  const band = xml === undefined ? undefined : bandFromXml(xml);
   const projected = num(keys.ProjectedCSTypeGeoKey), geographic = num(keys.GeographicTypeGeoKey);
   let crs: Crs;
   if (projected !== undefined && projected !== USER_DEFINED) crs = { epsg: projected, label: `EPSG:${projected}`, kind: "projected" };
@@ -182,11 +255,11 @@ export async function geoTiffTags(bytes: Uint8Array): Promise<{ crs: Crs; nodata
     const unitCode = num(keys.ProjLinearUnitsGeoKey);
     crs = { label: citation, kind: "local", unit: unitCode === undefined ? null : unitOfEpsgCode(unitCode) ?? null };
   }
-  return { crs, nodata, description };
+  return { crs, nodata, description, band };
 }
 
 /** Plain printable ASCII, short enough to fit the writer's fixed 1000-byte header. */
-function asciiCitation(text: string): string {
+function asciiCitation(text: string, limit = 200): string {
   const ascii = text.replace(/[^\x20-\x7e]/g, "?");
-  return ascii.length > 200 ? ascii.slice(0, 200) : ascii;
+  return ascii.length > limit ? ascii.slice(0, limit) : ascii;
 }

@@ -7,7 +7,7 @@ import { type MapInput, renderMap } from "./map.ts";
 import { mapToPdf } from "./map/print.ts";
 import { renderReport, type ReportInput } from "./report.ts";
 import { estimatesCsv } from "./csv.ts";
-import { encodeGeoTiff } from "./geotiff.ts";
+import { bandText, encodeGeoTiff } from "./geotiff.ts";
 import { residualsCsv } from "./residuals.ts";
 import { type DuplicateGroup, duplicatesCsv, type SkippedEntry, skippedCsv } from "./tables.ts";
 
@@ -51,8 +51,8 @@ export const RUN_OUTPUTS: readonly OutputWriter[] = [
   { key: "model", file: "model.rbfield.json", label: "model", render: (p) => p.modelFiles.json },
   // The arrays of a local model (model/binary.ts): the file name is sidecarPath of the model's.
   { key: "modelData", file: "model.rbfield.bin", label: "model data", optional: true, render: (p) => p.modelFiles.binary },
-  { key: "surface", file: "surface.tif", label: "grid", render: (p) => encodeGeoTiff(p.grid) },
-  { key: "stderr", file: "stderr.tif", label: "std error", render: (p) => encodeGeoTiff(p.stderrGrid) },
+  { key: "surface", file: "surface.tif", label: "grid", render: (p) => encodeGeoTiff(p.grid, { band: bandText(p.model.source.z, "values") }) },
+  { key: "stderr", file: "stderr.tif", label: "std error", render: (p) => encodeGeoTiff(p.stderrGrid, { band: bandText(p.model.source.z, "standard errors") }) },
   { key: "contours", file: "contours.geojson", label: "contours", render: (p) => p.contours },
   { key: "bands", file: "bands.geojson", label: "bands", render: (p) => p.bands },
   { key: "estimates", file: "estimates.csv", label: "estimates", render: (p) => estimatesCsv(p.estimates.table, p.estimates.columns) },

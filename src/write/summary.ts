@@ -55,6 +55,35 @@ export function pointLabel(model: SurfaceModel, i: number): string {
   return code !== undefined ? `${line} (code ${code})` : line;
 }
 
+/**
+ * Listed levels (thresholds, action levels) that readings cross but the surface does not reach:
+ * smoothing lowers peaks and fills pits, so a reading above 50 can sit under a surface whose highest
+ * value is 46 and the 50 contour is then missing from the map. One warning per such level, naming
+ * the readings (up to five) beyond it. Only for listed levels: an interval's levels come from the
+ * surface's own range.
+ */
+export function missedLevelWarnings(model: SurfaceModel, rule: LevelRule, surface: { lo: number; hi: number }): string[] {
+  if (rule.kind !== "list" || !(surface.hi >= surface.lo)) return [];
+  const z = model.points.z;
+  const out: string[] = [];
+  for (const level of rule.levels) {
+    const above = level > surface.hi, below = level < surface.lo;
+    if (!above && !below) continue;
+    const beyond: number[] = [];
+    for (let i = 0; i < z.length; i++) if (above ? z[i] >= level : z[i] <= level) beyond.push(i);
+    if (beyond.length === 0) continue;
+    beyond.sort((a, b) => (above ? z[b] - z[a] : z[a] - z[b]));
+    const one = beyond.length === 1;
+    const named = beyond.slice(0, 5).map((i) => `${pointLabel(model, i)}: ${fmt(z[i])}`).join("; ");
+    out.push(
+      `level ${fmt(level)} is ${above ? "above the surface's highest" : "below the surface's lowest"} value (${fmt(above ? surface.hi : surface.lo)}), ` +
+        `but ${beyond.length} reading${one ? "" : "s"} ${above ? (one ? "reaches" : "reach") : one ? "falls to" : "fall to"} it (${named}${beyond.length > 5 ? "; …" : ""}): ` +
+        `the surface smooths ${above ? "peaks" : "pits"}, so there is no ${fmt(level)} contour there; show these readings beside it`,
+    );
+  }
+  return out;
+}
+
 /** pointLabel of the point at an input line (the flags and robust lists hold lines). */
 function labelOfLine(model: SurfaceModel): (line: number) => string {
   const at = new Map(model.points.line.map((l, i) => [l, i]));
@@ -81,13 +110,18 @@ export function breaklineText(model: SurfaceModel): string | null {
     `(3-D lines add ${bl.points.x.length} points along them, near-exact; on a 3-D line the surface is the line's linear interpolation)`;
 }
 
-/** Lines describing the model and its diagnostics. */
-export function modelSummaryLines(model: SurfaceModel): string[] {
+/**
+ * Lines describing the model and its diagnostics. `projectedFrom`: the CRS of the input's
+ * coordinates when they were projected into the model's before fitting (the "Coordinates:" line
+ * above says so), so the model's CRS reads as the result, not a contradiction.
+ */
+export function modelSummaryLines(model: SurfaceModel, projectedFrom?: string): string[] {
   const d = model.diagnostics;
   const lines: string[] = [];
   const src = model.source;
   lines.push(
-    `Input: ${printableText(src.file)} (x = ${printableText(src.x)}, y = ${printableText(src.y)}, value = ${printableText(src.z)}); CRS ${crsText(model.crs)}`,
+    `Input: ${printableText(src.file)} (x = ${printableText(src.x)}, y = ${printableText(src.y)}, value = ${printableText(src.z)}); ` +
+      `CRS ${crsText(model.crs)}${projectedFrom ? ` (projected from ${printableText(projectedFrom)})` : ""}`,
   );
   const sel = d.selection;
   if (sel) {
