@@ -8,8 +8,9 @@
 //   npx -y deno@2 run -A bench/local.ts --no-scipy      skip the scipy comparison
 //   npx -y deno@2 run -A bench/local.ts --stderr-all    the standard-error grid above 10⁵ points too
 //
-// Every stage prints its wall time, the largest resident set sampled (Deno.memoryUsage().rss every
-// 50 ms while the main thread waits for workers, and at each stage's end) and the process's peak
+// Every stage prints its wall time, the CPU time of the process over all its threads (Linux), the
+// largest resident set sampled (Deno.memoryUsage().rss every 50 ms while the main thread waits for
+// workers, and at each stage's end) and the process's peak
 // (VmHWM from /proc/self/status, Linux), and the RMSE of the grid against the true function. The
 // fitted exponent of wall time against N comes from a least-squares line through log t and log N.
 // scipy: RBFInterpolator(neighbors=50, kernel="thin_plate_spline", degree=1) on N = 2·10⁵ points,
@@ -41,16 +42,30 @@ function sitePoints(n: number, seed: number): CleanPoints {
   return { x, y, z, lines: Array.from({ length: n }, (_, i) => i + 2), skipped: [], merged: [], rowsRead: n };
 }
 
+/**
+ * CPU seconds used so far by this process, all threads (utime + stime from /proc/self/stat, Linux;
+ * NaN elsewhere). On a machine shared with other work the wall time of a stage depends on the others;
+ * its CPU time much less.
+ */
+function cpuSeconds(): number {
+  try {
+    const f = Deno.readTextFileSync("/proc/self/stat").split(") ")[1].split(" ");
+    return (Number(f[11]) + Number(f[12])) / 100;
+  } catch {
+    return NaN;
+  }
+}
+
 /** Time a stage, sampling the resident set while it runs (when the main thread is free) and at its end. */
 async function stage<T>(name: string, run: () => T | Promise<T>, rows: string[][]): Promise<{ value: T; seconds: number }> {
   let sampled = Deno.memoryUsage().rss;
   const timer = setInterval(() => (sampled = Math.max(sampled, Deno.memoryUsage().rss)), 50);
-  const t0 = performance.now();
+  const t0 = performance.now(), c0 = cpuSeconds();
   const value = await run();
   const seconds = (performance.now() - t0) / 1000;
   clearInterval(timer);
   sampled = Math.max(sampled, Deno.memoryUsage().rss);
-  rows.push([name, seconds.toFixed(2), (sampled / 2 ** 20).toFixed(0), peakRss().toFixed(0)]);
+  rows.push([name, seconds.toFixed(2), (cpuSeconds() - c0).toFixed(1), (sampled / 2 ** 20).toFixed(0), peakRss().toFixed(0)]);
   return { value, seconds };
 }
 
@@ -91,10 +106,14 @@ const gridOptions = (side: number) => ({ cell: SITE / side, extent: [0, 0, SITE,
 async function scaling(sizes: number[]): Promise<void> {
   const totals: number[] = [], fits: number[] = [], grids: number[] = [];
   for (const n of sizes) {
-    const rows: string[][] = [["stage", "seconds", "rss MiB (sampled)", "peak MiB (VmHWM)"]];
+    const rows: string[][] = [["stage", "seconds", "cpu s (all threads)", "rss MiB (sampled)", "peak MiB (VmHWM)"]];
     const points = sitePoints(n, 2024);
     console.log(`\nN = ${n.toLocaleString("en")} points, grid 1000 × 1000 cells of 1 m`);
-    const fit = await stage("fit (auto → local, workers)", () => fitSurfaceParallel(points, { progress: (m) => console.error(`  ${m}`) }), rows);
+    // Progress lines carry the time since the fit started: the fit's own stages (layout, model
+    // choice on the sample patches, patch fits in workers, blending and the model record).
+    const t0 = performance.now();
+    const progress = (m: string) => console.error(`  [${((performance.now() - t0) / 1000).toFixed(2)} s] ${m}`);
+    const fit = await stage("fit (auto → local, workers)", () => fitSurfaceParallel(points, { progress }), rows);
     const model = fit.value;
     const grid = await stage("grid 1000 × 1000 (workers)", () => gridModelParallel(model, gridOptions(1000)), rows);
     // The error grid refactorises every patch in one thread (about 14 ms each here): above 10⁵ points

@@ -35,20 +35,147 @@ export function pointIndex(x: ArrayLike<number>, y: ArrayLike<number>): Flatbush
 export function medianSpacing(x: Float64Array, y: Float64Array): number {
   const n = x.length;
   if (n < 2) return 1;
+  const d = nearestDistances(x, y);
+  d.sort();
+  return d[Math.floor(n / 2)];
+}
+
+/** Grid cells per point of the bucket grid of nearestDistances (about two points per cell). */
+const CELLS_PER_POINT = 0.5;
+/** The bucket search is used while Σ (points per cell)² stays below this many times N (else a tree). */
+const BUCKET_WORK = 40;
+
+/**
+ * Distance from each point to its nearest other point (Math.hypot of the coordinate differences; 0
+ * for coincident points). Exact, by a uniform bucket grid: the cells are searched in rings of
+ * growing Chebyshev radius r around the point's own cell, stopping once the nearest distance found
+ * is at most r·h (h the cell side), since every point beyond ring r lies at least that far away
+ * (the cell-grid nearest-neighbour search, Bentley, Weide & Yao 1980). Strongly clustered data, where
+ * the cells would hold too many points (Σ count² > BUCKET_WORK·N), use the flatbush tree instead.
+ */
+export function nearestDistances(x: Float64Array, y: Float64Array): Float64Array {
+  const n = x.length;
+  const d = new Float64Array(n);
+  const { xmin, ymin, xmax, ymax } = boundingBox(x, y);
+  const w = xmax - xmin, hgt = ymax - ymin;
+  if (!(w > 0 || hgt > 0)) return d; // all points coincide
+  const cells = Math.max(1, Math.floor(n * CELLS_PER_POINT));
+  const h = w > 0 && hgt > 0 ? Math.max(Math.sqrt((w * hgt) / cells), Math.max(w, hgt) / cells) : Math.max(w, hgt) / cells;
+  const cols = Math.min(Math.floor(w / h) + 1, cells + 1), rows = Math.min(Math.floor(hgt / h) + 1, cells + 1);
+  const cellOf = new Int32Array(n);
+  const start = new Int32Array(cols * rows + 1);
+  for (let i = 0; i < n; i++) {
+    const c = Math.min(cols - 1, Math.floor((x[i] - xmin) / h)), r = Math.min(rows - 1, Math.floor((y[i] - ymin) / h));
+    cellOf[i] = r * cols + c;
+    start[cellOf[i] + 1]++;
+  }
+  let work = 0;
+  for (let k = 0; k < cols * rows; k++) {
+    work += start[k + 1] * start[k + 1];
+    start[k + 1] += start[k];
+  }
+  if (work > BUCKET_WORK * n) return nearestDistancesByTree(x, y);
+  const order = new Int32Array(n);
+  const fill = start.slice(0, cols * rows);
+  for (let i = 0; i < n; i++) order[fill[cellOf[i]]++] = i;
+  // Coordinates in cell order, so that a cell's points are contiguous.
+  const xs = Float64Array.from(order, (i) => x[i]), ys = Float64Array.from(order, (i) => y[i]);
+  let self = 0, xi = 0, yi = 0, best = Infinity, bestQ = -1;
+  const scan = (c: number, r: number) => {
+    if (c < 0 || c >= cols || r < 0 || r >= rows) return;
+    const k = r * cols + c;
+    for (let q = start[k]; q < start[k + 1]; q++) {
+      if (q === self) continue;
+      const dx = xi - xs[q], dy = yi - ys[q];
+      const dd = dx * dx + dy * dy;
+      if (dd < best) {
+        best = dd;
+        bestQ = q;
+      }
+    }
+  };
+  for (self = 0; self < n; self++) {
+    const i = order[self];
+    xi = xs[self];
+    yi = ys[self];
+    best = Infinity;
+    bestQ = -1;
+    const c0 = cellOf[i] % cols, r0 = (cellOf[i] - c0) / cols;
+    for (let ring = 0; ; ring++) {
+      if (ring === 0) scan(c0, r0);
+      else {
+        for (let c = c0 - ring; c <= c0 + ring; c++) {
+          scan(c, r0 - ring);
+          scan(c, r0 + ring);
+        }
+        for (let r = r0 - ring + 1; r <= r0 + ring - 1; r++) {
+          scan(c0 - ring, r);
+          scan(c0 + ring, r);
+        }
+      }
+      const reach = ring * h;
+      if (best <= reach * reach) break;
+      if (c0 - ring <= 0 && r0 - ring <= 0 && c0 + ring >= cols - 1 && r0 + ring >= rows - 1) break;
+    }
+    d[i] = Math.hypot(xi - xs[bestQ], yi - ys[bestQ]);
+  }
+  return d;
+}
+
+/** nearestDistances by the flatbush tree (for strongly clustered points). */
+function nearestDistancesByTree(x: Float64Array, y: Float64Array): Float64Array {
+  const n = x.length;
   const index = pointIndex(x, y);
   const d = new Float64Array(n);
   for (let i = 0; i < n; i++) {
     const [j] = index.neighbors(x[i], y[i], 1, Infinity, (k: number) => k !== i);
     d[i] = Math.hypot(x[i] - x[j], y[i] - y[j]);
   }
-  d.sort();
-  return d[Math.floor(n / 2)];
+  return d;
+}
+
+/**
+ * Points that may lie on the convex hull: all but those strictly inside the octagon of the eight
+ * extreme points (least and greatest x, y, x + y and x − y), which cannot be hull vertices (the
+ * Akl–Toussaint heuristic; Akl & Toussaint 1978, Inform. Process. Lett. 7). "Strictly" with a margin
+ * of 10⁻⁹ of the extent, far above the rounding of the orientation test, so no hull vertex is lost
+ * and the hull is the same; it leaves a few hundred points of a uniform million.
+ */
+function hullCandidates(x: Float64Array, y: Float64Array): Uint8Array {
+  const n = x.length;
+  const keep = new Uint8Array(n).fill(1);
+  if (n < 64) return keep;
+  // Extremes in counter-clockwise order: bottom, bottom-right, right, top-right, top, top-left, left, bottom-left.
+  const key = [(i: number) => -y[i], (i: number) => x[i] - y[i], (i: number) => x[i], (i: number) => x[i] + y[i], (i: number) => y[i], (i: number) => y[i] - x[i], (i: number) => -x[i], (i: number) => -x[i] - y[i]];
+  const ext = key.map(() => 0);
+  for (let i = 1; i < n; i++) key.forEach((f, k) => { if (f(i) > f(ext[k])) ext[k] = i; });
+  const poly: number[] = [];
+  for (const i of ext) if (poly.length === 0 || (x[i] !== x[poly[poly.length - 1]] || y[i] !== y[poly[poly.length - 1]])) poly.push(i);
+  while (poly.length > 1 && x[poly[0]] === x[poly[poly.length - 1]] && y[poly[0]] === y[poly[poly.length - 1]]) poly.pop();
+  if (poly.length < 3) return keep;
+  const { xmin, ymin, xmax, ymax } = boundingBox(x, y);
+  const margin = 1e-9 * Math.hypot(xmax - xmin, ymax - ymin);
+  const m = poly.length;
+  const ax = Float64Array.from(poly, (i) => x[i]), ay = Float64Array.from(poly, (i) => y[i]);
+  const ex = new Float64Array(m), ey = new Float64Array(m), tol = new Float64Array(m);
+  for (let k = 0; k < m; k++) {
+    ex[k] = ax[(k + 1) % m] - ax[k];
+    ey[k] = ay[(k + 1) % m] - ay[k];
+    tol[k] = margin * Math.hypot(ex[k], ey[k]);
+  }
+  for (let i = 0; i < n; i++) {
+    let inside = true;
+    for (let k = 0; k < m && inside; k++) inside = ex[k] * (y[i] - ay[k]) - ey[k] * (x[i] - ax[k]) > tol[k];
+    if (inside) keep[i] = 0;
+  }
+  return keep;
 }
 
 /** Convex hull as a closed counter-clockwise ring (falls back to the bounding box for < 3 non-collinear points). */
 export function convexHullRing(x: Float64Array, y: Float64Array): [number, number][] {
   const pts = [];
-  for (let i = 0; i < x.length; i++) pts.push(point([x[i], y[i]]));
+  const keep = hullCandidates(x, y);
+  for (let i = 0; i < x.length; i++) if (keep[i]) pts.push(point([x[i], y[i]]));
   const hull = convex(featureCollection(pts));
   if (hull) {
     const ring = hull.geometry.coordinates[0] as [number, number][];

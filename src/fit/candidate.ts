@@ -31,6 +31,7 @@ export function fitOne(
   shapeOpt: "auto" | number,
   smoothing: "gcv" | number,
   progress?: (m: string) => void,
+  keepReduced = false,
 ): FittedCandidate {
   const { n, values } = prep;
   // Values are centred unless the trend is none (centring would act as a hidden constant trend).
@@ -47,7 +48,7 @@ export function fitOne(
   const lambdaToUser = kernel === "thin-plate" ? prep.s * prep.s : 1;
   const smoothingScaled = smoothing === "gcv" ? "gcv" as const : smoothing / lambdaToUser;
   const run = (epsilonScaled: number, data: Prepared = prep, yy: Float64Array = yv) =>
-    fitCore(data.u, data.v, yy, zs, { kernel, trend, epsilonScaled, smoothing: smoothingScaled, lambdaToUser, sqrtWeights: data.sqrtW });
+    fitCore(data.u, data.v, yy, zs, { kernel, trend, epsilonScaled, smoothing: smoothingScaled, lambdaToUser, sqrtWeights: data.sqrtW, keepReduced });
   let fit: KernelFit;
   if (!hasShape(kernel)) fit = run(1);
   else if (shapeOpt !== "auto") fit = run(shapeOpt * prep.s);

@@ -153,6 +153,8 @@ export interface FitState {
   v: Float64Array;
   kernel: KernelName;
   epsilonScaled: number;
+  /** B = Q₂ᵀK̃Q₂ ((N−m)×(N−m), row-major) when CoreOptions.keepReduced asked for it. */
+  b?: Float64Array;
 }
 
 export interface CoreOptions {
@@ -168,6 +170,11 @@ export interface CoreOptions {
    * (K + λΩ⁻¹)w + Pc = y becomes (DKD + λI)w̃ + DPc = Dy with D = Ω^½, w = Dw̃ (Wahba 1990, §1.3).
    */
   sqrtWeights?: Float64Array;
+  /**
+   * Keep a copy of B = Q₂ᵀK̃Q₂ in the state, so that the leave-one-out diagonal's Cholesky route need
+   * not rebuild and project the kernel matrix (for small systems: the local method's patches).
+   */
+  keepReduced?: boolean;
 }
 
 /** Fit one kernel, shape and trend to scaled coordinates (u, v) and scaled values y. */
@@ -215,6 +222,7 @@ export function fitCore(u: Float64Array, v: Float64Array, y: Float64Array, zs: n
   const qty = Float64Array.from(y);
   if (sw) for (let i = 0; i < n; i++) qty[i] *= sw[i];
   for (const refl of qr) applyReflector(refl, qty);
+  const reduced = opts.keepReduced ? b.slice() : undefined;
   const tri = tridiagonalize(b, nb);
   const mu = tridiagonalEigenvalues(tri.d, tri.e);
   const h = qty.slice(m);
@@ -357,7 +365,7 @@ export function fitCore(u: Float64Array, v: Float64Array, y: Float64Array, zs: n
     condition,
     curve,
     warnings,
-    state: { n, m, r, sqrtW: sw, wTilde, qr, tri, mu, h, y, u, v, kernel: opts.kernel, epsilonScaled: opts.epsilonScaled },
+    state: { n, m, r, sqrtW: sw, wTilde, qr, tri, mu, h, y, u, v, kernel: opts.kernel, epsilonScaled: opts.epsilonScaled, b: reduced },
   };
 }
 

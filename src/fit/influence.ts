@@ -129,27 +129,64 @@ export function leaveOneOutResiduals(fit: KernelFit, zs: number, gii: Float64Arr
  * Returns undefined when B + λI is not numerically positive definite (the caller falls back).
  */
 export function influenceComplementDiagonalCholesky(state: FitState, lambda: number): Float64Array | undefined {
-  const { n, m, qr, u, v, kernel, epsilonScaled, sqrtW } = state;
+  const { n, m, qr } = state;
   const nb = n - m;
-  const k = weightedKernelMatrix(kernel, epsilonScaled, u, v, sqrtW);
-  for (const refl of qr) reflectSymmetric(k, n, refl);
+  // The lower triangle of B = Q₂ᵀK̃Q₂: kept by the fit, or rebuilt (the same operations, the same bits).
   const l = new Float64Array(nb * nb);
-  for (let i = 0; i < nb; i++) l.set(k.subarray((m + i) * n + m, (m + i) * n + m + i + 1), i * nb);
+  if (state.b) {
+    for (let i = 0; i < nb; i++) l.set(state.b.subarray(i * nb, i * nb + i + 1), i * nb);
+  } else {
+    const k = weightedKernelMatrix(state.kernel, state.epsilonScaled, state.u, state.v, state.sqrtW);
+    for (const refl of qr) reflectSymmetric(k, n, refl);
+    for (let i = 0; i < nb; i++) l.set(k.subarray((m + i) * n + m, (m + i) * n + m + i + 1), i * nb);
+  }
   for (let i = 0; i < nb; i++) l[i * nb + i] += lambda;
   if (!cholesky(l, nb)) return undefined;
   // X = L⁻¹, row by row: X[i,:] = (eᵢ − Σ_{k<i} L[i,k] X[k,:]) / L[i,i] (contiguous row updates).
+  // Rows go four at a time sharing the loads of X[k,:]; each entry keeps its order of operations.
   const x = new Float64Array(nb * nb);
-  for (let i = 0; i < nb; i++) {
+  const update = (ri: number, kk: number, lik: number) => {
+    const rk = kk * nb;
+    for (let j = 0; j <= kk; j++) x[ri + j] -= lik * x[rk + j];
+  };
+  const finish = (i: number) => {
     const ri = i * nb;
-    for (let kk = 0; kk < i; kk++) {
-      const lik = l[ri + kk];
-      if (lik === 0) continue;
-      const rk = kk * nb;
-      for (let j = 0; j <= kk; j++) x[ri + j] -= lik * x[rk + j];
-    }
     x[ri + i] += 1;
     const inv = 1 / l[ri + i];
     for (let j = 0; j <= i; j++) x[ri + j] *= inv;
+  };
+  let i = 0;
+  for (; i + 3 < nb; i += 4) {
+    const r0 = i * nb, r1 = r0 + nb, r2 = r1 + nb, r3 = r2 + nb;
+    for (let kk = 0; kk < i; kk++) {
+      const l0 = l[r0 + kk], l1 = l[r1 + kk], l2 = l[r2 + kk], l3 = l[r3 + kk];
+      if (l0 !== 0 && l1 !== 0 && l2 !== 0 && l3 !== 0) {
+        const rk = kk * nb;
+        for (let j = 0; j <= kk; j++) {
+          const xk = x[rk + j];
+          x[r0 + j] -= l0 * xk;
+          x[r1 + j] -= l1 * xk;
+          x[r2 + j] -= l2 * xk;
+          x[r3 + j] -= l3 * xk;
+        }
+      } else {
+        if (l0 !== 0) update(r0, kk, l0);
+        if (l1 !== 0) update(r1, kk, l1);
+        if (l2 !== 0) update(r2, kk, l2);
+        if (l3 !== 0) update(r3, kk, l3);
+      }
+    }
+    // The 4×4 diagonal block, row by row.
+    for (let q = 0; q < 4; q++) {
+      const rq = r0 + q * nb;
+      for (let kk = i; kk < i + q; kk++) if (l[rq + kk] !== 0) update(rq, kk, l[rq + kk]);
+      finish(i + q);
+    }
+  }
+  for (; i < nb; i++) {
+    const ri = i * nb;
+    for (let kk = 0; kk < i; kk++) if (l[ri + kk] !== 0) update(ri, kk, l[ri + kk]);
+    finish(i);
   }
   const colNorm = new Float64Array(nb);
   for (let i = 0; i < nb; i++) {

@@ -179,7 +179,8 @@ function planFit(points: CleanPoints, options: FitOptions): FitPlan {
   if (!(level > 0 && level < 1)) throw new RbfieldError(`the blunder test level must lie between 0 and 1, not ${level}`, ExitCode.usage);
   const candidates = candidateList(kernelOpt, trendOpt);
   if (candidates.length === 0) throw new RbfieldError(`no kernel supports ${trendOpt} trend here`, ExitCode.usage);
-  const prep = prepareData(points, { ...options, transform });
+  // The local method reads the spacing only to place its breakline cuts.
+  const prep = prepareData(points, { ...options, transform }, method === "global" || (options.breaklines?.length ?? 0) > 0);
   const idx = method === "global" && candidates.length > 1 && n > RANK_SUBSAMPLE ? subsampleIndices(n, RANK_SUBSAMPLE) : null;
   const rankData = idx ? subsamplePrepared(prep, idx) : prep;
   return { method, methodChoice, points, options, prep, candidates, rankData, rankedOnSubsample: idx !== null, shapeOpt, smoothing, select, transform };

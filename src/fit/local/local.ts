@@ -28,7 +28,7 @@ import { boundingBox, convexHullRing, medianSpacing, pointIndex } from "../../ge
 import type { LocalDiagnostics, LocalModel, ModelDiagnostics } from "../../model/model.ts";
 import { MODEL_FORMAT, MODEL_VERSION } from "../../model/model.ts";
 import type { CleanPoints, KernelName, TrendName } from "../../types.ts";
-import { runWorker, workersAvailable } from "../../workers.ts";
+import { runWorker, runWorkerQueue, workersAvailable } from "../../workers.ts";
 import type { CandidateScore } from "../candidate.ts";
 import { hasShape, trendTerms } from "../kernels.ts";
 import type { FitOptions, SelectRule } from "../options.ts";
@@ -53,7 +53,7 @@ import { constantPatch } from "./patch_fit.ts";
 import { cutLayout, type LineRecord, linePoints, mapLines, separateFaces } from "./sides.ts";
 import { stretchMap } from "../../geometry.ts";
 import type { BreaklinePart } from "../../model/local.ts";
-import type { FitJob, RankJob } from "./patch_worker.ts";
+import type { FitSetup, FitTask, RankJob } from "./patch_worker.ts";
 
 /**
  * Points above which method "auto" uses the local method. Measured (bench/local.ts --threshold,
@@ -66,15 +66,22 @@ export const LOCAL_AUTO_POINTS = 2000;
  */
 export const DEFAULT_PATCH_POINTS = 150;
 /**
- * Leaf capacity of the 2-d tree as a fraction of patchPoints: a disc of 1.4 half-diagonals over a
- * square cell covers 3.1 cells' area, so cells of up to a third of patchPoints give discs of about
- * patchPoints points before growing.
+ * Leaf capacity of the 2-d tree as a multiple of evenPoints, the points of a square cell whose disc
+ * (overlap × its half-diagonal, covering π·overlap²/2 cells' area: 3.1 at 1.4) holds patchPoints
+ * (48.7 by default, so 63). Evenly spread data stop at cells of about evenPoints points (the tree's
+ * root is sized for that, patches.ts); 1.3 leaves room for their scatter (a cell of 49 points on
+ * average rarely holds more than 63), so such cells are not split into halves that need grown discs.
+ * The cost of the fit goes as N·r·n² (r patches per point, n points per patch): measured on
+ * evenly spread points (bench/local.ts), about 1.4 times less work at 10⁶ points than cells split
+ * at a third of patchPoints, for grid RMSE within 4% (see DEVELOPERS.md, "Local method").
  */
-const LEAF_FRACTION = 1 / 3;
+const LEAF_FRACTION = 1.3;
 /** Default disc radius as a multiple of the tree cell's half-diagonal. */
 export const DEFAULT_OVERLAP = 1.4;
 /** Patches the model choice is made on. */
 export const SAMPLE_PATCHES = 8;
+/** Blocks handed to a worker at a time (about a second of work each here; small enough to balance). */
+const BLOCKS_PER_TASK = 2;
 /** A patch whose points cannot carry the model is enlarged by this factor, at most GROW_TRIES times. */
 const GROW_FACTOR = 1.5;
 const GROW_TRIES = 4;
@@ -99,16 +106,19 @@ interface Settings {
   leafPoints: number;
   minPoints: number;
   overlap: number;
+  evenPoints: number;
 }
 
 function settings(options: FitOptions): Settings {
   const minPoints = options.patchPoints ?? DEFAULT_PATCH_POINTS;
-  const leafPoints = options.leafPoints ?? Math.max(1, Math.round(minPoints * LEAF_FRACTION));
   const overlap = options.overlap ?? DEFAULT_OVERLAP;
+  // A disc of overlap × the half-diagonal around a square cell covers π·overlap²/2 cells' area.
+  const evenPoints = minPoints / (Math.PI * overlap * overlap / 2);
+  const leafPoints = options.leafPoints ?? Math.max(1, Math.round(evenPoints * LEAF_FRACTION));
   if (!(Number.isInteger(minPoints) && minPoints >= 3)) throw new RbfieldError(`${opt("patchPoints")} must be a whole number ≥ 3, not ${minPoints}`, ExitCode.usage);
   if (!(Number.isInteger(leafPoints) && leafPoints >= 1)) throw new RbfieldError(`${opt("leafPoints")} must be a whole number ≥ 1, not ${leafPoints}`, ExitCode.usage);
   if (!(overlap > 1 && overlap <= 4)) throw new RbfieldError(`${opt("overlap")} must lie above 1 and at most 4, not ${overlap}`, ExitCode.usage);
-  return { leafPoints, minPoints, overlap };
+  return { leafPoints, minPoints, overlap, evenPoints };
 }
 
 interface Stage {
@@ -231,7 +241,7 @@ function stage(input: LocalInput): Stage {
   const s = settings(input.options);
   const { prep } = input;
   const minPoints = Math.max(s.minPoints, trendTerms(input.trendOpt === "auto" ? "quadratic" : input.trendOpt) + 2);
-  let layout = buildPatches(prep.u, prep.v, { leafPoints: s.leafPoints, minPoints, overlap: s.overlap });
+  let layout = buildPatches(prep.u, prep.v, { leafPoints: s.leafPoints, minPoints, overlap: s.overlap, evenPoints: s.evenPoints });
   let data: PatchData = { u: prep.u, v: prep.v, values: prep.values, sqrtW: prep.sqrtW, s: prep.s };
   let cut: Cut | null = null;
   if (input.options.breaklines?.length) {
@@ -287,23 +297,13 @@ export async function fitLocalParallel(input: LocalInput, threads: number): Prom
     }));
     const choice = consensus(st, rows);
     input.options.progress?.(`fitting ${layout.count} patches in ${blocks.length} blocks on ${workers} threads`);
-    const results: PatchBlock[] = new Array(blocks.length);
-    await Promise.all(Array.from({ length: workers }, async (_, t) => {
-      const mine = blocks.map((_, b) => b).filter((b) => b % workers === t);
-      const job: FitJob = {
-        kind: "fit",
-        data,
-        cu: layout.cu,
-        cv: layout.cv,
-        radius: layout.radius,
-        start: layout.start,
-        index: layout.index,
-        blocks: mine.map((b) => blocks[b]),
-        model: choice.model,
-      };
-      const reply = await runWorker<{ blocks: PatchBlock[] }>(url, job);
-      mine.forEach((b, i) => (results[b] = reply.blocks[i]));
-    }));
+    // The data and layout go to each worker once; then blocks, a few at a time, to whichever worker
+    // is free (the result is stored by block number, so it does not depend on the scheduling).
+    const setup: FitSetup = { kind: "setup", data, cu: layout.cu, cv: layout.cv, radius: layout.radius, start: layout.start, index: layout.index, model: choice.model };
+    const tasks: FitTask[] = [];
+    for (let b = 0; b < blocks.length; b += BLOCKS_PER_TASK) tasks.push({ kind: "fit", blocks: blocks.slice(b, b + BLOCKS_PER_TASK) });
+    const replies = await runWorkerQueue<{ blocks: PatchBlock[] }>(url, setup, tasks, workers);
+    const results: PatchBlock[] = replies.flatMap((r) => r.blocks);
     return assemble(st, choice, results);
   } catch (e) {
     if (e instanceof RbfieldError) throw e;
@@ -397,6 +397,7 @@ function consensus(st: Stage, rows: CandidateScore[][]): Choice {
 function assemble(st: Stage, choice: Choice, blocks: PatchBlock[]): LocalModel {
   const { input, layout, data } = st;
   const { points, options, prep } = input;
+  options.progress?.(`blending ${layout.count} patches`);
   const n = prep.n;
   const p = layout.count;
   const m = trendTerms(choice.model.trend);

@@ -8,8 +8,15 @@ import { ExitCode, RbfieldError } from "../../errors.ts";
 import { medianSpacing } from "../../geometry.ts";
 import type { KernelName, TrendName } from "../../types.ts";
 import { type FittedCandidate, fitOne, type KernelGroup, rankGroup, type CandidateScore } from "../candidate.ts";
-import { influenceComplementDiagonal, influenceDiagonal, leaveOneOutResiduals, processScale, rotatedBasis } from "../influence.ts";
-import { solveTridiagonal } from "../linalg.ts";
+import {
+  influenceComplementDiagonal,
+  influenceComplementDiagonalCholesky,
+  influenceDiagonal,
+  leaveOneOutResiduals,
+  processScale,
+  rotatedBasis,
+} from "../influence.ts";
+import { applyReflector, applyReflectors, solveTridiagonal } from "../linalg.ts";
 import { hasShape, trendTerms } from "../kernels.ts";
 import type { Prepared } from "../prepare.ts";
 import { robustFit } from "../robust.ts";
@@ -99,55 +106,60 @@ export const MEMBER_FIELDS = 7;
  * for λ just above it tr(I − A) ≈ 1 while the residual is only the pair's difference, so GCV has a
  * second, spurious minimum at near-interpolation, and in a patch of ~150 points it wins whenever the
  * pair happens to agree to better than about σ/10 (GCV replaces each point's leverage by the mean;
- * the same failure select.ts guards against between candidates). The exact leave-one-out residuals
- * (Rippa 1999) at every local minimum of GCV's λ grid cost O(n²) each once Zᵀ = HᵀQ₂ᵀ is formed
- * (rotatedBasis, O(n³), only for patches whose GCV curve has several minima); the minimum with the
- * smallest leave-one-out mean square is kept (the chosen one refined as fitCore refines it, another
- * one at its grid λ).
+ * the same failure select.ts guards against between candidates). At every local minimum of GCV's λ
+ * grid the exact leave-one-out residuals eᵢ = w̃ᵢ/(Dᵢ G̃ᵢᵢ) (Rippa 1999) are computed, G̃ᵢᵢ by one
+ * Cholesky factorisation of B + λI (influenceDiagonal's route, about (2/3)n³) and w̃ = Q₂H(T + λI)⁻¹h
+ * by the fit's reflectors (O(n²)); the minimum with the smallest leave-one-out mean square is kept
+ * (the chosen one refined as fitCore refines it, another one at its grid λ). Returns the diagonal
+ * G̃ᵢᵢ at the λ kept, which fitPatch needs too.
  */
-export function fitPatchSmoothing(prep: Prepared, kernel: KernelName, trend: TrendName, shape: "auto" | number, smoothing: "gcv" | number): { fitted: FittedCandidate; moved: boolean } {
-  const first = fitOne(prep, kernel, trend, shape, smoothing);
-  const kept = { fitted: first, moved: false };
-  if (smoothing !== "gcv") return kept;
+export function fitPatchSmoothing(prep: Prepared, kernel: KernelName, trend: TrendName, shape: "auto" | number, smoothing: "gcv" | number): { fitted: FittedCandidate; moved: boolean; gii: Float64Array } {
+  const first = fitOne(prep, kernel, trend, shape, smoothing, undefined, true);
   const curve = first.fit.curve;
   const minima: number[] = [];
-  for (let i = 0; i < curve.length; i++) {
-    if ((i === 0 || curve[i].gcv < curve[i - 1].gcv) && (i === curve.length - 1 || curve[i].gcv <= curve[i + 1].gcv)) minima.push(i);
+  if (smoothing === "gcv") {
+    for (let i = 0; i < curve.length; i++) {
+      if ((i === 0 || curve[i].gcv < curve[i - 1].gcv) && (i === curve.length - 1 || curve[i].gcv <= curve[i + 1].gcv)) minima.push(i);
+    }
   }
-  if (minima.length < 2) return kept;
+  if (minima.length < 2) return { fitted: first, moved: false, gii: influenceDiagonal(first.fit) };
   const st = first.fit.state;
-  const zt = rotatedBasis(st);
-  const n = st.n, nb = n - st.m;
-  const t = new Float64Array(nb);
-  const looMse = (lambda: number): number => {
-    const gii = influenceComplementDiagonal(st, zt, lambda);
-    solveTridiagonal(st.tri.d, st.tri.e, lambda, st.h, t);
+  const { n, m, tri, qr } = st;
+  const t = new Float64Array(n - m);
+  const w = new Float64Array(n);
+  const looMse = (lambda: number): { mse: number; gii: Float64Array } => {
+    const gii = influenceComplementDiagonalCholesky(st, lambda) ?? influenceComplementDiagonal(st, rotatedBasis(st), lambda);
+    // w̃ = Q₂ H (T + λI)⁻¹ h, as fitCore forms the weights.
+    solveTridiagonal(tri.d, tri.e, lambda, st.h, t);
+    applyReflectors(tri.reflectors, t);
+    w.fill(0, 0, m);
+    w.set(t, m);
+    for (let j = qr.length - 1; j >= 0; j--) applyReflector(qr[j], w);
     let gmax = 0;
     for (const g of gii) gmax = Math.max(gmax, Math.abs(g));
     let ss = 0, count = 0;
     for (let i = 0; i < n; i++) {
       if (!(gii[i] > 1e-12 * gmax)) continue;
-      // w̃ = Z (T + λI)⁻¹ h; eᵢ = w̃ᵢ / (Dᵢ G̃ᵢᵢ) (leaveOneOutResiduals).
-      let w = 0;
-      for (let k = 0; k < nb; k++) w += zt[k * n + i] * t[k];
-      const e = w / ((st.sqrtW ? st.sqrtW[i] : 1) * gii[i]);
+      // eᵢ = w̃ᵢ / (Dᵢ G̃ᵢᵢ) (leaveOneOutResiduals).
+      const e = w[i] / ((st.sqrtW ? st.sqrtW[i] : 1) * gii[i]);
       ss += e * e;
       count++;
     }
-    return count > 0 ? ss / count : Infinity;
+    return { mse: count > 0 ? ss / count : Infinity, gii };
   };
   const chosenScaled = first.fit.lambdaScaled;
-  let best = { lambda: chosenScaled, mse: looMse(chosenScaled) };
+  const atChosen = looMse(chosenScaled);
+  let best = { lambda: chosenScaled, mse: atChosen.mse };
   for (const i of minima) {
     const lambda = curve[i].lambda / first.lambdaToUser;
     // The chosen minimum's own grid point lies within a grid step of it.
     if (Math.abs(Math.log(lambda / chosenScaled)) < Math.log(curve[1].lambda / curve[0].lambda) * 1.5) continue;
-    const mse = looMse(lambda);
+    const { mse } = looMse(lambda);
     if (mse < best.mse) best = { lambda, mse };
   }
-  if (best.lambda === chosenScaled) return kept;
-  const refit = fitOne(prep, kernel, trend, shape, best.lambda * first.lambdaToUser);
-  return { fitted: { ...refit, fit: { ...refit.fit, smoothingChoice: "gcv", curve } }, moved: true };
+  if (best.lambda === chosenScaled) return { fitted: first, moved: false, gii: atChosen.gii };
+  const refit = fitOne(prep, kernel, trend, shape, best.lambda * first.lambdaToUser, undefined, true);
+  return { fitted: { ...refit, fit: { ...refit.fit, smoothingChoice: "gcv", curve } }, moved: true, gii: influenceDiagonal(refit.fit) };
 }
 
 /** Fit one patch and return what the blended model needs. */
@@ -156,6 +168,7 @@ export function fitPatch(data: PatchData, g: PatchGeometry, model: PatchModel): 
   const shape: "auto" | number = hasShape(model.kernel) ? model.shape! : 1;
   let fitted: FittedCandidate;
   let moved: boolean;
+  let gii: Float64Array;
   let robustWeights: Float64Array | undefined;
   let sqrtW = prep.sqrtW;
   let passes = 0, converged = 1;
@@ -165,13 +178,12 @@ export function fitPatch(data: PatchData, g: PatchGeometry, model: PatchModel): 
     const r = robustFit(prep, model.kernel, model.trend, shape, model.smoothing);
     robustWeights = r.weights;
     sqrtW = r.sqrtW;
-    ({ fitted, moved } = fitPatchSmoothing({ ...prep, sqrtW }, model.kernel, model.trend, shape, model.smoothing));
+    ({ fitted, moved, gii } = fitPatchSmoothing({ ...prep, sqrtW }, model.kernel, model.trend, shape, model.smoothing));
     passes = r.passes;
     converged = r.converged ? 1 : 0;
-  } else ({ fitted, moved } = fitPatchSmoothing(prep, model.kernel, model.trend, shape, model.smoothing));
+  } else ({ fitted, moved, gii } = fitPatchSmoothing(prep, model.kernel, model.trend, shape, model.smoothing));
   const { fit, zs } = fitted;
   const n = prep.n;
-  const gii = influenceDiagonal(fit);
   const loo = leaveOneOutResiduals(fit, zs, gii);
   const b = processScale(fit.state);
   let gmax = 0;

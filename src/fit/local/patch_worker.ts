@@ -4,17 +4,22 @@ import { workerPort } from "../../workers.ts";
 import type { KernelGroup } from "../candidate.ts";
 import { blockBuffers, fitPatchBlock, type PatchBlock, type PatchData, type PatchGeometry, type PatchModel, rankPatch } from "./patch_fit.ts";
 
-export interface FitJob {
-  kind: "fit";
+/** Posted once to each fitting worker: the data and the patch layout. */
+export interface FitSetup {
+  kind: "setup";
   data: PatchData;
   cu: Float64Array;
   cv: Float64Array;
   radius: Float64Array;
   start: Int32Array;
   index: Int32Array;
-  /** Blocks of patch numbers, each fitted in order. */
-  blocks: number[][];
   model: PatchModel;
+}
+
+/** Then, one at a time: blocks of patch numbers, each fitted in order. */
+export interface FitTask {
+  kind: "fit";
+  blocks: number[][];
 }
 
 export interface RankJob {
@@ -26,21 +31,28 @@ export interface RankJob {
   smoothing: "gcv" | number;
 }
 
+let setup: FitSetup | null = null;
+
 globalThis.addEventListener("message", (e: Event) => {
-  const job = (e as MessageEvent<FitJob | RankJob>).data;
+  const job = (e as MessageEvent<FitSetup | FitTask | RankJob>).data;
   try {
+    if (job.kind === "setup") {
+      setup = job;
+      return;
+    }
     if (job.kind === "rank") {
       const rows = job.geometries.map((g) => rankPatch(job.data, g, job.groups, job.shapeOpt, job.smoothing));
       workerPort.postMessage({ rows });
       return;
     }
+    const s = setup!;
     const geometry = (j: number): PatchGeometry => ({
-      cu: job.cu[j],
-      cv: job.cv[j],
-      radius: job.radius[j],
-      members: job.index.subarray(job.start[j], job.start[j + 1]),
+      cu: s.cu[j],
+      cv: s.cv[j],
+      radius: s.radius[j],
+      members: s.index.subarray(s.start[j], s.start[j + 1]),
     });
-    const blocks: PatchBlock[] = job.blocks.map((b) => fitPatchBlock(job.data, geometry, b, job.model));
+    const blocks: PatchBlock[] = job.blocks.map((b) => fitPatchBlock(s.data, geometry, b, s.model));
     workerPort.postMessage({ blocks }, blocks.flatMap(blockBuffers));
   } catch (err) {
     workerPort.postMessage({ error: (err as Error)?.message ?? String(err) });

@@ -9,7 +9,8 @@
 //
 // Patches adapt to point density: a 2-d tree over the data (cells halved at their midpoints, so the
 // layout does not depend on the order of the points) is refined while a cell holds more than
-// `leafPoints` points. Every leaf cell that meets the data's bounding box gets one patch: a disc on the cell's
+// `leafPoints` points, from a root square sized so that evenly spread data stop at cells of about
+// `evenPoints` points whatever their number (treeLeaves). Every leaf cell that meets the data's bounding box gets one patch: a disc on the cell's
 // centre with radius `overlap` × the cell's half-diagonal (overlap > 1, so every place of the cell,
 // its corners included, lies strictly inside the disc: the bounding box is covered), grown where the
 // disc holds fewer than `minPoints` points (sparse corners, empty cells between clusters) until it
@@ -52,6 +53,12 @@ export interface PatchLayout {
 export interface LayoutOptions {
   /** A tree cell is split while it holds more than this many points. */
   leafPoints: number;
+  /**
+   * Points a leaf should hold where the data are evenly spread: the tree's root square is sized so
+   * that its cells at some even depth hold about this many (see treeLeaves). 0: the root is the
+   * square around the data.
+   */
+  evenPoints: number;
   /** Every patch is grown to hold at least this many points (all points when there are fewer). */
   minPoints: number;
   /** Disc radius as a multiple of the cell's half-diagonal (> 1). */
@@ -73,20 +80,41 @@ interface Leaf {
 }
 
 /**
- * Leaves of a 2-d tree with midpoint splits: the root is the square around the data's bounding box;
- * a cell with more than `leafPoints` points is halved across its longer side (across u when square),
- * so cells are squares or 2:1 rectangles. Halving rather than quartering keeps leaf counts within a
- * factor 2 of each other (a quadtree's vary by 4) for evenly spread data. Leaves are listed in the
- * tree's order (west/south child first), which is also a spatial order.
+ * Leaves of a 2-d tree with midpoint splits: the root is a square centred on the data's bounding
+ * box; a cell with more than `leafPoints` points is halved across its longer side (across u when
+ * square), so cells are squares or 2:1 rectangles. Halving rather than quartering keeps leaf counts
+ * within a factor 2 of each other (a quadtree's vary by 4) for evenly spread data. Leaves are listed
+ * in the tree's order (west/south child first), which is also a spatial order.
+ *
+ * The root's side is h·2ᵏ, the smallest such square covering the bounding box, with h the side of a
+ * square that holds `evenPoints` points at the data's mean density (h² = A·evenPoints/N, A the
+ * bounding box's area). Evenly spread data then stop splitting at squares of side h, whatever N;
+ * with the root fitted to the bounding box, their leaves held N/2ᵈ points, anywhere between
+ * leafPoints/2 and leafPoints as N changes, and the smaller ones needed grown discs (more patches,
+ * each as large). Cells of the larger root that miss the bounding box get no patch.
  */
-function treeLeaves(u: Float64Array, v: Float64Array, leafPoints: number): Leaf[] {
+function treeLeaves(u: Float64Array, v: Float64Array, leafPoints: number, evenPoints: number): Leaf[] {
   const box = boundingBox(u, v);
   const mu = 0.5 * (box.xmin + box.xmax), mv = 0.5 * (box.ymin + box.ymax);
   const bu = 0.5 * (box.xmax - box.xmin), bv = 0.5 * (box.ymax - box.ymin);
-  const half = Math.max(bu, bv) || 1;
+  let half = Math.max(bu, bv) || 1;
+  // Half the side h of the cells evenly spread data stop at (Infinity: no such size).
+  let even = Infinity;
+  if (evenPoints > 0 && u.length > evenPoints) {
+    // A (nearly) collinear set counts as a strip one mean spacing wide, so h stays positive.
+    const area = Math.max(4 * bu * bv, (4 * half * half) / u.length);
+    const h = Math.sqrt((area * evenPoints) / u.length);
+    const k = Math.max(0, Math.ceil(Math.log2((2 * half) / h)));
+    half = 0.5 * h * 2 ** k;
+    even = 0.5 * h;
+  }
+  // A cell reaching beyond the bounding box is split down to side h whatever its count, so that no
+  // cell larger than the interior's lies across the data's edge (its disc would reach far inside).
+  const straddles = (cu: number, cv: number, hu: number, hv: number) =>
+    Math.max(hu, hv) > even && (cu - hu < box.xmin || cu + hu > box.xmax || cv - hv < box.ymin || cv + hv > box.ymax);
   const leaves: Leaf[] = [];
   const visit = (cu: number, cv: number, hu: number, hv: number, idx: Int32Array, depth: number) => {
-    if (idx.length <= leafPoints || depth >= MAX_DEPTH) {
+    if ((idx.length <= leafPoints && !straddles(cu, cv, hu, hv)) || depth >= MAX_DEPTH) {
       // Leaves that do not meet the bounding box need no patch (only possible for empty ones).
       if (Math.abs(cu - mu) <= hu + bu && Math.abs(cv - mv) <= hv + bv) leaves.push({ cu, cv, hu, hv, count: idx.length });
       return;
@@ -135,7 +163,7 @@ export function grownRadius(index: Flatbush, u: Float64Array, v: Float64Array, c
 export function buildPatches(u: Float64Array, v: Float64Array, options: LayoutOptions): PatchLayout {
   const n = u.length;
   const minPoints = Math.min(options.minPoints, n);
-  const leaves = treeLeaves(u, v, options.leafPoints);
+  const leaves = treeLeaves(u, v, options.leafPoints, options.evenPoints);
   const index = pointIndex(u, v);
   const count = leaves.length;
   const cu = new Float64Array(count), cv = new Float64Array(count), radius = new Float64Array(count);
