@@ -441,3 +441,16 @@ describe("local method: model choice, blunders and the method switch", () => {
     expect(Math.abs(st.at(0.3, 0.8) - (2 + 0.9 - 0.8))).toBeLessThan(1e-8);
   });
 });
+
+describe("model choice on overlapping sample patches", () => {
+  // On a small survey the eight sample patches cover the same points several times; the pooled
+  // errors then rest on the distinct points, which the model records (the standard errors are scaled
+  // by members ÷ distinct points: Kish 1965's design effect for repeated units).
+  it("records the distinct points the pooled errors rest on", () => {
+    const pts = makePoints(200, 5, (x, y) => 10 * franke(x / 100, y / 100), 0, 0, 100);
+    const model = fitSurface(pts, { method: "local" });
+    const c = model.diagnostics.local!.consensus!;
+    expect(c.distinctPoints).toBeLessThanOrEqual(200);
+    expect(c.points).toBeGreaterThan(2 * c.distinctPoints!);
+  });
+});

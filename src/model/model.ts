@@ -119,6 +119,8 @@ export interface LocalDiagnostics {
     samples: number;
     rule: string;
     points: number;
+    /** The distinct points among them (patches overlap; optional, absent in older files). */
+    distinctPoints?: number;
     /** The shapes (ε per map unit) the sample patches found for the chosen kernel; null when it has none or it was given. */
     shapes: number[] | null;
   } | null;

@@ -171,7 +171,7 @@ export function renderReport(input: ReportInput): string {
   }
   if (d.selection) {
     const by = d.selection.by === "gcv" ? "GCV score" : d.selection.by === "loocv" ? "leave-one-out RMSE" : "leave-one-out RMSE, simplest within one standard error of the best";
-    selection += `<h3>Candidate models</h3><p class="note">Ranked by ${esc(by)}${d.selection.onSubsample ? (d.local?.consensus ? `, on ${d.local.consensus.samples} sample patches of the local method (${d.selection.onSubsample} patch members pooled; the patches overlap, so a point may count more than once)` : `, on a ${d.selection.onSubsample}-point subsample`) : ""}; the chosen model is marked.</p>` +
+    selection += `<h3>Candidate models</h3><p class="note">Ranked by ${esc(by)}${d.selection.onSubsample ? (d.local?.consensus ? `, on ${d.local.consensus.samples} sample patches of the local method (${d.selection.onSubsample} patch members pooled${d.local.consensus.distinctPoints ? `, ${d.local.consensus.distinctPoints} distinct points; the standard errors allow for the overlap` : ""})` : `, on a ${d.selection.onSubsample}-point subsample`) : ""}; the chosen model is marked.</p>` +
       table(
         ["", "kernel", "trend", "shape ε", "λ", "edf", "GCV", `LOO RMSE${ruText}`, "± SE", "note"],
         d.selection.ranking.map((c) => [

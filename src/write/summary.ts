@@ -130,7 +130,7 @@ export function modelSummaryLines(model: SurfaceModel, projectedFrom?: string): 
       `Selection: ${sel.ranking.length} candidate models ranked by ${byText}` +
         (sel.onSubsample
           ? model.method === "local" && d.local?.consensus
-            ? ` on ${d.local.consensus.samples} sample patches (${sel.onSubsample} patch members pooled; the patches overlap, so a point may count more than once)`
+            ? ` on ${d.local.consensus.samples} sample patches (${sel.onSubsample} patch members pooled${d.local.consensus.distinctPoints ? `, ${d.local.consensus.distinctPoints} distinct points` : ""})`
             : ` on a ${sel.onSubsample}-point subsample`
           : "") + " (best first):",
     );

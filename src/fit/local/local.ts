@@ -349,6 +349,13 @@ function consensus(st: Stage, rows: CandidateScore[][]): Choice {
   const used = rows.map((_, s) => s).filter((s) => rows[s].some((x) => Number.isFinite(x.loocvRmse)));
   if (used.length === 0) throw new RbfieldError("no candidate model could be fitted to the sample patches of the local method", ExitCode.numerical);
   const pooledPoints = used.reduce((a, s) => a + sizeOf(s), 0);
+  // Sample patches may overlap (on a small survey they cover the same points several times): the
+  // pooled errors then rest on fewer independent points than members, so the variance of the pooled
+  // mean square error is scaled by members ÷ distinct points (Kish's design effect for repeated
+  // units, Kish 1965), and the few-points rule counts distinct points.
+  const distinct = new Set<number>();
+  for (const s of used) for (let k = st.layout.start[st.samples[s]]; k < st.layout.start[st.samples[s] + 1]; k++) distinct.add(st.layout.index[k]);
+  const overlap = pooledPoints / Math.max(distinct.size, 1);
   const pooled: CandidateScore[] = input.candidates.map((c) => {
     const mine = used.map((s) => ({ n: sizeOf(s), row: rows[s].find((x) => x.kernel === c.kernel && x.trend === c.trend) }));
     const complete = mine.every((x) => x.row && Number.isFinite(x.row.loocvRmse) && Number.isFinite(x.row.gcv));
@@ -370,13 +377,13 @@ function consensus(st: Stage, rows: CandidateScore[][]): Choice {
       edf: med((x) => x.edf),
       gcv: complete ? gcv : NaN,
       loocvRmse: complete ? rmse : NaN,
-      loocvSe: complete && rmse > 0 ? Math.sqrt(varMse) / (2 * rmse) : complete ? 0 : NaN,
+      loocvSe: complete && rmse > 0 ? Math.sqrt(varMse * overlap) / (2 * rmse) : complete ? 0 : NaN,
       heldAtFloor: found.filter((x) => x.heldAtFloor).length * 2 > found.length,
       excluded: complete ? null : "could not be fitted on every sample patch",
       chosen: false,
     };
   });
-  const outcome = chooseCandidate(pooled, input.select, shapeGiven, pooledPoints);
+  const outcome = chooseCandidate(pooled, input.select, shapeGiven, distinct.size);
   const winner = outcome.ranking.find((r) => r.chosen)!;
   const shapes = hasShape(winner.kernel) && !shapeGiven
     ? used.map((s) => rows[s].find((x) => x.kernel === winner.kernel && x.shape !== null)?.shape).filter((x): x is number => typeof x === "number")
@@ -388,6 +395,7 @@ function consensus(st: Stage, rows: CandidateScore[][]): Choice {
       samples: used.length,
       rule: "leave-one-out errors pooled over the sample patches' points, then the selection rule; shape the median of the samples' shapes",
       points: pooledPoints,
+      distinctPoints: distinct.size,
       shapes,
     },
   };
