@@ -259,7 +259,12 @@ function finishFit(plan: FitPlan, outcome: SelectionOutcome | null): FittedModel
         `lines ${points.lines.filter((_, i) => Number.isNaN(loo[i])).slice(0, 5).join(", ")}`,
     );
   }
-  if (fit.condition > 1e10) warnings.push(`the system is close to ill-conditioned (condition estimate ${fit.condition.toExponential(2)})`);
+  if (fit.condition > 1e10) {
+    warnings.push(
+      `the system is close to ill-conditioned (condition estimate ${fit.condition.toExponential(2)}; λ keeps it below 10¹², so the results hold): ` +
+        "readings very close together or a very flat shape cause it; check near-coincident shots, or give --kernel thin-plate",
+    );
+  }
   if (snoop.truncated) {
     warnings.push(
       `the blunder test stopped after setting ${snoop.flagged.length} points aside with more still beyond its critical value: ` +
