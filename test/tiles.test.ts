@@ -147,6 +147,22 @@ describe("a grid in tiles equals the grid written whole", () => {
     expect(Buffer.compare(bytes(errors), bytes(g.wholeSe))).toBe(0);
   });
 
+  it("a breakline model (the invented Heron Lane strings) on two threads: byte-identical, from the whole model", async () => {
+    // A breakline model's sides are found per disc over all patches, so every tile uses the whole
+    // model; its buffers go to each worker thread afresh (240 × 154 cells of 0.5 m start workers).
+    const heron = path.join(path.dirname(new URL(import.meta.url).pathname), "..", "samples", "heron-lane-strings.csv");
+    const model = path.join(tmp, "heron.rbfield.json");
+    const f = await cli(["fit", heron, "--crs", "local:m", "--x", "easting", "--y", "northing", "--z", "level", "--strings", "code=KT,CH,CL,BT,BB,DT,DI", "--out", model, "--quiet"]);
+    expect(f.code, f.err).toBe(0);
+    const g = await gridInTiles(model, "heron", [], { cols: 240, rows: 154, size: 128, cell: 0.5, extent: "0,1.5,120,78.5" });
+    const values = await assemble(g.tiles, path.join(tmp, "heron.assembled.tif"));
+    const errors = await assemble(g.seTiles, path.join(tmp, "heron.assembled.se.tif"));
+    expect(Buffer.compare(bytes(values), bytes(g.whole))).toBe(0);
+    expect(Buffer.compare(bytes(errors), bytes(g.wholeSe))).toBe(0);
+    // Every tile names the whole model as what it was computed from.
+    for (const j of g.json) expect([j.patches, j.points]).toEqual([g.json[0].patches, g.json[0].points]);
+  }, 120_000);
+
   it.skipIf(skipGdal)("each tile's origin (gdalinfo) is the whole grid's moved by whole cells; tiles are cut at the grid's edge", async () => {
     const name = "local-hull";
     const whole = gdalinfo(path.join(tmp, `${name}.tif`));

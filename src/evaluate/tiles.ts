@@ -104,8 +104,10 @@ export function patchesReaching(p: Pick<PackedLocal, "cu" | "cv" | "radius" | "s
 export function packForBox(model: SurfaceModel, box: { xmin: number; ymin: number; xmax: number; ymax: number }): { packed: PackedSurface; patches: number | null; points: number } {
   const packed = packSurface(model);
   if (packed.method !== "local") return { packed, patches: null, points: model.points.x.length };
-  const chosen = patchesReaching(packed, box);
   const l = (model as Extract<SurfaceModel, { method: "local" }>).local;
+  // With breaklines the sides are found per disc over all patches: the whole model is used.
+  if (packed.sides) return { packed, patches: packed.cu.length, points: model.points.x.length };
+  const chosen = patchesReaching(packed, box);
   const used = new Set<number>();
   for (const j of chosen) for (let k = l.start[j]; k < l.start[j + 1]; k++) used.add(l.index[k]);
   return { packed: subsetPatches(packed, chosen), patches: chosen.length, points: used.size };
@@ -151,7 +153,9 @@ export async function gridTile(
   const { packed, patches, points } = packForBox(model, windowBox(whole, w));
   const values = new Float64Array(cells);
   options.progress?.(`tile ${tile.col},${tile.row}: ${w.c1 - w.c0} × ${w.r1 - w.r0} cells${patches === null ? "" : ` from ${patches} patches`}`);
-  const pack = () => (packed.method === "local" ? subsetPatches(packed, Int32Array.from({ length: packed.cu.length }, (_, j) => j)) : packSurface(model));
+  // A fresh pack for each worker: its buffers are transferred (a breakline model's pack is the whole
+  // model, which subsetPatches returns as it is, so it is packed again).
+  const pack = () => (packed.method === "local" && !packed.sides ? subsetPatches(packed, Int32Array.from({ length: packed.cu.length }, (_, j) => j)) : packSurface(model));
   const work = cells * points;
   await evaluateWindow(pack, whole, w, mask, values, work < 2e7 ? 1 : threads, options.progress);
   const spec = windowSpec(whole, w);
@@ -182,7 +186,8 @@ export async function tileStandardError(model: SurfaceModel, t: GridTile, thread
       ymin: whole.ymax - (sub.rows[sub.rows.length - 1] + 0.5) * whole.cell,
     };
     const chosen = patchesReaching(full.surface, box);
-    const pack = () => subsetLocalErrors(full, chosen, box);
+    // A fresh pack for each worker (its buffers are transferred; a breakline model's is packed again).
+    const pack = () => (full.surface.sides ? packLocalErrors(model as Extract<SurfaceModel, { method: "local" }>) : subsetLocalErrors(full, chosen, box));
     if (workersAvailable(threads) && sub.rows.length >= 2) nodes = await nodesInWorkers(pack, whole, sub, maskedRows, threads);
     else errorsAtNodes(localErrorEstimatorPacked(pack()), whole, sub, 0, sub.rows.length, masked, nodes);
   } else errorsAtNodes(est!, whole, sub, 0, sub.rows.length, masked, nodes);
