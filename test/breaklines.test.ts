@@ -357,6 +357,14 @@ describe("coded strings and vertical faces", () => {
       const shots = ids.flatMap((c, i) => (c === "KT" ? [i] : [])).slice(0, 5);
       expect(shots.length).toBe(5);
       for (const i of shots) expect(se.at(model.points.x[i], model.points.y[i])).toBeGreaterThan(0.95 * model.diagnostics.sigma);
+      // At a ground shot the stored standard error (from the fit) agrees with the one computed 1 mm
+      // away (from the patches): the standard error is continuous (common practice: a reading has no
+      // special error bar of its own), within 5 %.
+      ids.forEach((c, i) => {
+        if (c !== "GS") return;
+        const a = se.at(model.points.x[i], model.points.y[i]), b = se.at(model.points.x[i] + 0.001, model.points.y[i]);
+        expect(Math.abs(a - b)).toBeLessThan(0.05 * b);
+      });
     } finally {
       fs.rmSync(tmp, { recursive: true, force: true });
     }

@@ -493,6 +493,9 @@ function assemble(st: Stage, choice: Choice, blocks: PatchBlock[]): LocalModel {
   const fitted = new Float64Array(n), loo = new Float64Array(n), hat = new Float64Array(n), pointSe = new Float64Array(n);
   const fieldOf = (k: number, j: number, f: number) => member[j][(k - start[j]) * MEMBER_FIELDS + f];
   const patchOf = (j: number, f: number) => scalars[j * SCALARS + f];
+  // Sides fitted as a constant level carry the spread of their values as standard error (constantPatch).
+  const constantSe = new Float64Array(p).fill(NaN);
+  st.cut?.constant.forEach((j, a) => (constantSe[j] = st.cut!.constantSe[a]));
   for (let j = 0; j < p; j++) {
     for (let k = start[j]; k < start[j + 1]; k++) {
       const i = index[k];
@@ -502,7 +505,9 @@ function assemble(st: Stage, choice: Choice, blocks: PatchBlock[]): LocalModel {
       loo[i] += w * fieldOf(k, j, 2);
       hat[i] += w * fieldOf(k, j, 4);
       // The patch's standard error at its own data point: zsⱼ √(b̂ⱼ λⱼ Aᵢᵢ / ωᵢ) (evaluate/local_stderr.ts).
-      pointSe[i] += w * patchOf(j, 1) * Math.sqrt(Math.max(patchOf(j, 9) * patchOf(j, 3) * fieldOf(k, j, 4) / fieldOf(k, j, 6), 0));
+      pointSe[i] += w * (Number.isNaN(constantSe[j])
+        ? patchOf(j, 1) * Math.sqrt(Math.max(patchOf(j, 9) * patchOf(j, 3) * fieldOf(k, j, 4) / fieldOf(k, j, 6), 0))
+        : constantSe[j]);
     }
   }
   // Data points a 3-D line point stands for: on the line, which the surface passes through.
