@@ -244,6 +244,13 @@ describe.skipIf(skipGdal)("GeoTIFF as read by GDAL's gdalinfo", () => {
     expect(Number(info.bands[0].metadata[""].STATISTICS_MINIMUM)).toBe(-2.125);
   });
 
+  it("keeps a unit beyond ASCII and XML's special characters as GDAL reads them (µg/l, <b>, quotes)", () => {
+    // XML 1.0 numeric character references and entities, decoded by GDAL's XML parser.
+    const info = gdalinfo(sampleGrid(MGA55), "band-ug.tif", { band: { description: "a <b> \"c\"", unit: "µg/l" } });
+    expect(info.bands[0].description).toBe("a <b> \"c\"");
+    expect(info.bands[0].unit).toBe("µg/l");
+  });
+
   it("local site grid has no EPSG:4326 (geotiff.js's default) or any EPSG CRS", () => {
     const grid = sampleGrid(LOCAL);
     const info = gdalinfo(grid, "local.tif");

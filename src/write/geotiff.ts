@@ -48,8 +48,18 @@ export function bandText(valueName: string, content: "values" | "standard errors
 
 /** GDAL_METADATA's XML for band 1 (sample 0): the description and unit type roles GDAL reads. */
 function gdalMetadataXml(band: BandText): string {
-  // Printable ASCII without XML's special characters, so the text needs no escapes and its length is bounded.
-  const esc = (t: string, limit: number) => asciiCitation(t, limit).replace(/[&<>"]/g, "?");
+  // XML text (W3C XML 1.0): <, > and " as entities, & as "and", other characters beyond ASCII (µ in µg/l) as
+  // numeric character references, control characters left out; at most `limit` characters of the text.
+  const esc = (t: string, limit: number) =>
+    [...t].slice(0, limit).map((ch) => {
+      const code = ch.codePointAt(0)!;
+      if (ch === "&") return "and"; // GDAL's reader cut the text at &amp; (GDAL 3.x, seen here)
+      if (ch === "<") return "&lt;";
+      if (ch === ">") return "&gt;";
+      if (ch === '"') return "&quot;";
+      if (code < 0x20 || code === 0x7f) return "";
+      return code > 0x7e ? `&#${code};` : ch;
+    }).join("");
   const items = [`<Item name="DESCRIPTION" sample="0" role="description">${esc(band.description, 60)}</Item>`];
   if (band.unit) items.push(`<Item name="UNITTYPE" sample="0" role="unittype">${esc(band.unit, 16)}</Item>`);
   return `<GDALMetadata>${items.join("")}</GDALMetadata>`;
@@ -60,7 +70,9 @@ function bandFromXml(xml: string): BandText | undefined {
   const d = /<Item name="DESCRIPTION" sample="0" role="description">([^<]*)<\/Item>/.exec(xml);
   if (!d) return undefined;
   const u = /<Item name="UNITTYPE" sample="0" role="unittype">([^<]*)<\/Item>/.exec(xml);
-  return { description: d[1], ...(u ? { unit: u[1] } : {}) };
+  const text = (t: string) =>
+    t.replace(/&#(\d+);|&(amp|lt|gt|quot);/g, (_, code, name) => (code ? String.fromCodePoint(Number(code)) : { amp: "&", lt: "<", gt: ">", quot: '"' }[name as "amp"]));
+  return { description: text(d[1]), ...(u ? { unit: text(u[1]) } : {}) };
 }
 
 /** Is the CRS geographic? From its kind when known (models since the CRS module), else the EPSG range 4000–4999. */
