@@ -109,6 +109,16 @@ function prepareOutput(out: string, inputs: string[]): void {
   checkWritableFolder(out);
 }
 
+function removeStaleSidecar(file: string): void {
+  try {
+    const fd = fs.openSync(file, "r");
+    const head = new Uint8Array(8);
+    fs.readSync(fd, head, 0, 8, 0);
+    fs.closeSync(fd);
+    if (new TextDecoder().decode(head) === "RBFIELDB") fs.rmSync(file);
+  } catch { /* none there */ }
+}
+
 export async function fitVerb(src: PointsSource, fit: FitOptions, out: string, otherInputs: string[] = [], maxMemory?: number): Promise<VerbResult> {
   const inputs = [src.file, ...otherInputs];
   prepareOutput(out, inputs);
@@ -127,6 +137,9 @@ export async function fitVerb(src: PointsSource, fit: FitOptions, out: string, o
   });
   const files = modelFiles(out, r.model);
   writeFilesAtomic(files);
+  // A binary part left beside the file by an earlier local model (it starts RBFIELDB) belongs to no
+  // model now; any other file of that name is left alone.
+  if (files.length === 1) removeStaleSidecar(sidecarPath(out));
   const data = files[1]?.[0] ?? null;
   return {
     text: [...r.notes, ...modelSummaryLines(r.model, projectedFrom(r.crsChoice)), `Model written to ${out}${data ? ` (its arrays in ${data})` : ""}`, "", CAUTION, ""].join("\n"),

@@ -350,7 +350,7 @@ describe("coded strings and vertical faces", () => {
       }
       // At the string shots themselves the standard error is about the fit's σ, not 0 (their levels
       // are taken as exact by the fits; a shot is as good as the survey's noise). Kerb lines sit a
-      // hair off their shots (a vertical face's two lines are moved 0.5 % of the spacing apart), so
+      // hair off their shots (a vertical face's two lines are moved 0.5 % of the spacing each, 1 % apart), so
       // the taper there is just below 1.
       const se = makeErrorEstimator(model);
       const ids = model.points.text?.find((t) => t.role === "code")?.values ?? [];

@@ -229,3 +229,24 @@ describe("the sidecar is an output like the others", () => {
     expect(fs.readdirSync(dir).sort()).toEqual(RUN_OUTPUTS.filter((o) => !o.optional).map((o) => o.file).sort());
   }, 120_000);
 });
+
+describe("fit over an earlier local model", () => {
+  it("a global model written where a local one was removes the local model's sidecar, and leaves another file of that name alone", async () => {
+    const dir = fs.mkdtempSync(path.join(os.tmpdir(), "rbfield-stale-"));
+    try {
+      const small = path.join(dir, "small.csv");
+      fs.writeFileSync(small, fs.readFileSync(pointsFile, "utf8").split("\n").slice(0, 301).join("\n") + "\n");
+      const model = path.join(dir, "m.rbfield.json");
+      expect((await cli(["fit", small, "--out", model, "--method", "local", "--quiet"])).code).toBe(0);
+      expect(fs.existsSync(sidecarPath(model))).toBe(true);
+      expect((await cli(["fit", small, "--out", model, "--method", "global", "--kernel", "thin-plate", "--quiet"])).code).toBe(0);
+      expect(fs.existsSync(sidecarPath(model))).toBe(false);
+      // A file of the sidecar's name that is not one (no RBFIELDB header) is not touched.
+      fs.writeFileSync(sidecarPath(model), "not a sidecar");
+      expect((await cli(["fit", small, "--out", model, "--method", "global", "--kernel", "thin-plate", "--quiet"])).code).toBe(0);
+      expect(fs.readFileSync(sidecarPath(model), "utf8")).toBe("not a sidecar");
+    } finally {
+      fs.rmSync(dir, { recursive: true, force: true });
+    }
+  });
+});

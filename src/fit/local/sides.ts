@@ -340,7 +340,7 @@ export function cutLayout(
     if (map.near.length === 0 || map.sides <= 1) {
       maps.push(null);
       parent.push(j);
-      side.push(map.sides === 1 ? 0 : 0);
+      side.push(0);
       const all = [...own, ...extra];
       lists.push(all);
       reports.push(all.map((i) => (i < n ? 1 : 0)));
