@@ -3,6 +3,7 @@
 // and the ratio of minima and of means against a reference measured in the same run. The subject
 // and the reference alternate (ABBA order), so drift on a noisy machine falls on both alike.
 // Read the minimum first: on a shared machine noise only ever adds time.
+import { peakResidentBytes } from "../src/job/memory.ts";
 
 /** One run's time in seconds and its result. */
 export interface Timed<T> {
@@ -208,12 +209,8 @@ export async function writeJson(path: string, data: unknown): Promise<void> {
   await Deno.writeTextFile(path, JSON.stringify(data, null, 1) + "\n");
 }
 
-/** Peak resident set of this process so far (VmHWM), MiB; NaN where /proc is unavailable. */
+/** Peak resident set of this process so far, MiB (peakResidentBytes of src/job/memory.ts); NaN where unknown. */
 export function peakRss(): number {
-  try {
-    const m = /VmHWM:\s+(\d+) kB/.exec(Deno.readTextFileSync("/proc/self/status"));
-    return m ? Number(m[1]) / 1024 : NaN;
-  } catch {
-    return NaN;
-  }
+  const bytes = peakResidentBytes();
+  return bytes === null ? NaN : bytes / 2 ** 20;
 }

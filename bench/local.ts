@@ -11,7 +11,7 @@
 // Every stage prints its wall time, the CPU time of the process over all its threads (Linux), the
 // largest resident set sampled (Deno.memoryUsage().rss every 50 ms while the main thread waits for
 // workers, and at each stage's end) and the process's peak
-// (VmHWM from /proc/self/status, Linux), and the RMSE of the grid against the true function. The
+// (getrusage's maximum resident set, src/job/memory.ts peakResidentBytes), and the RMSE of the grid against the true function. The
 // fitted exponent of wall time against N comes from a least-squares line through log t and log N.
 // scipy: RBFInterpolator(neighbors=50, kernel="thin_plate_spline", degree=1) on N = 2·10⁵ points,
 // evaluated on a 500 × 500 grid, run by Debian's /usr/bin/python3 with OPENBLAS_CORETYPE and
@@ -106,7 +106,7 @@ const gridOptions = (side: number) => ({ cell: SITE / side, extent: [0, 0, SITE,
 async function scaling(sizes: number[]): Promise<void> {
   const totals: number[] = [], fits: number[] = [], grids: number[] = [];
   for (const n of sizes) {
-    const rows: string[][] = [["stage", "seconds", "cpu s (all threads)", "rss MiB (sampled)", "peak MiB (VmHWM)"]];
+    const rows: string[][] = [["stage", "seconds", "cpu s (all threads)", "rss MiB (sampled)", "peak MiB (max RSS)"]];
     const points = sitePoints(n, 2024);
     console.log(`\nN = ${n.toLocaleString("en")} points, grid 1000 × 1000 cells of 1 m`);
     // Progress lines carry the time since the fit started: the fit's own stages (layout, model

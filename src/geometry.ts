@@ -201,6 +201,27 @@ export function stretchMap(an: { azimuth: number; factor: number; x0: number; y0
   };
 }
 
+/**
+ * Map coordinates → scaled model coordinates (the stretch, then centring and scaling): the one
+ * mapping the fits prepare their data with and the evaluators use.
+ */
+export function coordinateMapper(p: { scaling: { cx: number; cy: number; s: number }; stretch: { azimuth: number; factor: number; x0: number; y0: number } | null }): (x: number, y: number, out: Float64Array) => void {
+  const { cx, cy, s } = p.scaling;
+  const an = p.stretch;
+  if (!an) {
+    return (x, y, out) => {
+      out[0] = (x - cx) / s;
+      out[1] = (y - cy) / s;
+    };
+  }
+  const rotate = stretchMap(an);
+  return (x, y, out) => {
+    rotate(x, y, out);
+    out[0] = (out[0] - cx) / s;
+    out[1] = (out[1] - cy) / s;
+  };
+}
+
 /** Is (x, y) inside the closed ring? Crossing-number test with the half-open rule (common practice). */
 export function pointInRing(x: number, y: number, ring: ArrayLike<ArrayLike<number>>): boolean {
   let inside = false;

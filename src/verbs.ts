@@ -27,7 +27,8 @@ import {
   type RunOptions,
 } from "./job.ts";
 import { modelFiles, type SurfaceModel } from "./model/model.ts";
-import { sidecarPath } from "./model/binary.ts";
+import type { GridValues } from "./types.ts";
+import { isSidecarFile, sidecarPath } from "./model/binary.ts";
 import type { MaskFile } from "./read/mask.ts";
 import { checkWritableFolder, refuseFolderAsOutput, refuseInputAsOutput, writeFileAtomic, writeFilesAtomic } from "./write/atomic.ts";
 import { contourGeoJson } from "./write/contours.ts";
@@ -109,16 +110,6 @@ function prepareOutput(out: string, inputs: string[]): void {
   checkWritableFolder(out);
 }
 
-function removeStaleSidecar(file: string): void {
-  try {
-    const fd = fs.openSync(file, "r");
-    const head = new Uint8Array(8);
-    fs.readSync(fd, head, 0, 8, 0);
-    fs.closeSync(fd);
-    if (new TextDecoder().decode(head) === "RBFIELDB") fs.rmSync(file);
-  } catch { /* none there */ }
-}
-
 export async function fitVerb(src: PointsSource, fit: FitOptions, out: string, otherInputs: string[] = [], maxMemory?: number): Promise<VerbResult> {
   const inputs = [src.file, ...otherInputs];
   prepareOutput(out, inputs);
@@ -139,7 +130,7 @@ export async function fitVerb(src: PointsSource, fit: FitOptions, out: string, o
   writeFilesAtomic(files);
   // A binary part left beside the file by an earlier local model (it starts RBFIELDB) belongs to no
   // model now; any other file of that name is left alone.
-  if (files.length === 1) removeStaleSidecar(sidecarPath(out));
+  if (files.length === 1 && isSidecarFile(sidecarPath(out))) fs.rmSync(sidecarPath(out));
   const data = files[1]?.[0] ?? null;
   return {
     text: [...r.notes, ...modelSummaryLines(r.model, projectedFrom(r.crsChoice)), `Model written to ${out}${data ? ` (its arrays in ${data})` : ""}`, "", CAUTION, ""].join("\n"),
@@ -398,6 +389,17 @@ export async function predictVerb(o: PredictVerbOptions): Promise<VerbResult> {
   };
 }
 
+/**
+ * A model's grid made only to be drawn (map, report): the mask applied, no finer than the sheet
+ * shows unless a cell is given (drawingCell), checked against the memory limit first.
+ */
+async function drawingGrid(model: SurfaceModel, o: { grid: GridOptions; mask?: MaskFile; maxMemory?: number }, stderr: boolean): Promise<GridValues> {
+  const masked = (await gridOptionsFor(model, o.grid, o.mask)).grid;
+  const gridOpts = { ...masked, cell: masked.cell ?? drawingCell(model, masked) };
+  checkGridMemory(model, gridOpts, o.maxMemory, { stderr });
+  return await gridModelParallel(model, gridOpts);
+}
+
 export interface MapVerbOptions {
   /** A model file, or a GeoTIFF grid (by its .tif/.tiff ending). */
   input: string;
@@ -438,11 +440,7 @@ export async function mapVerb(o: MapVerbOptions): Promise<VerbResult> {
     input = mapInputFromGrid(grid, { rule, title: o.title ?? path.basename(o.input), dataFile: path.basename(o.input), date });
   } else {
     const model = readModel(o.input);
-    const gridOpts = (await gridOptionsFor(model, o.grid, o.mask)).grid;
-    // A grid only to be drawn: no finer than the sheet can show, unless a cell is given.
-    if (gridOpts.cell === undefined) gridOpts.cell = drawingCell(model, gridOpts);
-    checkGridMemory(model, gridOpts, o.maxMemory, {});
-    const grid = await gridModelParallel(model, gridOpts);
+    const grid = await drawingGrid(model, o, false);
     input = mapInputFromModel(model, grid, { rule: chooseLevelRule(o, grid.values, model.transform), title: o.title, date });
   }
   o.grid.progress?.(`drawing the map${format === "svg" ? "" : ` and writing it as ${format.toUpperCase()}`}`);
@@ -466,22 +464,8 @@ export async function mapVerb(o: MapVerbOptions): Promise<VerbResult> {
   };
 }
 
-/** The report of a saved model (report verb): the same page as run's report.html. */
-export interface ReportVerbOptions {
-  model: string;
-  /** FILE.html */
-  out: string;
-  interval?: number;
-  base?: number;
-  levels?: number[];
-  title?: string;
-  /** Date printed on the report, YYYY-MM-DD (default today, UTC). */
-  date?: string;
-  grid: GridOptions;
-  mask?: MaskFile;
-  otherInputs?: string[];
-  maxMemory?: number;
-}
+/** The report of a saved model (report verb): the same page as run's report.html; `out` is FILE.html. */
+export type ReportVerbOptions = Omit<MapVerbOptions, "input" | "sheet"> & { model: string };
 
 /**
  * The HTML report of a saved model: its surface map and standard-error map gridded as `grid` would,
@@ -493,11 +477,8 @@ export async function reportVerb(o: ReportVerbOptions): Promise<VerbResult> {
   prepareOutput(o.out, [...modelInputs(o.model), ...(o.mask ? [o.mask.file] : []), ...(o.otherInputs ?? [])]);
   const date = o.date ?? new Date().toISOString().slice(0, 10);
   const model = readModel(o.model);
-  const gridOpts = (await gridOptionsFor(model, o.grid, o.mask)).grid;
-  if (gridOpts.cell === undefined) gridOpts.cell = drawingCell(model, gridOpts);
-  checkGridMemory(model, gridOpts, o.maxMemory, { stderr: true });
   o.grid.progress?.("gridding");
-  const grid = await gridModelParallel(model, gridOpts);
+  const grid = await drawingGrid(model, o, true);
   o.grid.progress?.("standard errors");
   const errors = await gridStandardErrorParallel(model, grid, o.grid.progress);
   const rule = chooseLevelRule(o, grid.values, model.transform);

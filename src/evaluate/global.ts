@@ -3,7 +3,9 @@
 // (what worker threads receive); the evaluator is built from the packed form only, so the main
 // thread and the workers run the same code on the same numbers.
 import { trendRow } from "../fit/kernels.ts";
-import { stretchMap } from "../geometry.ts";
+import { coordinateMapper } from "../geometry.ts";
+
+export { coordinateMapper };
 import type { GlobalModel } from "../model/model.ts";
 import type { KernelName } from "../types.ts";
 
@@ -29,24 +31,6 @@ export interface PackedGlobal {
   v: Float64Array;
   w: Float64Array;
   c: Float64Array;
-}
-
-/** Map coordinates → scaled model coordinates (the stretch, then centring and scaling). */
-export function coordinateMapper(p: Pick<PackedGlobal, "scaling" | "stretch">): (x: number, y: number, out: Float64Array) => void {
-  const { cx, cy, s } = p.scaling;
-  const an = p.stretch;
-  if (!an) {
-    return (x, y, out) => {
-      out[0] = (x - cx) / s;
-      out[1] = (y - cy) / s;
-    };
-  }
-  const rotate = stretchMap(an);
-  return (x, y, out) => {
-    rotate(x, y, out);
-    out[0] = (out[0] - cx) / s;
-    out[1] = (out[1] - cy) / s;
-  };
 }
 
 /** Scaled coordinates of the model's data points. */

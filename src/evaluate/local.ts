@@ -85,7 +85,7 @@ export function localCentres(model: LocalModel): { u: Float64Array; v: Float64Ar
 }
 
 function localMapper(scaling: { cx: number; cy: number; s: number }, stretch: LocalModel["stretch"]) {
-  return coordinateMapper({ scaling: { ...scaling, zc: 0, zs: 1 }, stretch });
+  return coordinateMapper({ scaling, stretch });
 }
 
 export function packLocal(model: LocalModel): PackedLocal {

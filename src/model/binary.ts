@@ -11,12 +11,29 @@
 // length; each moved array's place in the JSON holds the string "binary". On reading, the size, the header, the checksum and every array's bounds are checked before
 // any number is used; the model's own checks (model.ts) then check every array's length and values.
 // In the file, NaN in `loo` and `looStandardised` stands for JSON's null (undefined residuals).
+import * as fs from "node:fs";
 import * as zlib from "node:zlib";
 import { ExitCode, RbfieldError } from "../errors.ts";
 
 /** Layout version of the sidecar bytes (the header's second field). */
 export const BINARY_LAYOUT = 1;
 const MAGIC = "RBFIELDB";
+/** Does `file` start as a sidecar does (its first bytes are MAGIC)? False when it cannot be read. */
+export function isSidecarFile(file: string): boolean {
+  try {
+    const fd = fs.openSync(file, "r");
+    const head = new Uint8Array(MAGIC.length);
+    try {
+      fs.readSync(fd, head, 0, head.length, 0);
+    } finally {
+      fs.closeSync(fd);
+    }
+    return String.fromCharCode(...head) === MAGIC;
+  } catch {
+    return false;
+  }
+}
+
 /** What a moved array's place in the JSON holds. */
 export const MARKER = "binary";
 const HEADER = 16;

@@ -24,7 +24,7 @@
 //                     degrees of freedom. Not iterated (no data snooping): a blunder's neighbours in
 //                     the same patch can be flagged with it.
 import { ExitCode, opt, RbfieldError } from "../../errors.ts";
-import { boundingBox, convexHullRing, medianSpacing, pointIndex } from "../../geometry.ts";
+import { boundingBox, convexHullRing, coordinateMapper, medianSpacing, pointIndex } from "../../geometry.ts";
 import type { LocalDiagnostics, LocalModel, ModelDiagnostics } from "../../model/model.ts";
 import { MODEL_FORMAT, MODEL_VERSION } from "../../model/model.ts";
 import type { CleanPoints, KernelName, TrendName } from "../../types.ts";
@@ -51,7 +51,6 @@ import {
 import { buildPatches, compress, growPatch, type PatchLayout, patchWeight, samplePatches } from "./patches.ts";
 import { constantPatch } from "./patch_fit.ts";
 import { cutLayout, type LineRecord, linePoints, mapLines, separateFaces } from "./sides.ts";
-import { stretchMap } from "../../geometry.ts";
 import type { BreaklinePart } from "../../model/local.ts";
 import type { FitSetup, FitTask, RankJob } from "./patch_worker.ts";
 
@@ -160,27 +159,13 @@ interface Cut {
   constantSe: number[];
 }
 
-/** The fit's coordinate mapping (the stretch, then centring and scaling), as evaluate/global.ts coordinateMapper. */
-function fitMapper(prep: Prepared): (x: number, y: number, out: Float64Array) => void {
-  const { cx, cy, s } = prep;
-  const rotate = prep.stretch ? stretchMap(prep.stretch) : null;
-  return (x, y, out) => {
-    if (rotate) rotate(x, y, out);
-    else {
-      out[0] = x;
-      out[1] = y;
-    }
-    out[0] = (out[0] - cx) / s;
-    out[1] = (out[1] - cy) / s;
-  };
-}
-
 /** Cut the discs by the breaklines: the sides become the patches; 3-D lines add their points. */
 function cutStage(input: LocalInput, layout: PatchLayout, data: PatchData, minPoints: number, m: number): { layout: PatchLayout; data: PatchData; cut: Cut } {
   const { prep } = input;
   const given = input.options.breaklines!;
   const n = prep.n;
-  const map = fitMapper(prep);
+  // The fit's coordinate mapping, the same arithmetic the evaluator uses (the side maps depend on it).
+  const map = coordinateMapper({ scaling: prep, stretch: prep.stretch });
   const step = 0.5 * prep.spacingScaled;
   // Data points at a 3-D line's vertex (the shots of a coded string): the line stands for them.
   const at = new Set<string>();
