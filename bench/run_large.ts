@@ -49,14 +49,18 @@ const args = ["run", "-A", cli, "run", csv, "--out", out, "--cell", String(CELL)
 const t0 = performance.now();
 const child = new Deno.Command(Deno.execPath(), { args, stdout: "piped", stderr: "piped" }).spawn();
 // Peak resident set of the child: VmHWM only grows, so the last reading before it exits is the peak.
+// The largest resident set seen during each stage (VmRSS sampled every 100 ms) says where the peak is.
 let peakKiB = 0;
+const stages: { message: string; at: number; rssKiB: number }[] = [];
 const poll = setInterval(() => {
   try {
-    const m = /^VmHWM:\s+(\d+)\s+kB/m.exec(fs.readFileSync(`/proc/${child.pid}/status`, "utf8"));
+    const status = fs.readFileSync(`/proc/${child.pid}/status`, "utf8");
+    const m = /^VmHWM:\s+(\d+)\s+kB/m.exec(status), r = /^VmRSS:\s+(\d+)\s+kB/m.exec(status);
     if (m) peakKiB = Math.max(peakKiB, Number(m[1]));
+    const last = stages[stages.length - 1];
+    if (r && last) last.rssKiB = Math.max(last.rssKiB, Number(r[1]));
   } catch { /* exited */ }
 }, 100);
-const stages: { message: string; at: number }[] = [];
 const decoder = new TextDecoder();
 let pending = "";
 const readErr = (async () => {
@@ -67,7 +71,7 @@ const readErr = (async () => {
       const line = pending.slice(0, k);
       pending = pending.slice(k + 1);
       const m = /^rbfield: (.*)$/.exec(line);
-      if (m && !/^warning:/.test(m[1])) stages.push({ message: m[1].replace(/\s+\d+%.*$/, ""), at: performance.now() });
+      if (m && !/^warning:/.test(m[1])) stages.push({ message: m[1].replace(/\s+\d+%.*$/, ""), at: performance.now(), rssKiB: 0 });
       else if (line.trim()) console.error(line);
     }
   }
@@ -83,11 +87,11 @@ if (!status.success) {
 }
 
 // Stage times: from each progress message to the next (the last to the end).
-const rows: [string, string][] = [];
+const rows: [string, string, string][] = [];
 for (let i = 0; i < stages.length; i++) {
   const end = i + 1 < stages.length ? stages[i + 1].at : t0 + wall * 1000;
   const s = (end - stages[i].at) / 1000;
-  if (s >= 0.05) rows.push([stages[i].message, s.toFixed(2)]);
+  if (s >= 0.05) rows.push([stages[i].message, s.toFixed(2), stages[i].rssKiB ? (stages[i].rssKiB / 1024).toFixed(0) : ""]);
 }
 const grid = await readGrid(path.join(out, "surface.tif"));
 let ss = 0, count = 0;
@@ -104,7 +108,8 @@ const rmse = Math.sqrt(ss / count);
 const peakMiB = peakKiB / 1024;
 const width = Math.max(...rows.map((r) => r[0].length), 10);
 console.log(`run on ${N.toLocaleString("en")} points, ${grid.spec.cols} × ${grid.spec.rows} grid (${os.cpus().length} cores, ${(os.totalmem() / 2 ** 30).toFixed(0)} GiB; ${new Date().toISOString()})`);
-for (const [m, s] of rows) console.log(`  ${m.padEnd(width)}  ${s.padStart(7)} s`);
+console.log(`  ${"stage (time to the next stage; largest resident set seen in it)".padEnd(width)}`);
+for (const [m, s, rss] of rows) console.log(`  ${m.padEnd(width)}  ${s.padStart(7)} s ${rss.padStart(6)} MiB`);
 console.log(`  ${"wall".padEnd(width)}  ${wall.toFixed(2).padStart(7)} s   target ≤ 60 s at 10⁶ (ratio ${(wall / 60).toFixed(2)})`);
 console.log(`  ${"peak memory".padEnd(width)}  ${peakMiB.toFixed(0).padStart(7)} MiB target ≤ 2048 MiB (ratio ${(peakMiB / 2048).toFixed(2)})`);
 console.log(`  ${"RMSE vs truth".padEnd(width)}  ${rmse.toFixed(4).padStart(7)}   target ≤ 0.02 (ratio ${(rmse / 0.02).toFixed(2)}; noise sd 0.05)`);

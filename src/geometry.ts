@@ -57,8 +57,42 @@ export function nearestDistances(x: Float64Array, y: Float64Array): Float64Array
   const n = x.length;
   const d = new Float64Array(n);
   const { xmin, ymin, xmax, ymax } = boundingBox(x, y);
+  if (!(xmax - xmin > 0 || ymax - ymin > 0)) return d; // all points coincide
+  const grid = bucketGrid(x, y);
+  if (!grid) return nearestDistancesByTree(x, y);
+  const { cols, order, cellOf, xs, ys } = grid;
+  const search = ringSearch(grid);
+  for (let self = 0; self < n; self++) {
+    const i = order[self];
+    const c0 = cellOf[i] % cols, r0 = (cellOf[i] - c0) / cols;
+    const q = search(xs[self], ys[self], c0, r0, self);
+    d[i] = Math.hypot(xs[self] - xs[q], ys[self] - ys[q]);
+  }
+  return d;
+}
+
+/** The uniform bucket grid of nearestDistances: points sorted by cell, coordinates in that order. */
+interface BucketGrid {
+  xmin: number;
+  ymin: number;
+  h: number;
+  cols: number;
+  rows: number;
+  /** Cell k holds sorted positions start[k] … start[k + 1] − 1. */
+  start: Int32Array;
+  /** Point number at each sorted position; cell of each point. */
+  order: Int32Array;
+  cellOf: Int32Array;
+  xs: Float64Array;
+  ys: Float64Array;
+}
+
+/** The bucket grid of a point set, or null when the points coincide or cluster too strongly for it (BUCKET_WORK). */
+function bucketGrid(x: Float64Array, y: Float64Array): BucketGrid | null {
+  const n = x.length;
+  const { xmin, ymin, xmax, ymax } = boundingBox(x, y);
   const w = xmax - xmin, hgt = ymax - ymin;
-  if (!(w > 0 || hgt > 0)) return d; // all points coincide
+  if (!(w > 0 || hgt > 0)) return null;
   const cells = Math.max(1, Math.floor(n * CELLS_PER_POINT));
   const h = w > 0 && hgt > 0 ? Math.max(Math.sqrt((w * hgt) / cells), Math.max(w, hgt) / cells) : Math.max(w, hgt) / cells;
   const cols = Math.min(Math.floor(w / h) + 1, cells + 1), rows = Math.min(Math.floor(hgt / h) + 1, cells + 1);
@@ -74,13 +108,24 @@ export function nearestDistances(x: Float64Array, y: Float64Array): Float64Array
     work += start[k + 1] * start[k + 1];
     start[k + 1] += start[k];
   }
-  if (work > BUCKET_WORK * n) return nearestDistancesByTree(x, y);
+  if (work > BUCKET_WORK * n) return null;
   const order = new Int32Array(n);
   const fill = start.slice(0, cols * rows);
   for (let i = 0; i < n; i++) order[fill[cellOf[i]]++] = i;
   // Coordinates in cell order, so that a cell's points are contiguous.
   const xs = Float64Array.from(order, (i) => x[i]), ys = Float64Array.from(order, (i) => y[i]);
-  let self = 0, xi = 0, yi = 0, best = Infinity, bestQ = -1;
+  return { xmin, ymin, h, cols, rows, start, order, cellOf, xs, ys };
+}
+
+/**
+ * The nearest point to (px, py), which lies in cell (c0, r0) of the grid, leaving out sorted position
+ * `skip` (−1: none): cells in rings of growing Chebyshev radius r, stopping once the nearest distance
+ * found is at most r·h, since every point beyond ring r lies at least that far away (Bentley, Weide &
+ * Yao 1980). Returns the sorted position of the nearest point (the first of equals in scan order).
+ */
+function ringSearch(g: BucketGrid): (px: number, py: number, c0: number, r0: number, skip: number) => number {
+  const { cols, rows, start, xs, ys, h } = g;
+  let self = -1, xi = 0, yi = 0, best = Infinity, bestQ = -1;
   const scan = (c: number, r: number) => {
     if (c < 0 || c >= cols || r < 0 || r >= rows) return;
     const k = r * cols + c;
@@ -94,13 +139,12 @@ export function nearestDistances(x: Float64Array, y: Float64Array): Float64Array
       }
     }
   };
-  for (self = 0; self < n; self++) {
-    const i = order[self];
-    xi = xs[self];
-    yi = ys[self];
+  return (px, py, c0, r0, skip) => {
+    self = skip;
+    xi = px;
+    yi = py;
     best = Infinity;
     bestQ = -1;
-    const c0 = cellOf[i] % cols, r0 = (cellOf[i] - c0) / cols;
     for (let ring = 0; ; ring++) {
       if (ring === 0) scan(c0, r0);
       else {
@@ -117,9 +161,35 @@ export function nearestDistances(x: Float64Array, y: Float64Array): Float64Array
       if (best <= reach * reach) break;
       if (c0 - ring <= 0 && r0 - ring <= 0 && c0 + ring >= cols - 1 && r0 + ring >= rows - 1) break;
     }
-    d[i] = Math.hypot(xi - xs[bestQ], yi - ys[bestQ]);
-  }
-  return d;
+    return bestQ;
+  };
+}
+
+/**
+ * Distance from a place to the nearest of the points (Math.hypot of the coordinate differences), by
+ * the bucket grid of nearestDistances for places inside its cells (the points' bounding box and a
+ * little more) (about 0.3 µs a
+ * query at 10⁶ points, against 4 µs for the tree); places outside it, coincident or strongly
+ * clustered points use the flatbush tree (built when first needed).
+ */
+export function nearestPointDistance(x: Float64Array, y: Float64Array): (px: number, py: number) => number {
+  const grid = x.length ? bucketGrid(x, y) : null;
+  let tree: Flatbush | undefined;
+  const byTree = (px: number, py: number) => {
+    tree ??= pointIndex(x, y);
+    const [j] = tree.neighbors(px, py, 1);
+    return x.length ? Math.hypot(px - x[j], py - y[j]) : NaN;
+  };
+  if (!grid) return byTree;
+  const search = ringSearch(grid);
+  const { xmin, ymin, h, cols, rows, xs, ys } = grid;
+  return (px, py) => {
+    const c = Math.floor((px - xmin) / h), r = Math.floor((py - ymin) / h);
+    // The ring bound holds for a place inside its cell; the cells cover the points' box and a little more.
+    if (!(c >= 0 && r >= 0 && c < cols && r < rows)) return byTree(px, py);
+    const q = search(px, py, c, r, -1);
+    return Math.hypot(px - xs[q], py - ys[q]);
+  };
 }
 
 /** nearestDistances by the flatbush tree (for strongly clustered points). */

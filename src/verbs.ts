@@ -13,7 +13,7 @@ import type { FitOptions } from "./fit/surface.ts";
 import {
   estimateColumns,
   estimateSummaryLines,
-  estimateTable,
+  estimateTableParallel,
   estimateWarnings,
   fitPointsFile,
   gridOptionsFor,
@@ -370,7 +370,7 @@ export async function predictVerb(o: PredictVerbOptions): Promise<VerbResult> {
   checkMemory(estimate, memory, []);
   const table = await readLocations(o.locations, model, { x: o.x, y: o.y, header: o.header, crs: o.crs });
   o.progress?.(`estimates and standard errors at ${table.rows.length} places`);
-  const est = estimateTable(model, table);
+  const est = await estimateTableParallel(model, table);
   writeFileAtomic(o.out, estimatesCsv(table, estimateColumns(est)));
   return {
     text: [...estimateSummaryLines(est, model), `Written to ${o.out}`, "", CAUTION, ""].join("\n"),

@@ -14,7 +14,7 @@ import { fitSurface, fitSurfaceParallel, fitSurfaceWithFactors, LOCAL_AUTO_POINT
 import type { FitOptions } from "../src/fit/options.ts";
 import { makeEvaluator } from "../src/evaluate/evaluate.ts";
 import { gridModel } from "../src/evaluate/grid.ts";
-import { gridModelParallel } from "../src/evaluate/parallel.ts";
+import { evaluatePlacesParallel, gridModelParallel } from "../src/evaluate/parallel.ts";
 import { makeErrorEstimator } from "../src/evaluate/stderr.ts";
 import { type LocalModel, modelFromJson, modelToJson, type SurfaceModel } from "../src/model/model.ts";
 import { ExitCode } from "../src/errors.ts";
@@ -336,6 +336,20 @@ describe("local method: smoothness and determinism", () => {
     for (const threads of [2, 3]) {
       const parallel = await gridModelParallel(model, options, threads);
       expect(Buffer.from(parallel.values.buffer).equals(Buffer.from(serial.values.buffer)), `${threads} threads`).toBe(true);
+    }
+  });
+
+  it("evaluates at a list of places to the same bytes in one thread and in 2 or 3 workers (estimates at every reading)", async () => {
+    const u = mulberry32(33);
+    const n = 10_000;
+    const x = Float64Array.from({ length: n }, (_, i) => (i === 5 ? NaN : -0.1 + 1.2 * u()));
+    const y = Float64Array.from({ length: n }, () => -0.1 + 1.2 * u());
+    const ev = makeEvaluator(model);
+    const serial = Float64Array.from(x, (xi, i) => (Number.isFinite(xi) ? ev.at(xi, y[i]) : NaN));
+    expect(serial[5]).toBeNaN();
+    for (const threads of [1, 2, 3]) {
+      const parallel = await evaluatePlacesParallel(model, x, y, threads);
+      expect(Buffer.from(parallel.buffer).equals(Buffer.from(serial.buffer)), `${threads} threads`).toBe(true);
     }
   });
 

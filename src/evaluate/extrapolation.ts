@@ -1,7 +1,7 @@
 // Where an estimate is an extrapolation: outside the convex hull of the readings, or far from the
 // nearest reading, or far outside the range of the readings. Estimates there rest on the trend and
 // the kernel's behaviour away from data rather than on nearby readings (common practice to report).
-import { distanceToRing, pointInRing, pointIndex } from "../geometry.ts";
+import { distanceToRing, nearestPointDistance, pointInRing } from "../geometry.ts";
 import type { SurfaceModel } from "../model/model.ts";
 
 /** An estimate farther than this many median point spacings from the nearest reading is "far from data". */
@@ -23,7 +23,7 @@ export interface ExtrapolationCheck {
 
 export function makeExtrapolationCheck(model: SurfaceModel): ExtrapolationCheck {
   const { x, y, z } = model.points;
-  const index = pointIndex(x, y);
+  const nearest = nearestPointDistance(Float64Array.from(x), Float64Array.from(y));
   const farDistance = FAR_SPACINGS * model.spacing;
   let lo = Infinity, hi = -Infinity;
   for (const v of z) {
@@ -40,8 +40,7 @@ export function makeExtrapolationCheck(model: SurfaceModel): ExtrapolationCheck 
   const onEdge = 1e-9 * Math.max(e.xmax - e.xmin, e.ymax - e.ymin, 1e-300);
   return {
     at(px, py) {
-      const [j] = index.neighbors(px, py, 1);
-      const distance = Math.hypot(px - x[j], py - y[j]);
+      const distance = nearest(px, py);
       // A place on the hull's edge (a reading at a corner, say) counts as inside.
       const outsideHull = !pointInRing(px, py, model.hull) && distanceToRing(px, py, model.hull) > onEdge;
       return { distance, outsideHull, far: distance > farDistance };

@@ -5,7 +5,7 @@ import type { SurfaceModel } from "../model/model.ts";
 import type { GridSpec, GridValues } from "../types.ts";
 import { runWorker, workersAvailable } from "../workers.ts";
 import { evaluatorOf, type PackedSurface, packSurface, surfaceBuffers } from "./evaluate.ts";
-import { checkFiniteCells, evaluateRows, gridLayout, gridModel, type GridOptions, type GridWindow, startGrid } from "./grid.ts";
+import { checkFiniteCells, evaluatePlaces, evaluateRows, gridLayout, gridModel, type GridOptions, type GridWindow, startGrid } from "./grid.ts";
 
 /** Cells × centres below which one thread is faster than starting workers. */
 const PARALLEL_WORK = 2e7;
@@ -61,4 +61,27 @@ export async function evaluateWindow(
     jobs.push(runWorker<Float64Array>(url, job, transfer).then((block) => values.set(block, (rowStart - w.r0) * width)));
   }
   await Promise.all(jobs);
+}
+
+/**
+ * The surface at places (NaN where x or y is not finite), split into one contiguous block per thread
+ * (estimates at every reading of a big survey); each value comes from the same code as in one thread.
+ */
+export async function evaluatePlacesParallel(model: SurfaceModel, x: Float64Array, y: Float64Array, threads = navigator.hardwareConcurrency || 1): Promise<Float64Array> {
+  const single = () => evaluatePlaces(evaluatorOf(packSurface(model)), x, y);
+  if (!workersAvailable(threads) || x.length < 2 || x.length * model.points.x.length < PARALLEL_WORK) return single();
+  const values = new Float64Array(x.length);
+  const blocks = Math.min(threads, x.length), per = Math.ceil(x.length / blocks);
+  const url = new URL("./grid_worker.ts", import.meta.url);
+  try {
+    await Promise.all(Array.from({ length: blocks }, (_, b) => {
+      const from = b * per, to = Math.min(x.length, from + per);
+      const surface = packSurface(model);
+      const job = { surface, x: x.slice(from, to), y: y.slice(from, to) };
+      return runWorker<Float64Array>(url, job, [...surfaceBuffers(surface), job.x.buffer, job.y.buffer]).then((block) => values.set(block, from));
+    }));
+  } catch {
+    return single();
+  }
+  return values;
 }

@@ -2,6 +2,7 @@
 // extrapolation marks, and what the summary and stderr say about them.
 import { ExitCode, RbfieldError } from "../errors.ts";
 import { makeEvaluator } from "../evaluate/evaluate.ts";
+import { evaluatePlacesParallel } from "../evaluate/parallel.ts";
 import { extrapolationNote, FAR_SPACINGS, makeExtrapolationCheck } from "../evaluate/extrapolation.ts";
 import { type ErrorEstimator, makeErrorEstimator } from "../evaluate/stderr.ts";
 import { describeCrs } from "../crs/crs.ts";
@@ -13,7 +14,7 @@ import type { PointTable } from "../types.ts";
 import { fmt } from "../write/summary.ts";
 
 /** A table's coordinate column as numbers: the typed values, or the cells parsed for a hand-made table. */
-function coordinateColumn(table: PointTable, j: number): Float64Array {
+export function coordinateColumn(table: PointTable, j: number): Float64Array {
   const col = table.data?.[j];
   if (col && col.kind === "number") return col.values;
   return Float64Array.from(table.rows, (row) => parseNumber(row[j] ?? "", table.decimalComma));
@@ -64,13 +65,15 @@ export interface EstimateTable {
 /**
  * Estimates (and standard errors) at the rows of a locations table. Rows without usable x, y (or
  * so far away that the estimate is not a finite number) get empty cells and are listed in `unusable`.
+ * `values`, when given, are the surface at the rows already (evaluatePlacesParallel, the same numbers).
  */
 export function estimateTable(
   model: SurfaceModel,
   table: PointTable,
   se: ErrorEstimator | null = makeErrorEstimator(model),
+  values?: Float64Array,
 ): EstimateTable {
-  const ev = makeEvaluator(model);
+  const ev = values ? undefined : makeEvaluator(model);
   const check = makeExtrapolationCheck(model);
   const rows = table.lines.length;
   const est = new Float64Array(rows);
@@ -82,7 +85,7 @@ export function estimateTable(
   const xs = coordinateColumn(table, table.xColumn), ys = coordinateColumn(table, table.yColumn);
   table.lines.forEach((_line, i) => {
     const x = xs[i], y = ys[i];
-    const value = Number.isFinite(x) && Number.isFinite(y) ? ev.at(x, y) : NaN;
+    const value = values ? values[i] : Number.isFinite(x) && Number.isFinite(y) ? ev!.at(x, y) : NaN;
     const line = table.lines[i];
     if (!Number.isFinite(value)) {
       est[i] = NaN;
@@ -160,4 +163,10 @@ export function estimateSummaryLines(est: EstimateTable, model: SurfaceModel): s
     );
   }
   return out;
+}
+
+/** estimateTable with the surface evaluated in worker threads (evaluatePlacesParallel) for big tables. */
+export async function estimateTableParallel(model: SurfaceModel, table: PointTable, se: ErrorEstimator | null = makeErrorEstimator(model)): Promise<EstimateTable> {
+  const values = await evaluatePlacesParallel(model, coordinateColumn(table, table.xColumn), coordinateColumn(table, table.yColumn));
+  return estimateTable(model, table, se, values);
 }

@@ -19,7 +19,7 @@ import { encodeModel, type SurfaceModel } from "../model/model.ts";
 import { checkWritableFolder, ensureFolder, refuseFolderAsOutput, refuseInputAsOutput, writeFilesAtomic } from "../write/atomic.ts";
 import { contourText, fmt, gridText, missedLevelWarnings, modelSummaryLines, summaryText } from "../write/summary.ts";
 import { fitPointsFile, gridOptionsFor, inputJson, isolationNotes, type LoadedPoints, pointNotes, type PointsSource, projectedFrom } from "./points.ts";
-import { estimateColumns, estimateSummaryLines, estimateTable, estimateWarnings, readLocations, standardErrorLines } from "./estimates.ts";
+import { estimateColumns, estimateSummaryLines, estimateTableParallel, estimateWarnings, readLocations, standardErrorLines } from "./estimates.ts";
 
 export interface RunOptions extends PointsSource {
   outDir: string;
@@ -135,7 +135,7 @@ async function runInto(opts: RunOptions, files: Record<string, string>, inputs: 
   opts.progress?.("standard errors");
   // One error estimator serves the estimates table and the error grid, from the fit's own factors.
   const errorEstimator = makeErrorEstimator(model, fitted.factors);
-  const est = estimateTable(model, locTable, errorEstimator);
+  const est = await estimateTableParallel(model, locTable, errorEstimator);
   const errors = await gridStandardErrorParallel(model, grid, opts.progress, errorEstimator);
   const seRange = valueRange(errors.grid.values);
   const gridRange = valueRange(grid.values);
