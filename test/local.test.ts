@@ -7,7 +7,10 @@
 // stated beside each check), and bytes compared between serial and parallel runs.
 import { execFileSync, spawnSync } from "node:child_process";
 import * as fs from "node:fs";
+import * as os from "node:os";
 import * as path from "node:path";
+import { main } from "../src/cli.ts";
+import { readGrid } from "../src/job/points.ts";
 import { describe, expect, it } from "vitest";
 import { Matrix, solve } from "ml-matrix";
 import { fitSurface, fitSurfaceParallel, fitSurfaceWithFactors, LOCAL_AUTO_POINTS, MAX_GLOBAL_POINTS } from "../src/fit/surface.ts";
@@ -257,27 +260,96 @@ describe("local method against the global method (Franke's function, noise sd 0.
   });
 });
 
+/**
+ * The blended standard error Σⱼ wⱼ zsⱼ √(b̂ⱼ(φ(0) − sᵀMⱼ⁻¹s)) at (x, y), every patch's system solved
+ * with ml-matrix: b̂ = ỹᵀw̃/(n − m), Var = b̂(φ(0) − sᵀM⁻¹s) (universal kriging with the trend; stderr.ts).
+ */
+function blendedStandardError(model: LocalModel, x: number, y: number): number {
+  let expected = 0;
+  for (const [j, w] of blendWeights(model, x, y)) {
+    const sys = patchSystem(model, j);
+    let yw = 0;
+    for (let a = 0; a < sys.n; a++) yw += sys.rhs.get(a, 0) * sys.coef.get(a, 0);
+    const b = yw / (sys.n - 3);
+    const s = sys.s(x, y);
+    const q = s.transpose().mmul(solve(sys.M, s)).get(0, 0);
+    expected += w * model.local.zs[j] * Math.sqrt(Math.max(b * (sys.phi(0) - q), 0));
+  }
+  return expected;
+}
+
 describe("local method: standard errors", () => {
   it("blend the patches' kriging standard errors, each from a direct ml-matrix solve (Wendland weights)", () => {
     const pts = noisyFranke(300, 14);
     const model = local(fitSurface(pts, { method: "local", kernel: "thin-plate", trend: "linear", patchPoints: 60 }));
     const est = makeErrorEstimator(model);
-    const l = model.local;
     const r = mulberry32(2);
     for (let k = 0; k < 6; k++) {
       const x = r(), y = r();
-      let expected = 0;
-      for (const [j, w] of blendWeights(model, x, y)) {
-        const sys = patchSystem(model, j);
-        // b̂ = ỹᵀw̃/(n − m), Var = b̂(φ(0) − sᵀM⁻¹s) (universal kriging with the trend; stderr.ts).
-        let yw = 0;
-        for (let a = 0; a < sys.n; a++) yw += sys.rhs.get(a, 0) * sys.coef.get(a, 0);
-        const b = yw / (sys.n - 3);
-        const s = sys.s(x, y);
-        const q = s.transpose().mmul(solve(sys.M, s)).get(0, 0);
-        expected += w * l.zs[j] * Math.sqrt(Math.max(b * (sys.phi(0) - q), 0));
-      }
+      const expected = blendedStandardError(model, x, y);
       expect(Math.abs(est.at(x, y) - expected) / expected).toBeLessThan(1e-6);
+    }
+  });
+
+  // `run` asks the fit for each patch's error at the error grid's nodes while the fit holds the
+  // patch's factors (FitOptions.errorPlaces): the same numbers, with no patch factorised again.
+  it("computed by the fit at the error grid's nodes: every blended patch served, equal to direct ml-matrix solves", () => {
+    const pts = noisyFranke(300, 14);
+    const xs = Float64Array.from({ length: 9 }, (_, j) => 0.05 + 0.1125 * j), ys = Float64Array.from({ length: 7 }, (_, i) => 0.95 - 0.15 * i);
+    let asked = 0;
+    const fitted = fitSurfaceWithFactors(pts, {
+      method: "local",
+      kernel: "thin-plate",
+      trend: "linear",
+      patchPoints: 60,
+      errorPlaces: (work) => {
+        asked = work;
+        return { x: xs, y: ys };
+      },
+    });
+    expect(asked).toBeGreaterThan(0);
+    const model = local(fitted.model);
+    const places = fitted.places!;
+    const est = makeErrorEstimator(model, undefined, places);
+    expect(est.fromFit).toBe(true);
+    for (let i = 0; i < ys.length; i++) {
+      for (let j = 0; j < xs.length; j++) {
+        const x = xs[j], y = ys[i], node = i * xs.length + j;
+        const served = new Set(places.patch.slice(places.start[node], places.start[node + 1]));
+        for (const [p] of blendWeights(model, x, y)) expect(served.has(p), `patch ${p} at node ${node}`).toBe(true);
+        const expected = blendedStandardError(model, x, y);
+        expect(Math.abs(est.at(x, y) - expected) / expected).toBeLessThan(1e-6);
+      }
+    }
+  });
+
+  it("`run`'s error grid (from the fit's factors) equals `grid --stderr` on its saved model (patches factorised again)", async () => {
+    const dir = fs.mkdtempSync(path.join(os.tmpdir(), "rbfield-local-stderr-"));
+    try {
+      const pts = noisyFranke(2500, 21);
+      const csv = path.join(dir, "points.csv");
+      fs.writeFileSync(csv, "x,y,z\n" + Array.from(pts.x, (x, i) => `${(100 * x).toFixed(3)},${(100 * pts.y[i]).toFixed(3)},${pts.z[i].toFixed(4)}`).join("\n") + "\n");
+      let said = "";
+      const io = { out: () => {}, err: (s: string) => (said += s + "\n") };
+      const grid = ["--cell", "0.25", "--extent", "0,0,100,100"];
+      expect(await main(["run", csv, "--out", path.join(dir, "run"), "--method", "local", ...grid], io)).toBe(0);
+      // The route taken: no patch factorised again for the error grid.
+      expect(said).toMatch(/standard errors at [\d,]+ places from the patch fits/);
+      const model = path.join(dir, "run", "model.rbfield.json");
+      expect(await main(["grid", model, "--out", path.join(dir, "g.tif"), "--stderr", path.join(dir, "se.tif"), "--quiet", ...grid], io)).toBe(0);
+      const a = await readGrid(path.join(dir, "run", "stderr.tif")), b = await readGrid(path.join(dir, "se.tif"));
+      expect(a.values.length).toBe(400 * 400);
+      let worst = 0, cells = 0;
+      a.values.forEach((v, k) => {
+        if (Number.isNaN(v) && Number.isNaN(b.values[k])) return;
+        worst = Math.max(worst, Math.abs(v - b.values[k]) / b.values[k]);
+        cells++;
+      });
+      expect(cells).toBeGreaterThan(100_000);
+      // Float32 cells; the two routes differ only by rounding in the factors (measured 3.6e-7 in float64).
+      expect(worst).toBeLessThan(1e-5);
+    } finally {
+      fs.rmSync(dir, { recursive: true, force: true });
     }
   });
 });

@@ -34,6 +34,7 @@ import { type BorderedInverse, borderedInverse, borderedQuadratic, processScale 
 import { cholesky, householderQR, type Reflector, reflectSymmetric, applyReflector } from "../fit/linalg.ts";
 import { kernelOfSquared, trendRow, weightedKernelMatrix } from "../fit/kernels.ts";
 import { transformedValues } from "../fit/prepare.ts";
+import type { FitState } from "../fit/core.ts";
 import type { LocalModel } from "../model/model.ts";
 import type { TrendName } from "../types.ts";
 import { localBuffers, localEvaluator, makeBlender, nearestLine, type PackedLocal, packLocal, subsetPatches, taper } from "./local.ts";
@@ -98,17 +99,112 @@ export function localErrorBuffers(p: PackedLocalErrors): ArrayBuffer[] {
   return [...localBuffers(p.surface), ...[p.y, p.sqrtW, p.lambda, p.pointSe, p.px, p.py].map((a) => a.buffer as ArrayBuffer)];
 }
 
-/** One patch's factors: from the Cholesky route, or (fallback) the bordered inverse. */
-type PatchFactor =
-  | { kind: "cholesky"; n: number; nb: number; m: number; qr: Reflector[]; rInv: Float64Array; a11: Float64Array; a21: Float64Array; l: Float64Array; b: number; bytes: number }
-  | { kind: "bordered"; inv: BorderedInverse; b: number; bytes: number };
-
-export function localErrorEstimator(model: LocalModel): ErrorEstimator {
-  return localErrorEstimatorPacked(packLocalErrors(model));
+/** A patch's factors by the Cholesky route (see the top of this file), with its process scale b̂. */
+export interface CholeskyFactor {
+  kind: "cholesky";
+  n: number;
+  nb: number;
+  m: number;
+  qr: Reflector[];
+  rInv: Float64Array;
+  a11: Float64Array;
+  a21: Float64Array;
+  l: Float64Array;
+  b: number;
+  bytes: number;
 }
 
-/** The error estimator of packed local errors (the same code in the main thread and in workers). */
-export function localErrorEstimatorPacked(pe: PackedLocalErrors): ErrorEstimator {
+/** One patch's factors: from the Cholesky route, or (fallback) the bordered inverse. */
+type PatchFactor = CholeskyFactor | { kind: "bordered"; inv: BorderedInverse; b: number; bytes: number };
+
+/** R⁻¹ of an m×m upper-triangular R (row-major), so that a₁ = R⁻ᵀp costs m² per place. */
+function upperInverse(r: Float64Array, m: number): Float64Array {
+  const rInv = new Float64Array(m * m);
+  for (let c = 0; c < m; c++) {
+    for (let i = c; i >= 0; i--) {
+      let s = i === c ? 1 : 0;
+      for (let t = i + 1; t <= c; t++) s -= r[i * m + t] * rInv[t * m + c];
+      rInv[i * m + c] = s / r[i * m + i];
+    }
+  }
+  return rInv;
+}
+
+/**
+ * A patch's Cholesky-route factors from its own fit, without refactorising: the fit keeps
+ * A₁₁ = Q₁ᵀK̃Q₁, A₁₂ and B (fit/core.ts, keepReduced) and factorised B + λI = LLᵀ for the
+ * leave-one-out diagonal (influence.ts); the blocks of Qᵀ(K̃ + λI)Q are A₁₁ + λI, A₂₁ = A₁₂ᵀ and
+ * B + λI (Q is orthogonal). b̂ is the fit's process scale (processScale, the same quantity).
+ */
+export function factorFromFit(state: FitState, lambda: number, l: Float64Array, b: number): CholeskyFactor {
+  const { n, m, qr, r, a11: a, a12 } = state;
+  const nb = n - m;
+  const a11 = Float64Array.from(a!);
+  for (let i = 0; i < m; i++) a11[i * m + i] += lambda;
+  const a21 = new Float64Array(nb * m);
+  for (let i = 0; i < nb; i++) for (let t = 0; t < m; t++) a21[i * m + t] = a12![t * nb + i];
+  return { kind: "cholesky", n, nb, m, qr, rInv: upperInverse(r, m), a11, a21, l, b, bytes: 0 };
+}
+
+/** k = D k(x) at patch-frame (x, y) for members a … a + n − 1 of pu, pv (kernel φ at ε²ρ², weights √ω or none). */
+export function placeKernel(phi: (r2: number) => number, eps2: number, pu: Float64Array, pv: Float64Array, sw: Float64Array | undefined, a: number, x: number, y: number, k: Float64Array): void {
+  for (let t = 0; t < k.length; t++) {
+    const du = x - pu[a + t], dv = y - pv[a + t];
+    k[t] = phi(eps2 * (du * du + dv * dv)) * (sw ? sw[a + t] : 1);
+  }
+}
+
+/**
+ * sᵀM⁻¹s = 2 t₁ᵀa₁ − a₁ᵀA₁₁a₁ + ‖L⁻¹(t₂ − A₂₁a₁)‖² for s = [k; p] (the top of this file); `k` is
+ * overwritten by Qᵀk, `a1` (m) and `z` (≥ n − m) are scratch.
+ */
+export function choleskyQuadratic(f: CholeskyFactor, k: Float64Array, tr: Float64Array, a1: Float64Array, z: Float64Array): number {
+  const m = f.m;
+  for (const refl of f.qr) applyReflector(refl, k);
+  let q = 0;
+  for (let i = 0; i < m; i++) {
+    let s = 0;
+    for (let t = 0; t <= i; t++) s += f.rInv[t * m + i] * tr[t];
+    a1[i] = s;
+    q += 2 * k[i] * s;
+  }
+  for (let i = 0; i < m; i++) for (let t = 0; t < m; t++) q -= a1[i] * f.a11[i * m + t] * a1[t];
+  const nb = f.nb, l = f.l;
+  for (let i = 0; i < nb; i++) {
+    let s = k[m + i];
+    for (let t = 0; t < m; t++) s -= f.a21[i * m + t] * a1[t];
+    const row = i * nb;
+    for (let t = 0; t < i; t++) s -= l[row + t] * z[t];
+    z[i] = s / l[row + i];
+    q += z[i] * z[i];
+  }
+  return q;
+}
+
+/**
+ * Patch standard errors √(b̂ⱼ·(φ(0) − sᵀMⱼ⁻¹s)) (scaled units, before zsⱼ) at the nodes of a standard-error lattice, which
+ * the local fit computed from each patch's own factors while it had them (fit/local/local.ts,
+ * FitOptions.errorPlaces), so that the error grid needs no patch factorised again. `x` holds the
+ * map x of the lattice's columns and `y` the map y of its rows (the numbers errorsAtNodes asks at);
+ * node k = row·x.length + column has entries start[k] … start[k + 1] − 1: a patch and its error there.
+ */
+export interface PlaceErrors {
+  x: Float64Array;
+  y: Float64Array;
+  start: Int32Array;
+  patch: Int32Array;
+  se: Float64Array;
+}
+
+export function localErrorEstimator(model: LocalModel, places?: PlaceErrors): ErrorEstimator {
+  return localErrorEstimatorPacked(packLocalErrors(model), places);
+}
+
+/**
+ * The error estimator of packed local errors (the same code in the main thread and in workers);
+ * where `places` holds a patch's error at the place asked, that is used instead of factorising the patch.
+ */
+export function localErrorEstimatorPacked(pe: PackedLocalErrors, places?: PlaceErrors): ErrorEstimator {
   const packed = pe.surface;
   const { start, pu, pv, zs, e2, m, cu, cv, radius } = packed;
   const blender = makeBlender(packed);
@@ -140,15 +236,7 @@ export function localErrorEstimatorPacked(pe: PackedLocalErrors): ErrorEstimator
       for (let t = 0; t <= i; t++) l[i * nb + t] = k[(m + i) * n + m + t];
     }
     if (!cholesky(l, nb)) return undefined;
-    // R⁻¹ (upper triangular), so that a₁ = R⁻ᵀp costs m² per place.
-    const rInv = new Float64Array(m * m);
-    for (let c = 0; c < m; c++) {
-      for (let i = c; i >= 0; i--) {
-        let s = i === c ? 1 : 0;
-        for (let t = i + 1; t <= c; t++) s -= r[i * m + t] * rInv[t * m + c];
-        rInv[i * m + c] = s / r[i * m + i];
-      }
-    }
+    const rInv = upperInverse(r, m);
     // b̂ = ‖L⁻¹ (Qᵀ D y)₂‖² / (n − m).
     const qy = Float64Array.from(pe.y.subarray(a, a + n));
     if (sw) for (let i = 0; i < n; i++) qy[i] *= sw[i];
@@ -158,7 +246,7 @@ export function localErrorEstimatorPacked(pe: PackedLocalErrors): ErrorEstimator
     for (let i = 0; i < nb; i++) zz += z[i] * z[i];
     const b = Math.max(zz, 0) / Math.max(n - m, 1);
     const bytes = 8 * (nb * nb + nb * m + 2 * m * m + m * n);
-    return { kind: "cholesky", n, nb, m, qr, rInv, a11, a21, l, b, bytes };
+    return { kind: "cholesky", n, nb, m, qr, rInv, a11, a21, l, b, bytes } satisfies CholeskyFactor;
   };
 
   /** Patch j refitted at its own shape and λ, with its bordered inverse (the fit's own route). */
@@ -209,34 +297,11 @@ export function localErrorEstimatorPacked(pe: PackedLocalErrors): ErrorEstimator
     const f = factorOf(j);
     const x = (u - cu[j]) / radius[j], y = (v - cv[j]) / radius[j];
     const a = start[j], n = start[j + 1] - a;
-    const eps2 = e2[j];
     const k = kv.subarray(0, n);
-    for (let t = 0; t < n; t++) {
-      const du = x - pu[a + t], dv = y - pv[a + t];
-      k[t] = phi(eps2 * (du * du + dv * dv)) * (pe.sqrtW.length ? pe.sqrtW[a + t] : 1);
-    }
+    placeKernel(phi, e2[j], pu, pv, pe.sqrtW.length ? pe.sqrtW : undefined, a, x, y, k);
     trendRow(x, y, m, tr);
     if (f.kind === "bordered") return { rest: phi0 - borderedQuadratic(f.inv, k, tr), b: f.b };
-    for (const refl of f.qr) applyReflector(refl, k);
-    // a₁ = R⁻ᵀ p; q = 2 t₁ᵀa₁ − a₁ᵀA₁₁a₁ + ‖L⁻¹(t₂ − A₂₁a₁)‖².
-    let q = 0;
-    for (let i = 0; i < m; i++) {
-      let s = 0;
-      for (let t = 0; t <= i; t++) s += f.rInv[t * m + i] * tr[t];
-      a1[i] = s;
-      q += 2 * k[i] * s;
-    }
-    for (let i = 0; i < m; i++) for (let t = 0; t < m; t++) q -= a1[i] * f.a11[i * m + t] * a1[t];
-    const nb = f.nb, l = f.l, z = zv;
-    for (let i = 0; i < nb; i++) {
-      let s = k[m + i];
-      for (let t = 0; t < m; t++) s -= f.a21[i * m + t] * a1[t];
-      const row = i * nb;
-      for (let t = 0; t < i; t++) s -= l[row + t] * z[t];
-      z[i] = s / l[row + i];
-      q += z[i] * z[i];
-    }
-    return { rest: phi0 - q, b: f.b };
+    return { rest: phi0 - choleskyQuadratic(f, k, tr, a1, zv), b: f.b };
   };
 
   // Data points by their map coordinates, for the errors the fit stored there.
@@ -252,12 +317,30 @@ export function localErrorEstimatorPacked(pe: PackedLocalErrors): ErrorEstimator
     return NaN;
   };
 
+  const colOf = new Map<number, number>(), rowOf = new Map<number, number>();
+  if (places) {
+    places.x.forEach((x, j) => colOf.set(x, j));
+    places.y.forEach((y, i) => rowOf.set(y, i));
+  }
+  /** The node of `places` at map (x, y), or −1. */
+  const nodeAt = (x: number, y: number): number => {
+    const j = colOf.get(x), i = rowOf.get(y);
+    return j === undefined || i === undefined ? -1 : i * places!.x.length + j;
+  };
+  /** Patch j's error at node k as the fit computed it, or NaN. */
+  const knownAt = (k: number, j: number): number => {
+    if (k < 0) return NaN;
+    for (let e = places!.start[k]; e < places!.start[k + 1]; e++) if (places!.patch[e] === j) return places!.se[e];
+    return NaN;
+  };
+
   const estimate = packed.logBias ? localEvaluator(packed) : undefined;
   const near = pe.lineSigma > 0 && packed.sides?.seg3.length ? nearestLine(packed.sides) : null;
   const work = localErrorWork(pe);
   return {
     processScale: NaN,
     work,
+    fromFit: places !== undefined,
     at(x, yy) {
       let se = atPoint(x, yy);
       if (Number.isNaN(se)) {
@@ -265,8 +348,14 @@ export function localErrorEstimatorPacked(pe: PackedLocalErrors): ErrorEstimator
         const count = blender.cover(uv[0], uv[1]);
         if (count === 0) return NaN;
         se = 0;
+        const node = places ? nodeAt(x, yy) : -1;
         for (let c = 0; c < count; c++) {
           const j = blender.ids[c];
+          const known = knownAt(node, j);
+          if (!Number.isNaN(known)) {
+            se += blender.weights[c] * zs[j] * known;
+            continue;
+          }
           // A side fitted as a constant level: the spread of its values (fit/local/patch_fit.ts, constantPatch).
           if (packed.sides?.constant[j]) {
             se += blender.weights[c] * packed.sides.constantSe[j];
@@ -293,14 +382,18 @@ export function localErrorEstimatorPacked(pe: PackedLocalErrors): ErrorEstimator
  * per-patch cost ((n − m)²/2 for the solve, 2mn for the reflectors and the border).
  */
 export function localErrorWork(pe: PackedLocalErrors): number {
-  const { start, m } = pe.surface;
+  return patchErrorWork(pe.surface.start, pe.surface.m, pe.points);
+}
+
+/** localErrorWork from the patch layout (member offsets `start`), trend terms m and the number of points. */
+export function patchErrorWork(start: ArrayLike<number>, m: number, points: number): number {
   const p = start.length - 1;
   let perPatch = 0;
   for (let j = 0; j < p; j++) {
     const n = start[j + 1] - start[j];
     perPatch += ((n - m) * (n - m)) / 2 + 2 * m * n;
   }
-  return (start[p] / Math.max(pe.points, 1)) * (perPatch / Math.max(p, 1));
+  return (start[p] / Math.max(points, 1)) * (perPatch / Math.max(p, 1));
 }
 
 /**

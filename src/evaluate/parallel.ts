@@ -66,8 +66,19 @@ export async function evaluateWindow(
 /**
  * The surface at places (NaN where x or y is not finite), split into one contiguous block per thread
  * (estimates at every reading of a big survey); each value comes from the same code as in one thread.
+ * The places are evaluated in the order of a coarse grid's cells (placeOrder), so that neighbouring
+ * evaluations meet the same patches (a file's readings may come in any order).
  */
 export async function evaluatePlacesParallel(model: SurfaceModel, x: Float64Array, y: Float64Array, threads = navigator.hardwareConcurrency || 1): Promise<Float64Array> {
+  const order = placeOrder(x, y);
+  const sx = Float64Array.from(order, (i) => x[i]), sy = Float64Array.from(order, (i) => y[i]);
+  const sorted = await evaluateInBlocks(model, sx, sy, threads);
+  const values = new Float64Array(x.length);
+  order.forEach((i, k) => (values[i] = sorted[k]));
+  return values;
+}
+
+async function evaluateInBlocks(model: SurfaceModel, x: Float64Array, y: Float64Array, threads: number): Promise<Float64Array> {
   const single = () => evaluatePlaces(evaluatorOf(packSurface(model)), x, y);
   if (!workersAvailable(threads) || x.length < 2 || x.length * model.points.x.length < PARALLEL_WORK) return single();
   const values = new Float64Array(x.length);
@@ -84,4 +95,28 @@ export async function evaluatePlacesParallel(model: SurfaceModel, x: Float64Arra
     return single();
   }
   return values;
+}
+
+/** Places ordered by the cells of a grid of about 16 places a cell (rows of cells, then input order); non-finite places last. */
+function placeOrder(x: Float64Array, y: Float64Array): Int32Array {
+  const n = x.length;
+  let xmin = Infinity, xmax = -Infinity, ymin = Infinity, ymax = -Infinity;
+  for (let i = 0; i < n; i++) {
+    if (!(Number.isFinite(x[i]) && Number.isFinite(y[i]))) continue;
+    xmin = Math.min(xmin, x[i]), xmax = Math.max(xmax, x[i]), ymin = Math.min(ymin, y[i]), ymax = Math.max(ymax, y[i]);
+  }
+  const side = Math.max(1, Math.min(4096, Math.round(Math.sqrt(n / 16))));
+  const w = (xmax - xmin) / side || 1, h = (ymax - ymin) / side || 1;
+  const cellOf = new Int32Array(n);
+  const count = new Int32Array(side * side + 2);
+  for (let i = 0; i < n; i++) {
+    const ok = Number.isFinite(x[i]) && Number.isFinite(y[i]);
+    const c = ok ? Math.min(side - 1, Math.floor((x[i] - xmin) / w)) + side * Math.min(side - 1, Math.floor((y[i] - ymin) / h)) : side * side;
+    cellOf[i] = c;
+    count[c + 1]++;
+  }
+  for (let c = 0; c <= side * side; c++) count[c + 1] += count[c];
+  const order = new Int32Array(n);
+  for (let i = 0; i < n; i++) order[count[cellOf[i]]++] = i;
+  return order;
 }

@@ -23,7 +23,7 @@ import type { GridSpec, GridValues } from "../types.ts";
 import type { GridWindow } from "./grid.ts";
 import { makeEvaluator } from "./evaluate.ts";
 import { coordinateMapper, scaledCentres } from "./global.ts";
-import { localErrorBuffers, localErrorEstimator, type PackedLocalErrors, packLocalErrors } from "./local_stderr.ts";
+import { localErrorBuffers, localErrorEstimator, type PackedLocalErrors, packLocalErrors, type PlaceErrors } from "./local_stderr.ts";
 import { runWorker, workersAvailable } from "../workers.ts";
 
 export interface ErrorEstimator {
@@ -33,19 +33,22 @@ export interface ErrorEstimator {
   processScale: number;
   /** Multiply-adds of one estimate, for choosing the error grid's stride (default N², the global method's). */
   work?: number;
+  /** The error grid's nodes come from the fit's own factors (PlaceErrors): computed in this thread, nothing to factorise. */
+  fromFit?: boolean;
 }
 
 /**
  * The error estimator of a model, through the method that made it. `factors` are those the fit of
  * this run already has (fitSurfaceWithFactors); without them (a model read from a file) the system
- * is factorised once more at the model's own λ (O(N³), no search).
+ * is factorised once more at the model's own λ (O(N³), no search). For a local model, `places` are
+ * the patch errors its fit computed at the nodes of this run's error lattice (local_stderr.ts).
  */
-export function makeErrorEstimator(model: SurfaceModel, factors?: GlobalFactors): ErrorEstimator {
+export function makeErrorEstimator(model: SurfaceModel, factors?: GlobalFactors, places?: PlaceErrors): ErrorEstimator {
   switch (model.method) {
     case "global":
       return globalErrorEstimator(model, factors);
     case "local":
-      return localErrorEstimator(model);
+      return localErrorEstimator(model, places);
   }
 }
 
@@ -136,15 +139,31 @@ export function errorsAtNodes(
   out: Float64Array,
   onRow?: (row: number) => void,
 ): void {
-  const { rows, cols, stride } = lattice;
+  const { cols, stride } = lattice;
+  const at = latticePlaces(spec, lattice);
   for (let i = from; i < to; i++) {
-    const y = spec.ymax - (rows[i] + 0.5) * spec.cell;
+    const y = at.y[i];
     for (let j = 0; j < cols.length; j++) {
       const k = (i - from) * cols.length + j;
-      out[k] = stride === 1 && masked && masked[k] ? NaN : est.at(spec.xmin + (cols[j] + 0.5) * spec.cell, y);
+      out[k] = stride === 1 && masked && masked[k] ? NaN : est.at(at.x[j], y);
     }
     onRow?.(i);
   }
+}
+
+/** The map x of a lattice's columns and y of its rows: the cell centres where errors are computed. */
+export function latticePlaces(spec: GridSpec, lattice: Lattice): { x: Float64Array; y: Float64Array } {
+  return {
+    x: Float64Array.from(lattice.cols, (c) => spec.xmin + (c + 0.5) * spec.cell),
+    y: Float64Array.from(lattice.rows, (r) => spec.ymax - (r + 0.5) * spec.cell),
+  };
+}
+
+/** Are the places a fit computed errors at (PlaceErrors) exactly this grid's error lattice for `est`? */
+export function placesMatch(places: { x: Float64Array; y: Float64Array }, spec: GridSpec, est: Pick<ErrorEstimator, "work">, points: number): boolean {
+  const at = latticePlaces(spec, errorLattice(spec, est, points));
+  const same = (a: Float64Array, b: Float64Array) => a.length === b.length && a.every((v, i) => v === b[i]);
+  return same(places.x, at.x) && same(places.y, at.y);
 }
 
 /** The grid's standard errors from those at the lattice nodes: copied (stride 1) or filled bilinearly between them. */
@@ -257,7 +276,8 @@ export async function gridStandardErrorParallel(
   const { spec } = surface;
   const lattice = errorLattice(spec, est, model.points.x.length);
   const work = lattice.rows.length * lattice.cols.length * (est.work ?? 0);
-  if (model.method !== "local" || !workersAvailable(threads) || lattice.rows.length < 2 || work < PARALLEL_WORK) {
+  if (est.fromFit) progress?.(`standard errors at ${(lattice.rows.length * lattice.cols.length).toLocaleString("en")} places from the patch fits`);
+  if (model.method !== "local" || est.fromFit || !workersAvailable(threads) || lattice.rows.length < 2 || work < PARALLEL_WORK) {
     return gridStandardError(model, surface, progress, est);
   }
   try {

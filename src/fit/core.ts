@@ -155,6 +155,9 @@ export interface FitState {
   epsilonScaled: number;
   /** B = Q₂ᵀK̃Q₂ ((N−m)×(N−m), row-major) when CoreOptions.keepReduced asked for it. */
   b?: Float64Array;
+  /** With b: the other blocks of QᵀK̃Q, A₁₁ = Q₁ᵀK̃Q₁ (m×m) and A₁₂ = Q₁ᵀK̃Q₂ (m×(N−m)), row-major. */
+  a11?: Float64Array;
+  a12?: Float64Array;
 }
 
 export interface CoreOptions {
@@ -223,6 +226,11 @@ export function fitCore(u: Float64Array, v: Float64Array, y: Float64Array, zs: n
   if (sw) for (let i = 0; i < n; i++) qty[i] *= sw[i];
   for (const refl of qr) applyReflector(refl, qty);
   const reduced = opts.keepReduced ? b.slice() : undefined;
+  let a11: Float64Array | undefined;
+  if (opts.keepReduced) {
+    a11 = new Float64Array(m * m);
+    for (let i = 0; i < m; i++) a11.set(k.subarray(i * n, i * n + m), i * m);
+  }
   const tri = tridiagonalize(b, nb);
   const mu = tridiagonalEigenvalues(tri.d, tri.e);
   const h = qty.slice(m);
@@ -365,7 +373,7 @@ export function fitCore(u: Float64Array, v: Float64Array, y: Float64Array, zs: n
     condition,
     curve,
     warnings,
-    state: { n, m, r, sqrtW: sw, wTilde, qr, tri, mu, h, y, u, v, kernel: opts.kernel, epsilonScaled: opts.epsilonScaled, b: reduced },
+    state: { n, m, r, sqrtW: sw, wTilde, qr, tri, mu, h, y, u, v, kernel: opts.kernel, epsilonScaled: opts.epsilonScaled, b: reduced, a11, a12: reduced ? top : undefined },
   };
 }
 

@@ -67,9 +67,12 @@ export function influenceComplementDiagonal(state: FitState, zt: Float64Array, l
   return gii;
 }
 
-/** diag(G̃) of a fit, by the Cholesky route (or the tridiagonal one when B + λI is not numerically positive definite). */
-export function influenceDiagonal(fit: KernelFit): Float64Array {
-  return influenceComplementDiagonalCholesky(fit.state, fit.lambdaScaled) ??
+/**
+ * diag(G̃) of a fit, by the Cholesky route (or the tridiagonal one when B + λI is not numerically
+ * positive definite). `factor.l` receives the Cholesky factor when that route was taken.
+ */
+export function influenceDiagonal(fit: KernelFit, factor?: { l?: Float64Array }): Float64Array {
+  return influenceComplementDiagonalCholesky(fit.state, fit.lambdaScaled, factor) ??
     influenceComplementDiagonal(fit.state, rotatedBasis(fit.state), fit.lambdaScaled);
 }
 
@@ -127,8 +130,9 @@ export function leaveOneOutResiduals(fit: KernelFit, zs: number, gii: Float64Arr
  * L⁻¹Q₂ᵀ = [0 | L⁻¹] − U Vᵀ with U = L⁻¹V₂Sᵀ (rank m). Then for column i (j = i − m):
  *   Gᵢᵢ = ‖L⁻¹eⱼ‖² − 2 (L⁻ᵀU)ⱼ·vᵢ + vᵢᵀ(UᵀU)vᵢ   (the first two terms only when i ≥ m).
  * Returns undefined when B + λI is not numerically positive definite (the caller falls back).
+ * `factor.l` receives L (lower triangle, row-major (n−m)×(n−m)), which standard errors reuse.
  */
-export function influenceComplementDiagonalCholesky(state: FitState, lambda: number): Float64Array | undefined {
+export function influenceComplementDiagonalCholesky(state: FitState, lambda: number, factor?: { l?: Float64Array }): Float64Array | undefined {
   const { n, m, qr } = state;
   const nb = n - m;
   // The lower triangle of B = Q₂ᵀK̃Q₂: kept by the fit, or rebuilt (the same operations, the same bits).
@@ -142,6 +146,7 @@ export function influenceComplementDiagonalCholesky(state: FitState, lambda: num
   }
   for (let i = 0; i < nb; i++) l[i * nb + i] += lambda;
   if (!cholesky(l, nb)) return undefined;
+  if (factor) factor.l = l;
   // X = L⁻¹, row by row: X[i,:] = (eᵢ − Σ_{k<i} L[i,k] X[k,:]) / L[i,i] (contiguous row updates).
   // Rows go four at a time sharing the loads of X[k,:]; each entry keeps its order of operations.
   const x = new Float64Array(nb * nb);

@@ -58,4 +58,11 @@ export interface FitOptions {
   source?: { file: string; x: string; y: string; z: string };
   /** Called with short progress messages during long work. */
   progress?: (message: string) => void;
+  /**
+   * The local method only: asked, once the patches are laid out, with the work of one standard
+   * error (patchErrorWork), for the places where the error grid will be wanted — the map x of its
+   * lattice's columns and y of its rows — so each patch's error there is computed from the fit's
+   * own factors (PlaceErrors in evaluate/local_stderr.ts). `run` asks; undefined: none.
+   */
+  errorPlaces?: (work: number) => { x: Float64Array; y: Float64Array } | undefined;
 }

@@ -13,6 +13,7 @@ import { type GlobalFactors, trendProblem } from "./core.ts";
 import { influenceDiagonal, leaveOneOutResiduals } from "./influence.ts";
 import { hasShape } from "./kernels.ts";
 import { fitLocal, fitLocalParallel, LOCAL_AUTO_POINTS, type LocalInput } from "./local/local.ts";
+import type { PlaceErrors } from "../evaluate/local_stderr.ts";
 import type { FitOptions, MethodChoice, SelectRule } from "./options.ts";
 import { prepareData, type Prepared, subsampleIndices, subsamplePrepared } from "./prepare.ts";
 import { robustFit, type RobustResult } from "./robust.ts";
@@ -57,6 +58,8 @@ interface FitPlan {
 export interface FittedModel {
   model: SurfaceModel;
   factors?: GlobalFactors;
+  /** Local method: patch errors at the places FitOptions.errorPlaces asked for. */
+  places?: PlaceErrors;
 }
 
 /** Fit the surface and build the model record. */
@@ -67,7 +70,7 @@ export function fitSurface(points: CleanPoints, options: FitOptions = {}): Surfa
 /** fitSurface, also returning the factors of the final fit. */
 export function fitSurfaceWithFactors(points: CleanPoints, options: FitOptions = {}): FittedModel {
   const plan = planFit(points, options);
-  if (plan.method === "local") return { model: fitLocal(localInput(plan)) };
+  if (plan.method === "local") return fitLocal(localInput(plan));
   return finishFit(plan, rankHere(plan));
 }
 
@@ -82,7 +85,7 @@ export async function fitSurfaceParallel(points: CleanPoints, options: FitOption
 /** fitSurfaceParallel, also returning the factors of the final fit. */
 export async function fitSurfaceParallelWithFactors(points: CleanPoints, options: FitOptions = {}, threads = navigator.hardwareConcurrency || 1): Promise<FittedModel> {
   const plan = planFit(points, options);
-  if (plan.method === "local") return { model: await fitLocalParallel(localInput(plan), threads) };
+  if (plan.method === "local") return await fitLocalParallel(localInput(plan), threads);
   if (plan.candidates.length <= 1 || !workersAvailable(threads)) return finishFit(plan, rankHere(plan));
   const groups = kernelGroups(plan.candidates);
   // Greedy split by cost (a shape search costs about three fixed-shape fits).

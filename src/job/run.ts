@@ -4,10 +4,11 @@ import * as fs from "node:fs";
 import * as path from "node:path";
 import { makeExtrapolationCheck } from "../evaluate/extrapolation.ts";
 import { gridModelParallel } from "../evaluate/parallel.ts";
-import { gridStandardErrorParallel, makeErrorEstimator } from "../evaluate/stderr.ts";
+import { errorLattice, gridStandardErrorParallel, latticePlaces, makeErrorEstimator, placesMatch } from "../evaluate/stderr.ts";
 import { valueRange } from "../numbers.ts";
 import { type MaskFile } from "../read/mask.ts";
 import { gridLayout, type GridOptions } from "../evaluate/grid.ts";
+import type { GridSpec } from "../types.ts";
 import { boundingBox } from "../geometry.ts";
 import { checkMemory, estimateMemory, fmtBytes, memoryAdvice, type MemoryEstimate, memoryLimit, methodFor, peakResidentBytes } from "./memory.ts";
 import { contourGeoJson } from "../write/contours.ts";
@@ -89,15 +90,14 @@ export async function runJob(opts: RunOptions): Promise<RunResult> {
   }
 }
 
-/** Cells of the grid a run will make, from the clean points (as the fit will set the model's extent and spacing); undefined with a mask file and no extent (its polygons set the extent). */
-function plannedCells(loaded: LoadedPoints, opts: RunOptions): number | undefined {
+/** The grid a run will make, from the clean points (as the fit will set the model's extent and spacing); undefined with a mask file and no extent (its polygons set the extent). */
+function plannedGrid(loaded: LoadedPoints, opts: RunOptions): GridSpec | undefined {
   if (opts.mask && !opts.grid?.extent) return undefined;
   const iso = new Set(opts.keepIsolated ? [] : loaded.isolation.indices);
   const keep = (a: Float64Array) => (iso.size ? a.filter((_, i) => !iso.has(i)) : a);
   const extent = boundingBox(keep(loaded.points.x), keep(loaded.points.y));
   // The layout's own checks (the cell limit, an extent that misses the data) apply here already.
-  const spec = gridLayout({ extent, spacing: loaded.isolation.spacing } as SurfaceModel, { ...opts.grid, mask: opts.grid?.mask === "none" ? "none" : "hull" });
-  return spec.cols * spec.rows;
+  return gridLayout({ extent, spacing: loaded.isolation.spacing } as SurfaceModel, { ...opts.grid, mask: opts.grid?.mask === "none" ? "none" : "hull" });
 }
 
 async function runInto(opts: RunOptions, files: Record<string, string>, inputs: string[]): Promise<RunResult> {
@@ -110,13 +110,22 @@ async function runInto(opts: RunOptions, files: Record<string, string>, inputs: 
   opts.progress?.(`reading ${opts.file}`);
   const limit = memoryLimit(opts.maxMemory);
   let estimate: MemoryEstimate | undefined;
-  const fitted = await fitPointsFile(opts, { ...opts.fit, progress: opts.progress }, (loaded) => {
+  // The local fit computes each patch's standard error at the error grid's lattice while it holds the
+  // patch's factors (FitOptions.errorPlaces), so the error grid factorises nothing again; the grid
+  // is planned from the clean points, and checked against the real one below (placesMatch).
+  let planned: GridSpec | undefined;
+  let points = 0;
+  const errorPlaces = (work: number) => (planned ? latticePlaces(planned, errorLattice(planned, { work }, points)) : undefined);
+  const fitted = await fitPointsFile(opts, { ...opts.fit, progress: opts.progress, errorPlaces }, (loaded) => {
+    planned = plannedGrid(loaded, opts);
+    points = loaded.points.x.length;
+    const cells = planned ? planned.cols * planned.rows : undefined;
     // Before the long work: the whole run's peak from the points and the grid they will get.
     const n = loaded.points.x.length;
     const method = methodFor(n, opts.fit?.method);
-    estimate = estimateMemory({ points: n, method, patchPoints: opts.fit?.patchPoints, cells: plannedCells(loaded, opts), fits: true, run: true });
+    estimate = estimateMemory({ points: n, method, patchPoints: opts.fit?.patchPoints, cells, fits: true, run: true });
     opts.progress?.(`memory: about ${fmtBytes(estimate.bytes)} needed at the peak, limit ${fmtBytes(limit.bytes)}`);
-    const local = method === "global" ? estimateMemory({ points: n, method: "local", patchPoints: opts.fit?.patchPoints, cells: plannedCells(loaded, opts), fits: true, run: true }) : undefined;
+    const local = method === "global" ? estimateMemory({ points: n, method: "local", patchPoints: opts.fit?.patchPoints, cells, fits: true, run: true }) : undefined;
     checkMemory(estimate, limit, memoryAdvice(estimate, { local }));
   });
   const model = fitted.model;
@@ -134,7 +143,8 @@ async function runInto(opts: RunOptions, files: Record<string, string>, inputs: 
   const bands = contourGeoJson(grid, rule, { bands: true, progress: opts.progress });
   opts.progress?.("standard errors");
   // One error estimator serves the estimates table and the error grid, from the fit's own factors.
-  const errorEstimator = makeErrorEstimator(model, fitted.factors);
+  let errorEstimator = makeErrorEstimator(model, fitted.factors, fitted.places);
+  if (fitted.places && !placesMatch(fitted.places, grid.spec, errorEstimator, model.points.x.length)) errorEstimator = makeErrorEstimator(model, fitted.factors);
   const est = await estimateTableParallel(model, locTable, errorEstimator);
   const errors = await gridStandardErrorParallel(model, grid, opts.progress, errorEstimator);
   const seRange = valueRange(errors.grid.values);

@@ -44,11 +44,14 @@ import {
   patchFailure,
   type PatchGeometry,
   type PatchModel,
+  type PatchPlaces,
+  bucketPlaces,
   rankPatch,
   SCALARS,
   smoothingChoiceOf,
 } from "./patch_fit.ts";
 import { buildPatches, compress, growPatch, type PatchLayout, patchWeight, samplePatches } from "./patches.ts";
+import { patchErrorWork, type PlaceErrors } from "../../evaluate/local_stderr.ts";
 import { constantPatch } from "./patch_fit.ts";
 import { cutLayout, type LineRecord, linePoints, mapLines, separateFaces } from "./sides.ts";
 import type { BreaklinePart } from "../../model/local.ts";
@@ -249,21 +252,52 @@ function blocksOf(count: number): number[][] {
   return out;
 }
 
+/** A local model, with the patch errors its fit computed at the places FitOptions.errorPlaces asked for. */
+export interface LocalFit {
+  model: LocalModel;
+  places?: PlaceErrors;
+}
+
+/**
+ * The nodes FitOptions.errorPlaces asks for, in the global scaled frame (the blend's own mapping),
+ * bucketed by about the median patch radius; none with breaklines (their sides factorise later).
+ */
+function placesFor(st: Stage, choice: Choice): { x: Float64Array; y: Float64Array; nodes: PatchPlaces } | undefined {
+  const { input, layout } = st;
+  if (!input.options.errorPlaces || st.cut) return undefined;
+  const asked = input.options.errorPlaces(patchErrorWork(layout.start, trendTerms(choice.model.trend), input.prep.n));
+  if (!asked) return undefined;
+  const { prep } = input;
+  const map = coordinateMapper({ scaling: { cx: prep.cx, cy: prep.cy, s: prep.s }, stretch: prep.stretch });
+  const count = asked.x.length * asked.y.length;
+  const u = new Float64Array(count), v = new Float64Array(count), uv = new Float64Array(2);
+  for (let i = 0; i < asked.y.length; i++) {
+    for (let j = 0; j < asked.x.length; j++) {
+      map(asked.x[j], asked.y[i], uv);
+      u[i * asked.x.length + j] = uv[0];
+      v[i * asked.x.length + j] = uv[1];
+    }
+  }
+  const h = Math.max(median(layout.radius), 1e-300);
+  return { x: asked.x, y: asked.y, nodes: bucketPlaces(u, v, h) };
+}
+
 /** Fit the local model in this thread. */
-export function fitLocal(input: LocalInput): LocalModel {
+export function fitLocal(input: LocalInput): LocalFit {
   const st = stage(input);
   const { layout, data } = st;
   const geometry = geometryOf(layout);
   input.options.progress?.(`local method: ${layout.count} patches; choosing the model on ${st.samples.length} of them`);
   const rows = st.samples.map((j) => rankPatch(data, geometry(j), st.groups, input.shapeOpt, input.smoothing));
   const choice = consensus(st, rows);
+  const places = placesFor(st, choice);
   input.options.progress?.(`fitting ${layout.count} patches`);
-  const blocks = blocksOf(layout.count).map((b) => fitPatchBlock(data, geometry, b, choice.model));
-  return assemble(st, choice, blocks);
+  const blocks = blocksOf(layout.count).map((b) => fitPatchBlock(data, geometry, b, choice.model, places?.nodes));
+  return assemble(st, choice, blocks, places);
 }
 
 /** The same fit with the sample ranking and the patch fits in worker threads; identical result. */
-export async function fitLocalParallel(input: LocalInput, threads: number): Promise<LocalModel> {
+export async function fitLocalParallel(input: LocalInput, threads: number): Promise<LocalFit> {
   const st = stage(input);
   const { layout, data } = st;
   const geometry = geometryOf(layout);
@@ -281,15 +315,16 @@ export async function fitLocalParallel(input: LocalInput, threads: number): Prom
       mine.forEach((k, i) => (rows[k] = reply.rows[i]));
     }));
     const choice = consensus(st, rows);
+    const places = placesFor(st, choice);
     input.options.progress?.(`fitting ${layout.count} patches in ${blocks.length} blocks on ${workers} threads`);
     // The data and layout go to each worker once; then blocks, a few at a time, to whichever worker
     // is free (the result is stored by block number, so it does not depend on the scheduling).
-    const setup: FitSetup = { kind: "setup", data, cu: layout.cu, cv: layout.cv, radius: layout.radius, start: layout.start, index: layout.index, model: choice.model };
+    const setup: FitSetup = { kind: "setup", data, cu: layout.cu, cv: layout.cv, radius: layout.radius, start: layout.start, index: layout.index, model: choice.model, places: places?.nodes };
     const tasks: FitTask[] = [];
     for (let b = 0; b < blocks.length; b += BLOCKS_PER_TASK) tasks.push({ kind: "fit", blocks: blocks.slice(b, b + BLOCKS_PER_TASK) });
     const replies = await runWorkerQueue<{ blocks: PatchBlock[] }>(url, setup, tasks, workers);
     const results: PatchBlock[] = replies.flatMap((r) => r.blocks);
-    return assemble(st, choice, results);
+    return assemble(st, choice, results, places);
   } catch (e) {
     if (e instanceof RbfieldError) throw e;
     input.options.progress?.(`worker threads unavailable (${(e as Error).message}); fitting in one thread`);
@@ -387,7 +422,7 @@ function consensus(st: Stage, rows: CandidateScore[][]): Choice {
 }
 
 /** Blend the patch results into the model record. */
-function assemble(st: Stage, choice: Choice, blocks: PatchBlock[]): LocalModel {
+function assemble(st: Stage, choice: Choice, blocks: PatchBlock[], places?: { x: Float64Array; y: Float64Array; nodes: PatchPlaces }): LocalFit {
   const { input, layout, data } = st;
   const { points, options, prep } = input;
   options.progress?.(`blending ${layout.count} patches`);
@@ -684,7 +719,39 @@ function assemble(st: Stage, choice: Choice, blocks: PatchBlock[]): LocalModel {
       ...(st.cut ? { breaklines: breaklinePart(st.cut) } : {}),
     },
   };
-  return model;
+  return { model, places: places ? placeErrorsOf(blocks, places, p) : undefined };
+}
+
+/**
+ * The blocks' patch errors at places, by node (row-major over the lattice), each node's entries in
+ * ascending patch order whatever the order the blocks came back in. Patches refitted after a failure
+ * have none (the estimator factorises them when asked).
+ */
+function placeErrorsOf(blocks: PatchBlock[], places: { x: Float64Array; y: Float64Array; nodes: PatchPlaces }, patches: number): PlaceErrors {
+  const byPatch: { block: PatchBlock; from: number; count: number }[] = new Array(patches);
+  for (const b of blocks) {
+    let o = 0;
+    b.patches.forEach((j, k) => {
+      byPatch[j] = { block: b, from: o, count: b.placeCount[k] };
+      o += b.placeCount[k];
+    });
+  }
+  const nodes = places.nodes.u.length;
+  const start = new Int32Array(nodes + 1);
+  for (const e of byPatch) if (e) for (let t = 0; t < e.count; t++) start[e.block.placeNode[e.from + t] + 1]++;
+  for (let k = 0; k < nodes; k++) start[k + 1] += start[k];
+  const fill = start.slice(0, nodes);
+  const patch = new Int32Array(start[nodes]), se = new Float64Array(start[nodes]);
+  for (let j = 0; j < patches; j++) {
+    const e = byPatch[j];
+    if (!e) continue;
+    for (let t = 0; t < e.count; t++) {
+      const node = e.block.placeNode[e.from + t];
+      patch[fill[node]] = j;
+      se[fill[node]++] = e.block.placeSe[e.from + t];
+    }
+  }
+  return { x: places.x, y: places.y, start, patch, se };
 }
 
 /** The model's record of the breaklines and the sides (model/local.ts, BreaklinePart). */

@@ -17,7 +17,8 @@ import {
   rotatedBasis,
 } from "../influence.ts";
 import { applyReflector, applyReflectors, solveTridiagonal } from "../linalg.ts";
-import { hasShape, trendTerms } from "../kernels.ts";
+import { hasShape, kernelOfSquared, trendRow, trendTerms } from "../kernels.ts";
+import { choleskyQuadratic, factorFromFit, placeKernel } from "../../evaluate/local_stderr.ts";
 import type { Prepared } from "../prepare.ts";
 import { robustFit } from "../robust.ts";
 
@@ -49,6 +50,77 @@ export interface PatchGeometry {
   cv: number;
   radius: number;
   members: Int32Array;
+}
+
+/**
+ * Nodes of a standard-error lattice in the global scaled frame, in a uniform bucket grid (cell side
+ * h, cells cols × rows from (u0, v0); cell c holds order[start[c]] … order[start[c + 1] − 1]), so
+ * that each patch finds the nodes inside its disc (FitOptions.errorPlaces).
+ */
+export interface PatchPlaces {
+  u: Float64Array;
+  v: Float64Array;
+  u0: number;
+  v0: number;
+  h: number;
+  cols: number;
+  rows: number;
+  start: Int32Array;
+  order: Int32Array;
+}
+
+/** The bucket grid of nodes at scaled (u, v), cell side h (about a patch radius). */
+export function bucketPlaces(u: Float64Array, v: Float64Array, h: number): PatchPlaces {
+  let u0 = Infinity, v0 = Infinity, u1 = -Infinity, v1 = -Infinity;
+  for (let k = 0; k < u.length; k++) {
+    u0 = Math.min(u0, u[k]), u1 = Math.max(u1, u[k]), v0 = Math.min(v0, v[k]), v1 = Math.max(v1, v[k]);
+  }
+  if (!(u.length > 0)) u0 = v0 = u1 = v1 = 0;
+  const cols = Math.min(Math.floor((u1 - u0) / h) + 1, 4096), rows = Math.min(Math.floor((v1 - v0) / h) + 1, 4096);
+  const cellOf = (k: number) => Math.min(rows - 1, Math.floor((v[k] - v0) / h)) * cols + Math.min(cols - 1, Math.floor((u[k] - u0) / h));
+  const start = new Int32Array(cols * rows + 1);
+  for (let k = 0; k < u.length; k++) start[cellOf(k) + 1]++;
+  for (let c = 0; c < cols * rows; c++) start[c + 1] += start[c];
+  const fill = start.slice(0, cols * rows), order = new Int32Array(u.length);
+  for (let k = 0; k < u.length; k++) order[fill[cellOf(k)]++] = k;
+  return { u, v, u0, v0, h, cols, rows, start, order };
+}
+
+/**
+ * Patch standard errors √(b̂·(φ(0) − sᵀM⁻¹s)) at the nodes inside a fitted patch's disc (ρ² < 1,
+ * as the blend weights them), from the fit's own factors (factorFromFit): the same formula and code
+ * as the error estimator's (evaluate/local_stderr.ts), without factorising again.
+ */
+function errorsAtPlaces(places: PatchPlaces, g: PatchGeometry, prep: Prepared, fit: FittedCandidate["fit"], l: Float64Array, b: number, sqrtW: Float64Array | undefined): { nodes: number[]; se: number[] } {
+  const nodes: number[] = [], se: number[] = [];
+  const { cu, cv, radius } = g;
+  const { u0, v0, h, cols, rows, start, order, u, v } = places;
+  const c0 = Math.max(0, Math.floor((cu - radius - u0) / h)), c1 = Math.min(cols - 1, Math.floor((cu + radius - u0) / h));
+  const r0 = Math.max(0, Math.floor((cv - radius - v0) / h)), r1 = Math.min(rows - 1, Math.floor((cv + radius - v0) / h));
+  if (c0 > c1 || r0 > r1) return { nodes, se };
+  const f = factorFromFit(fit.state, fit.lambdaScaled, l, b);
+  const phi = kernelOfSquared(fit.kernel, 1), phi0 = phi(0);
+  const eps2 = fit.epsilonScaled * fit.epsilonScaled;
+  const n = prep.n, m = f.m;
+  const k = new Float64Array(n), tr = new Float64Array(Math.max(m, 1)), a1 = new Float64Array(Math.max(m, 1)), z = new Float64Array(n);
+  for (let r = r0; r <= r1; r++) {
+    for (let c = c0; c <= c1; c++) {
+      const cell = r * cols + c;
+      for (let q = start[cell]; q < start[cell + 1]; q++) {
+        const node = order[q];
+        const du = u[node] - cu, dv = v[node] - cv;
+        // A superset of the blend's test (ρ² < 1): an extra entry is never asked for.
+        if (!((du * du + dv * dv) / (radius * radius) < 1 + 1e-9)) continue;
+        const x = (u[node] - cu) / radius, y = (v[node] - cv) / radius;
+        placeKernel(phi, eps2, prep.u, prep.v, sqrtW, 0, x, y, k);
+        trendRow(x, y, m, tr);
+        const rest = phi0 - choleskyQuadratic(f, k, tr, a1, z);
+        nodes.push(node);
+        se.push(Math.sqrt(Math.max(b * rest, 0)));
+      }
+    }
+  }
+  return { nodes, se };
 }
 
 /** A patch's points as prepared data in the patch's own frame: ((u − cu)/ρ, (v − cv)/ρ). */
@@ -95,6 +167,10 @@ export interface PatchBlock {
   members: Float64Array;
   /** Patches whose fit failed, with the reason (the caller grows and refits them). */
   failed: { patch: number; message: string }[];
+  /** With places: per patch, its entries' count; then the entries' nodes and √(b̂·rest) (errorsAtPlaces). */
+  placeCount: Int32Array;
+  placeNode: Int32Array;
+  placeSe: Float64Array;
 }
 
 export const SCALARS = 13;
@@ -111,10 +187,12 @@ export const MEMBER_FIELDS = 7;
  * Cholesky factorisation of B + λI (influenceDiagonal's route, about (2/3)n³) and w̃ = Q₂H(T + λI)⁻¹h
  * by the fit's reflectors (O(n²)); the minimum with the smallest leave-one-out mean square is kept
  * (the chosen one refined as fitCore refines it, another one at its grid λ). Returns the diagonal
- * G̃ᵢᵢ at the λ kept, which fitPatch needs too.
+ * G̃ᵢᵢ at the λ kept, which fitPatch needs too, and (factor.l) the Cholesky factor of B + λI at that λ
+ * when the Cholesky route gave the diagonal (standard errors at places reuse it).
  */
-export function fitPatchSmoothing(prep: Prepared, kernel: KernelName, trend: TrendName, shape: "auto" | number, smoothing: "gcv" | number): { fitted: FittedCandidate; moved: boolean; gii: Float64Array } {
+export function fitPatchSmoothing(prep: Prepared, kernel: KernelName, trend: TrendName, shape: "auto" | number, smoothing: "gcv" | number): { fitted: FittedCandidate; moved: boolean; gii: Float64Array; factor: { l?: Float64Array } } {
   const first = fitOne(prep, kernel, trend, shape, smoothing, undefined, true);
+  const factor: { l?: Float64Array } = {};
   const curve = first.fit.curve;
   const minima: number[] = [];
   if (smoothing === "gcv") {
@@ -122,13 +200,13 @@ export function fitPatchSmoothing(prep: Prepared, kernel: KernelName, trend: Tre
       if ((i === 0 || curve[i].gcv < curve[i - 1].gcv) && (i === curve.length - 1 || curve[i].gcv <= curve[i + 1].gcv)) minima.push(i);
     }
   }
-  if (minima.length < 2) return { fitted: first, moved: false, gii: influenceDiagonal(first.fit) };
+  if (minima.length < 2) return { fitted: first, moved: false, gii: influenceDiagonal(first.fit, factor), factor };
   const st = first.fit.state;
   const { n, m, tri, qr } = st;
   const t = new Float64Array(n - m);
   const w = new Float64Array(n);
-  const looMse = (lambda: number): { mse: number; gii: Float64Array } => {
-    const gii = influenceComplementDiagonalCholesky(st, lambda) ?? influenceComplementDiagonal(st, rotatedBasis(st), lambda);
+  const looMse = (lambda: number, keep?: { l?: Float64Array }): { mse: number; gii: Float64Array } => {
+    const gii = influenceComplementDiagonalCholesky(st, lambda, keep) ?? influenceComplementDiagonal(st, rotatedBasis(st), lambda);
     // w̃ = Q₂ H (T + λI)⁻¹ h, as fitCore forms the weights.
     solveTridiagonal(tri.d, tri.e, lambda, st.h, t);
     applyReflectors(tri.reflectors, t);
@@ -148,7 +226,7 @@ export function fitPatchSmoothing(prep: Prepared, kernel: KernelName, trend: Tre
     return { mse: count > 0 ? ss / count : Infinity, gii };
   };
   const chosenScaled = first.fit.lambdaScaled;
-  const atChosen = looMse(chosenScaled);
+  const atChosen = looMse(chosenScaled, factor);
   let best = { lambda: chosenScaled, mse: atChosen.mse };
   for (const i of minima) {
     const lambda = curve[i].lambda / first.lambdaToUser;
@@ -157,18 +235,20 @@ export function fitPatchSmoothing(prep: Prepared, kernel: KernelName, trend: Tre
     const { mse } = looMse(lambda);
     if (mse < best.mse) best = { lambda, mse };
   }
-  if (best.lambda === chosenScaled) return { fitted: first, moved: false, gii: atChosen.gii };
+  if (best.lambda === chosenScaled) return { fitted: first, moved: false, gii: atChosen.gii, factor };
   const refit = fitOne(prep, kernel, trend, shape, best.lambda * first.lambdaToUser, undefined, true);
-  return { fitted: { ...refit, fit: { ...refit.fit, smoothingChoice: "gcv", curve } }, moved: true, gii: influenceDiagonal(refit.fit) };
+  const moved: { l?: Float64Array } = {};
+  return { fitted: { ...refit, fit: { ...refit.fit, smoothingChoice: "gcv", curve } }, moved: true, gii: influenceDiagonal(refit.fit, moved), factor: moved };
 }
 
-/** Fit one patch and return what the blended model needs. */
-export function fitPatch(data: PatchData, g: PatchGeometry, model: PatchModel): { fitted: FittedCandidate; scalars: number[]; members: Float64Array } {
+/** Fit one patch and return what the blended model needs (and, with places, its errors there). */
+export function fitPatch(data: PatchData, g: PatchGeometry, model: PatchModel, places?: PatchPlaces): { fitted: FittedCandidate; scalars: number[]; members: Float64Array; places: { nodes: number[]; se: number[] } } {
   const prep = patchPrepared(data, g, false);
   const shape: "auto" | number = hasShape(model.kernel) ? model.shape! : 1;
   let fitted: FittedCandidate;
   let moved: boolean;
   let gii: Float64Array;
+  let factor: { l?: Float64Array };
   let robustWeights: Float64Array | undefined;
   let sqrtW = prep.sqrtW;
   let passes = 0, converged = 1;
@@ -178,10 +258,10 @@ export function fitPatch(data: PatchData, g: PatchGeometry, model: PatchModel): 
     const r = robustFit(prep, model.kernel, model.trend, shape, model.smoothing);
     robustWeights = r.weights;
     sqrtW = r.sqrtW;
-    ({ fitted, moved, gii } = fitPatchSmoothing({ ...prep, sqrtW }, model.kernel, model.trend, shape, model.smoothing));
+    ({ fitted, moved, gii, factor } = fitPatchSmoothing({ ...prep, sqrtW }, model.kernel, model.trend, shape, model.smoothing));
     passes = r.passes;
     converged = r.converged ? 1 : 0;
-  } else ({ fitted, moved, gii } = fitPatchSmoothing(prep, model.kernel, model.trend, shape, model.smoothing));
+  } else ({ fitted, moved, gii, factor } = fitPatchSmoothing(prep, model.kernel, model.trend, shape, model.smoothing));
   const { fit, zs } = fitted;
   const n = prep.n;
   const loo = leaveOneOutResiduals(fit, zs, gii);
@@ -217,7 +297,9 @@ export function fitPatch(data: PatchData, g: PatchGeometry, model: PatchModel): 
     moved ? 1 : 0,
   ];
   // The fit's own warnings (λ held at the floor or raised) are counted from the scalars by the caller.
-  return { fitted, scalars, members: out };
+  // Errors at places need the Cholesky route's factor (else the estimator factorises this patch later).
+  const at = places && factor.l && fit.state.a11 ? errorsAtPlaces(places, g, prep, fit, factor.l, b, sqrtW) : { nodes: [], se: [] };
+  return { fitted, scalars, members: out, places: at };
 }
 
 export function smoothingChoiceOf(code: number): (typeof CHOICES)[number] {
@@ -225,19 +307,24 @@ export function smoothingChoiceOf(code: number): (typeof CHOICES)[number] {
 }
 
 /** Fit a list of patches (one block) into typed arrays. */
-export function fitPatchBlock(data: PatchData, geometry: (j: number) => PatchGeometry, patches: number[], model: PatchModel): PatchBlock {
+export function fitPatchBlock(data: PatchData, geometry: (j: number) => PatchGeometry, patches: number[], model: PatchModel, places?: PatchPlaces): PatchBlock {
   const m = trendTerms(model.trend);
   const scalars = new Float64Array(patches.length * SCALARS);
   const trend = new Float64Array(patches.length * m);
   const parts: Float64Array[] = [];
   const failed: PatchBlock["failed"] = [];
+  const placeCount = new Int32Array(patches.length);
+  const placeNode: number[] = [], placeSe: number[] = [];
   patches.forEach((j, b) => {
     const g = geometry(j);
     try {
-      const r = fitPatch(data, g, model);
+      const r = fitPatch(data, g, model, places);
       scalars.set(r.scalars, b * SCALARS);
       trend.set(r.fitted.fit.trendCoefficients, b * m);
       parts.push(r.members);
+      placeCount[b] = r.places.nodes.length;
+      for (const k of r.places.nodes) placeNode.push(k);
+      for (const e of r.places.se) placeSe.push(e);
     } catch (e) {
       if (!(e instanceof RbfieldError)) throw e;
       failed.push({ patch: j, message: e.template });
@@ -250,12 +337,12 @@ export function fitPatchBlock(data: PatchData, geometry: (j: number) => PatchGeo
     members.set(p, o);
     o += p.length;
   }
-  return { patches: Int32Array.from(patches), scalars, trend, members, failed };
+  return { patches: Int32Array.from(patches), scalars, trend, members, failed, placeCount, placeNode: Int32Array.from(placeNode), placeSe: Float64Array.from(placeSe) };
 }
 
 /** The transferable buffers of a block. */
 export function blockBuffers(b: PatchBlock): ArrayBuffer[] {
-  return [b.patches.buffer, b.scalars.buffer, b.trend.buffer, b.members.buffer] as ArrayBuffer[];
+  return [b.patches.buffer, b.scalars.buffer, b.trend.buffer, b.members.buffer, b.placeCount.buffer, b.placeNode.buffer, b.placeSe.buffer] as ArrayBuffer[];
 }
 
 /** Rank the candidate models on one patch (the global method's automatic selection, rankGroup). */

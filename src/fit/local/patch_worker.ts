@@ -2,7 +2,7 @@
 // patches (see local.ts). Every patch is computed by the same code as in the main thread.
 import { workerPort } from "../../workers.ts";
 import type { KernelGroup } from "../candidate.ts";
-import { blockBuffers, fitPatchBlock, type PatchBlock, type PatchData, type PatchGeometry, type PatchModel, rankPatch } from "./patch_fit.ts";
+import { blockBuffers, fitPatchBlock, type PatchBlock, type PatchData, type PatchGeometry, type PatchModel, type PatchPlaces, rankPatch } from "./patch_fit.ts";
 
 /** Posted once to each fitting worker: the data and the patch layout. */
 export interface FitSetup {
@@ -14,6 +14,8 @@ export interface FitSetup {
   start: Int32Array;
   index: Int32Array;
   model: PatchModel;
+  /** Nodes of the standard-error lattice, when the fit computes the errors there (FitOptions.errorPlaces). */
+  places?: PatchPlaces;
 }
 
 /** Then, one at a time: blocks of patch numbers, each fitted in order. */
@@ -52,7 +54,7 @@ globalThis.addEventListener("message", (e: Event) => {
       radius: s.radius[j],
       members: s.index.subarray(s.start[j], s.start[j + 1]),
     });
-    const blocks: PatchBlock[] = job.blocks.map((b) => fitPatchBlock(s.data, geometry, b, s.model));
+    const blocks: PatchBlock[] = job.blocks.map((b) => fitPatchBlock(s.data, geometry, b, s.model, s.places));
     workerPort.postMessage({ blocks }, blocks.flatMap(blockBuffers));
   } catch (err) {
     workerPort.postMessage({ error: (err as Error)?.message ?? String(err) });
