@@ -8,6 +8,7 @@
 //   npx -y deno@2 run -A bench/run_large.ts                 N = 10⁶
 //   npx -y deno@2 run -A bench/run_large.ts --points 100000
 //   npx -y deno@2 run -A bench/run_large.ts --keep DIR      keep the CSV and outputs in DIR
+//   npx -y deno@2 run -A bench/run_large.ts --patch-points N  the local method's points per patch
 import * as fs from "node:fs";
 import * as os from "node:os";
 import * as path from "node:path";
@@ -16,7 +17,7 @@ import { readGrid } from "../src/job/points.ts";
 import { gaussian, mulberry32 } from "../src/random.ts";
 import { franke } from "../test/helpers.ts";
 
-const { values } = parseArgs({ args: Deno.args, options: { points: { type: "string" }, keep: { type: "string" }, cell: { type: "string" } } });
+const { values } = parseArgs({ args: Deno.args, options: { points: { type: "string" }, keep: { type: "string" }, cell: { type: "string" }, "patch-points": { type: "string" } } });
 const N = Number(values.points ?? 1_000_000);
 const CELL = Number(values.cell ?? 1);
 const SITE = 1000;
@@ -44,7 +45,7 @@ if (!fs.existsSync(csv)) {
 }
 const out = path.join(dir, "out");
 const cli = path.join(import.meta.dirname!, "..", "src", "cli.ts");
-const args = ["run", "-A", cli, "run", csv, "--out", out, "--cell", String(CELL), "--extent", `0,0,${SITE},${SITE}`, "--title", "Invented benchmark site"];
+const args = ["run", "-A", cli, "run", csv, "--out", out, "--cell", String(CELL), "--extent", `0,0,${SITE},${SITE}`, "--title", "Invented benchmark site", ...(values["patch-points"] ? ["--patch-points", values["patch-points"]] : [])];
 
 const t0 = performance.now();
 const child = new Deno.Command(Deno.execPath(), { args, stdout: "piped", stderr: "piped" }).spawn();

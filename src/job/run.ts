@@ -17,7 +17,7 @@ import { fileListLines, type RunProducts, RUN_OUTPUTS } from "../write/outputs.t
 import { mapInputFromModel } from "../write/map.ts";
 import { type FitOptions } from "../fit/surface.ts";
 import { encodeModel, type SurfaceModel } from "../model/model.ts";
-import { checkWritableFolder, ensureFolder, refuseFolderAsOutput, refuseInputAsOutput, writeFilesAtomic } from "../write/atomic.ts";
+import { checkWritableFolder, ensureFolder, fileBatch, refuseFolderAsOutput, refuseInputAsOutput } from "../write/atomic.ts";
 import { contourText, fmt, gridText, missedLevelWarnings, modelSummaryLines, summaryText } from "../write/summary.ts";
 import { fitPointsFile, gridOptionsFor, inputJson, isolationNotes, type LoadedPoints, pointNotes, type PointsSource, projectedFrom } from "./points.ts";
 import { estimateColumns, estimateSummaryLines, estimateTableParallel, estimateWarnings, readLocations, standardErrorLines } from "./estimates.ts";
@@ -197,14 +197,20 @@ async function runInto(opts: RunOptions, files: Record<string, string>, inputs: 
     },
     date,
   };
-  const rendered: [string, string | Uint8Array][] = [];
-  for (const [i, o] of RUN_OUTPUTS.entries()) {
-    opts.progress?.("writing the map, the report and the other files", i / RUN_OUTPUTS.length);
-    const data = await o.render(products);
-    if (data !== null) rendered.push([files[o.key], data]);
+  // Each file goes to a temporary file as soon as it is made (its text need not be kept: a 10⁶-point
+  // run's tables are hundreds of MB); all are renamed over their targets once every one is written.
+  const batch = fileBatch();
+  try {
+    for (const [i, o] of RUN_OUTPUTS.entries()) {
+      opts.progress?.("writing the map, the report and the other files", i / RUN_OUTPUTS.length);
+      const data = await o.render(products);
+      if (data !== null) batch.add(files[o.key], data);
+    }
+  } catch (e) {
+    batch.abort();
+    throw e;
   }
-  // Everything is computed; write all files as one step (temporary files, then renames).
-  writeFilesAtomic(rendered);
+  batch.commit();
   // A binary part left by an earlier local run in this folder belongs to no model now.
   if (!modelFiles.binary) fs.rmSync(files.modelData, { force: true });
   const memory = { estimate: Math.max(estimate?.bytes ?? 0, gridEstimate.bytes), limit: limit.bytes, limitSource: limit.source, peak: peakResidentBytes() };

@@ -54,15 +54,46 @@ function temporaryName(dir: string, base: string): string {
 }
 
 /**
+ * A long text as pieces (a table's records, say), written as it is made, a block of about 1 MiB at a
+ * time, so that neither the whole text nor its bytes are ever held.
+ */
+export interface TextPieces {
+  pieces: Iterable<string>;
+}
+
+/** What a file holds: text, bytes, or text in pieces. */
+export type FileData = string | Uint8Array | TextPieces;
+
+/** Bytes of text written per write call for TextPieces. */
+const BLOCK_CHARS = 1 << 20;
+
+/**
  * Create a new file (never opening an existing one, nor following a link planted at its name:
  * O_EXCL, POSIX open(2)) and write data to it.
  */
-function writeNewFile(file: string, data: string | Uint8Array, sync: boolean): void {
+function writeNewFile(file: string, data: FileData, sync: boolean): void {
   const fd = fs.openSync(file, "wx", 0o666);
   try {
-    const bytes = typeof data === "string" ? new TextEncoder().encode(data) : data;
-    let done = 0;
-    while (done < bytes.length) done += fs.writeSync(fd, bytes, done, bytes.length - done);
+    const put = (bytes: Uint8Array) => {
+      let done = 0;
+      while (done < bytes.length) done += fs.writeSync(fd, bytes, done, bytes.length - done);
+    };
+    if (typeof data === "string") put(new TextEncoder().encode(data));
+    else if (data instanceof Uint8Array) put(data);
+    else {
+      const encoder = new TextEncoder();
+      let block: string[] = [], chars = 0;
+      for (const piece of data.pieces) {
+        block.push(piece);
+        chars += piece.length;
+        if (chars >= BLOCK_CHARS) {
+          put(encoder.encode(block.join("")));
+          block = [];
+          chars = 0;
+        }
+      }
+      if (block.length) put(encoder.encode(block.join("")));
+    }
     // Data on disk before the rename makes it visible (common practice for atomic replacement).
     if (sync) {
       try {
@@ -112,7 +143,7 @@ export function checkWritableFolder(output: string): void {
 }
 
 /** Write data to path atomically (new temporary file in the same folder, then rename). */
-export function writeFileAtomic(target: string, data: string | Uint8Array): void {
+export function writeFileAtomic(target: string, data: FileData): void {
   writeFilesAtomic([[target, data]]);
 }
 
@@ -135,32 +166,60 @@ export function ensureFolder(dir: string): void {
  * all are written are they renamed over their targets. A failure before the renames leaves every
  * existing output untouched and removes the temporary files.
  */
-export function writeFilesAtomic(files: [string, string | Uint8Array][]): void {
+export function writeFilesAtomic(files: [string, FileData][]): void {
+  const batch = fileBatch();
+  for (const [target, data] of files) batch.add(target, data);
+  batch.commit();
+}
+
+/**
+ * writeFilesAtomic one file at a time: `add` writes a file's temporary copy at once (so its data
+ * need not be kept), `commit` renames them all over their targets, `abort` removes them. A failure
+ * in `add` or `commit` removes every temporary file and throws; until `commit` no target changes.
+ */
+export interface FileBatch {
+  add(target: string, data: FileData): void;
+  commit(): void;
+  abort(): void;
+}
+
+export function fileBatch(): FileBatch {
   const pending: [string, string][] = [];
-  let current = files[0][0];
-  try {
-    for (const [target, data] of files) {
-      current = target;
-      const tmp = temporaryName(path.dirname(path.resolve(target)), path.basename(target));
-      pending.push([tmp, target]);
-      writeNewFile(tmp, data, true);
-    }
-    while (pending.length > 0) {
-      const [tmp, target] = pending[0];
-      current = target;
-      fs.renameSync(tmp, target);
-      pending.shift();
-    }
-  } catch (e) {
+  const abort = () => {
     for (const [tmp] of pending) {
       try {
         fs.unlinkSync(tmp);
       } catch { /* never created, or already gone */ }
     }
-    throw new RbfieldError(`cannot write the file (${reason(e)}); check the folder and free space, or choose another output path`, ExitCode.io, {
-      file: current,
-    });
-  }
+    pending.length = 0;
+  };
+  const fail = (e: unknown, file: string): never => {
+    abort();
+    throw new RbfieldError(`cannot write the file (${reason(e)}); check the folder and free space, or choose another output path`, ExitCode.io, { file });
+  };
+  return {
+    add(target, data) {
+      const tmp = temporaryName(path.dirname(path.resolve(target)), path.basename(target));
+      pending.push([tmp, target]);
+      try {
+        writeNewFile(tmp, data, true);
+      } catch (e) {
+        fail(e, target);
+      }
+    },
+    commit() {
+      while (pending.length > 0) {
+        const [tmp, target] = pending[0];
+        try {
+          fs.renameSync(tmp, target);
+        } catch (e) {
+          fail(e, target);
+        }
+        pending.shift();
+      }
+    },
+    abort,
+  };
 }
 
 /** Refuse, before any work, an output path that is a folder. */

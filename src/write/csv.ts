@@ -4,6 +4,7 @@ import { ExitCode, RbfieldError } from "../errors.ts";
 import { formatNumber } from "../text.ts";
 import { cellTexts } from "../read/table.ts";
 import type { PointTable } from "../types.ts";
+import type { TextPieces } from "./atomic.ts";
 
 export { formatNumber };
 
@@ -32,6 +33,22 @@ export function estimatesCsv(
   table: PointTable,
   added: { name: string; values: Float64Array | number[] | string[]; digits?: number }[],
 ): string {
+  return [...estimatesRecords(table, added)].join("");
+}
+
+/** estimatesCsv as pieces written while they are made (a run's table at every reading). */
+export function estimatesCsvPieces(
+  table: PointTable,
+  added: { name: string; values: Float64Array | number[] | string[]; digits?: number }[],
+): TextPieces {
+  return { pieces: estimatesRecords(table, added) };
+}
+
+/** The header, then one record per row, each with its CRLF (checked before the first record). */
+function estimatesRecords(
+  table: PointTable,
+  added: { name: string; values: Float64Array | number[] | string[]; digits?: number }[],
+): Iterable<string> {
   const rows = table.lines.length;
   for (const col of added) {
     if (col.values.length !== rows) {
@@ -42,18 +59,18 @@ export function estimatesCsv(
     }
   }
   const width = table.columns.length;
-  const out: string[] = [];
   const header = [...inputHeader(table), ...added.map((c) => c.name)];
-  out.push(header.map(csvField).join(",") + "\r\n");
   const text = cellTexts(table);
-  for (let i = 0; i < rows; i++) {
-    const fields: string[] = [];
-    for (let j = 0; j < width; j++) fields.push(csvField(text(i, j)));
-    for (const col of added) {
-      const v = col.values[i];
-      fields.push(csvField(typeof v === "string" ? v : formatNumber(v, col.digits ?? 10)));
+  return (function* () {
+    yield header.map(csvField).join(",") + "\r\n";
+    for (let i = 0; i < rows; i++) {
+      const fields: string[] = [];
+      for (let j = 0; j < width; j++) fields.push(csvField(text(i, j)));
+      for (const col of added) {
+        const v = col.values[i];
+        fields.push(csvField(typeof v === "string" ? v : formatNumber(v, col.digits ?? 10)));
+      }
+      yield fields.join(",") + "\r\n";
     }
-    out.push(fields.join(",") + "\r\n");
-  }
-  return out.join("");
+  })();
 }

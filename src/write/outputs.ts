@@ -6,10 +6,11 @@ import type { GridValues, PointTable } from "../types.ts";
 import { type MapInput, renderMap } from "./map.ts";
 import { mapToPdf } from "./map/print.ts";
 import { renderReport, type ReportInput } from "./report.ts";
-import { estimatesCsv } from "./csv.ts";
+import { estimatesCsvPieces } from "./csv.ts";
 import { bandText, encodeGeoTiff } from "./geotiff.ts";
-import { residualsCsv } from "./residuals.ts";
+import { residualsCsvPieces } from "./residuals.ts";
 import { type DuplicateGroup, duplicatesCsv, type SkippedEntry, skippedCsv } from "./tables.ts";
+import type { FileData } from "./atomic.ts";
 
 /** Everything a run has computed, which the outputs render. */
 export interface RunProducts {
@@ -41,7 +42,7 @@ export interface OutputWriter {
   label: string;
   /** Written only by some runs (render gives null otherwise): the model's binary part, for local models. */
   optional?: true;
-  render(p: RunProducts): string | Uint8Array | null | Promise<Uint8Array>;
+  render(p: RunProducts): FileData | null | Promise<Uint8Array>;
 }
 
 /** The printed map of a run: A4 landscape, colour relief with hillshade, fitted to the page. */
@@ -55,8 +56,8 @@ export const RUN_OUTPUTS: readonly OutputWriter[] = [
   { key: "stderr", file: "stderr.tif", label: "std error", render: (p) => encodeGeoTiff(p.stderrGrid, { band: bandText(p.model.source.z, "standard errors") }) },
   { key: "contours", file: "contours.geojson", label: "contours", render: (p) => p.contours },
   { key: "bands", file: "bands.geojson", label: "bands", render: (p) => p.bands },
-  { key: "estimates", file: "estimates.csv", label: "estimates", render: (p) => estimatesCsv(p.estimates.table, p.estimates.columns) },
-  { key: "residuals", file: "residuals.csv", label: "residuals", render: (p) => residualsCsv(p.model) },
+  { key: "estimates", file: "estimates.csv", label: "estimates", render: (p) => estimatesCsvPieces(p.estimates.table, p.estimates.columns) },
+  { key: "residuals", file: "residuals.csv", label: "residuals", render: (p) => residualsCsvPieces(p.model) },
   { key: "skipped", file: "skipped.csv", label: "skipped", render: (p) => skippedCsv(p.input.skipped) },
   { key: "duplicates", file: "duplicates.csv", label: "duplicates", render: (p) => duplicatesCsv(p.input.duplicates) },
   { key: "map", file: "map.pdf", label: "map", render: (p) => mapToPdf(renderMap(p.map, RUN_MAP_OPTIONS), { creationDate: new Date(`${p.date}T00:00:00Z`) }) },

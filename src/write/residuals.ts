@@ -3,6 +3,7 @@ import type { SurfaceModel } from "../model/model.ts";
 import { formatResidualCell } from "../text.ts";
 import type { PointText } from "../types.ts";
 import { csvField } from "./csv.ts";
+import type { TextPieces } from "./atomic.ts";
 
 const FIXED = ["line", "x", "y", "value", "fitted", "residual", "loo_residual", "loo_studentised", "loo_standardised", "flag", "robust_weight"];
 /** Column names of the texts that describe the value (the rest stand after the line). */
@@ -16,6 +17,16 @@ const VALUE_TEXTS: Record<string, string> = { qualifier: "qualifier", "detection
  * robustness weight. For log fits, residuals are in log units.
  */
 export function residualsCsv(model: SurfaceModel): string {
+  return [...residualRecords(model)].join("");
+}
+
+/** residualsCsv as pieces written while they are made (a big survey's table). */
+export function residualsCsvPieces(model: SurfaceModel): TextPieces {
+  return { pieces: residualRecords(model) };
+}
+
+/** The header and one record per point, each with its CRLF. */
+function* residualRecords(model: SurfaceModel): Generator<string> {
   const log = model.transform === "log";
   const rw = model.points.robustWeight;
   const tau = model.diagnostics.flags.test === "tau";
@@ -28,13 +39,13 @@ export function residualsCsv(model: SurfaceModel): string {
     "line", ...before.map(nameOf), "x", "y", "value", ...after.map(nameOf), `fitted${log ? "_log" : ""}`, `residual${log ? "_log" : ""}`,
     `loo_residual${log ? "_log" : ""}`, tau ? "loo_studentised" : "loo_standardised", "flag", ...(rw ? ["robust_weight"] : []),
   ];
-  const lines = [header.map(csvField).join(",")];
+  yield header.map(csvField).join(",") + "\r\n";
   const p = model.points;
   const flagged = new Set(model.diagnostics.flags.lines);
   for (let i = 0; i < p.x.length; i++) {
     const v = log ? Math.log(p.z[i]) : p.z[i];
     const zst = model.looStandardised[i];
-    lines.push(
+    yield (
       [
         p.line[i],
         ...before.map((t) => csvField(t.values[i])),
@@ -48,8 +59,7 @@ export function residualsCsv(model: SurfaceModel): string {
         model.loo[i] === null || zst === null ? "" : formatResidualCell(zst, 4),
         flagged.has(p.line[i]) ? "possible blunder" : "",
         ...(rw ? [formatResidualCell(rw[i], 4)] : []),
-      ].join(","),
+      ].join(",") + "\r\n"
     );
   }
-  return lines.join("\r\n") + "\r\n";
 }
