@@ -126,6 +126,11 @@ export interface JobSize {
   run?: boolean;
   /** The job fits (else the model is read). */
   fits?: boolean;
+  /**
+   * A run whose local fit computes the error grid itself (no breaklines: FitOptions.errorPlaces):
+   * only estimates between readings factorise patches, in this thread alone.
+   */
+  errorsFromFit?: boolean;
   threads?: number;
 }
 
@@ -154,7 +159,8 @@ export function estimateMemory(job: JobSize): MemoryEstimate {
     const p = job.patchPoints ?? DEFAULT_PATCH_POINTS;
     if (job.fits) parts.push({ what: `local fit of ${count} points`, bytes: LOCAL_FIT_PER_POINT * n + PATCH_WORK_PER_N2 * (2 * p) ** 2 * Math.max(workers, 1), kind: "local" });
     if (errors) {
-      const bytes = Math.max(workers, 1) * (Math.min(LOCAL_ERRORS_PER_POINT * n, STDERR_CACHE_PEAK) + PACKED_ERRORS_PER_POINT * n);
+      const threadsFactorising = job.errorsFromFit ? 1 : Math.max(workers, 1);
+      const bytes = threadsFactorising * (Math.min(LOCAL_ERRORS_PER_POINT * n, STDERR_CACHE_PEAK) + PACKED_ERRORS_PER_POINT * n);
       parts.push({ what: `the standard errors' patch factors`, bytes, kind: "errors" });
     }
   }
