@@ -166,6 +166,39 @@ function ringSearch(g: BucketGrid): (px: number, py: number, c0: number, r0: num
 }
 
 /**
+ * The first of the points (lowest index) at exactly (px, py), or −1: an open-addressing hash table
+ * on the coordinates' bits with linear probing (Knuth, TAOCP vol. 3, §6.4, algorithm L). Built in
+ * linear time; −0 and +0 are the same place.
+ */
+export function exactPointLookup(x: ArrayLike<number>, y: ArrayLike<number>): (px: number, py: number) => number {
+  const n = x.length;
+  let size = 16;
+  while (size < 2 * n) size *= 2;
+  const mask = size - 1;
+  const slots = new Int32Array(size).fill(-1);
+  const f = new Float64Array(1), w = new Uint32Array(f.buffer);
+  const hash = (px: number, py: number): number => {
+    f[0] = px + 0; // −0 → +0
+    let h = Math.imul(w[0] ^ Math.imul(w[1], 0x9e3779b1), 0x85ebca6b);
+    f[0] = py + 0;
+    h = Math.imul(h ^ w[0] ^ Math.imul(w[1], 0xc2b2ae35), 0x27d4eb2f);
+    return (h ^ (h >>> 15)) & mask;
+  };
+  for (let i = 0; i < n; i++) {
+    let k = hash(x[i], y[i]);
+    while (slots[k] >= 0) k = (k + 1) & mask;
+    slots[k] = i;
+  }
+  return (px, py) => {
+    for (let k = hash(px, py); slots[k] >= 0; k = (k + 1) & mask) {
+      const i = slots[k];
+      if (x[i] === px && y[i] === py) return i;
+    }
+    return -1;
+  };
+}
+
+/**
  * Distance from a place to the nearest of the points (Math.hypot of the coordinate differences), by
  * the bucket grid of nearestDistances for places inside its cells (the points' bounding box and a
  * little more) (about 0.3 µs a

@@ -49,3 +49,35 @@ describe("nearest-point searches equal brute force", () => {
     expect(nearestPointDistance(new Float64Array(0), new Float64Array(0))(0, 0)).toBeNaN();
   });
 });
+
+describe("the median spacing cleaning measured is the model's", () => {
+  it("fitPointsFile hands the isolated-sample search's spacing to the fit: equal to medianSpacing of the points", async () => {
+    const { fitPointsFile } = await import("../src/job/points.ts");
+    const { medianSpacing } = await import("../src/geometry.ts");
+    const file = new URL("../samples/kestrel-ridge-levels.csv", import.meta.url).pathname;
+    const fitted = await fitPointsFile({ file, crs: "EPSG:32632" }, { kernel: "thin-plate", trend: "linear" });
+    expect(fitted.model.spacing).toBe(medianSpacing(fitted.points.x, fitted.points.y));
+    expect(fitted.model.spacing).toBeGreaterThan(0);
+  });
+});
+
+describe("exactPointLookup", () => {
+  it("finds the first point at exactly a place (brute force: the lowest index with equal coordinates), −1 elsewhere", async () => {
+    const { exactPointLookup } = await import("../src/geometry.ts");
+    const u = mulberry32(5);
+    const x = Float64Array.from({ length: 5000 }, (_, i) => (i % 10 === 0 ? 0 : Math.round(1000 * u()) / 4));
+    const y = Float64Array.from({ length: 5000 }, (_, i) => (i % 10 === 0 ? -0 : Math.round(1000 * u()) / 4));
+    const at = exactPointLookup(x, y);
+    const brute = (px: number, py: number) => {
+      for (let i = 0; i < x.length; i++) if (x[i] === px && y[i] === py) return i;
+      return -1;
+    };
+    for (let i = 0; i < x.length; i += 3) expect(at(x[i], y[i])).toBe(brute(x[i], y[i]));
+    expect(at(0, 0)).toBe(0);
+    expect(at(-0, 0)).toBe(0);
+    for (let k = 0; k < 300; k++) {
+      const px = Math.round(1000 * u()) / 4 + 0.125, py = Math.round(1000 * u()) / 4;
+      expect(at(px, py)).toBe(-1);
+    }
+  });
+});

@@ -35,6 +35,7 @@ import { cholesky, householderQR, type Reflector, reflectSymmetric, applyReflect
 import { kernelOfSquared, trendRow, weightedKernelMatrix } from "../fit/kernels.ts";
 import { transformedValues } from "../fit/prepare.ts";
 import type { FitState } from "../fit/core.ts";
+import { exactPointLookup } from "../geometry.ts";
 import type { LocalModel } from "../model/model.ts";
 import type { TrendName } from "../types.ts";
 import { localBuffers, localEvaluator, makeBlender, nearestLine, type PackedLocal, packLocal, subsetPatches, taper } from "./local.ts";
@@ -305,16 +306,10 @@ export function localErrorEstimatorPacked(pe: PackedLocalErrors, places?: PlaceE
   };
 
   // Data points by their map coordinates, for the errors the fit stored there.
-  const pointAt = new Map<number, number[]>();
-  for (let i = 0; i < pe.px.length; i++) {
-    const list = pointAt.get(pe.px[i]);
-    if (list) list.push(i);
-    else pointAt.set(pe.px[i], [i]);
-  }
+  const pointAt = exactPointLookup(pe.px, pe.py);
   const atPoint = (x: number, y: number): number => {
-    const list = pointAt.get(x);
-    if (list) for (const i of list) if (pe.py[i] === y) return pe.pointSe[i];
-    return NaN;
+    const i = pointAt(x, y);
+    return i >= 0 ? pe.pointSe[i] : NaN;
   };
 
   const colOf = new Map<number, number>(), rowOf = new Map<number, number>();

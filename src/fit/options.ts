@@ -59,6 +59,11 @@ export interface FitOptions {
   /** Called with short progress messages during long work. */
   progress?: (message: string) => void;
   /**
+   * The points' median spacing (medianSpacing of these very x, y), when the caller has it already:
+   * cleaning computes it for the isolated-sample search (0.8 s at 10⁶ points). Else computed.
+   */
+  spacing?: number;
+  /**
    * The local method only: asked, once the patches are laid out, with the work of one standard
    * error (patchErrorWork), for the places where the error grid will be wanted — the map x of its
    * lattice's columns and y of its rows — so each patch's error there is computed from the fit's

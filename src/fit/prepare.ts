@@ -121,3 +121,8 @@ export function prepareData(points: CleanPoints, options: FitOptions, withSpacin
   }
   return { n, u, v, values, sqrtW, spacingScaled: withSpacing ? medianSpacing(u, v) : 0, s: geo.s, cx: geo.cx, cy: geo.cy, stretch };
 }
+
+/** The points' median spacing: as the caller gave it (FitOptions.spacing, for two points or more), else medianSpacing. */
+export function spacingOf(points: { x: Float64Array; y: Float64Array }, options: { spacing?: number }): number {
+  return points.x.length >= 2 && options.spacing !== undefined ? options.spacing : medianSpacing(points.x, points.y);
+}

@@ -15,7 +15,7 @@ import { hasShape } from "./kernels.ts";
 import { fitLocal, fitLocalParallel, LOCAL_AUTO_POINTS, type LocalInput } from "./local/local.ts";
 import type { PlaceErrors } from "../evaluate/local_stderr.ts";
 import type { FitOptions, MethodChoice, SelectRule } from "./options.ts";
-import { prepareData, type Prepared, subsampleIndices, subsamplePrepared } from "./prepare.ts";
+import { prepareData, type Prepared, spacingOf, subsampleIndices, subsamplePrepared } from "./prepare.ts";
 import { robustFit, type RobustResult } from "./robust.ts";
 import { candidateList, chooseCandidate, kernelGroups, type SelectionOutcome } from "./select.ts";
 
@@ -334,7 +334,7 @@ function finishFit(plan: FitPlan, outcome: SelectionOutcome | null): FittedModel
     },
     extent,
     hull,
-    spacing: medianSpacing(points.x, points.y),
+    spacing: spacingOf(points, options),
     global: {
       scaling: sc,
       internal: { epsilonScaled: fit.epsilonScaled, lambdaScaled: fit.lambdaScaled },

@@ -338,6 +338,8 @@ export async function fitPointsFile(src: PointsSource, fit: FitOptions = {}, bef
   try {
     fitted = await fitSurfaceParallelWithFactors(loaded.points, {
       ...fit,
+      // The isolated-sample search measured the same points' median spacing.
+      spacing: loaded.isolation.spacing,
       ...(breaklines.length ? { breaklines } : {}),
       weights: loaded.weights,
       crs: loaded.crs,

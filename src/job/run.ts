@@ -4,7 +4,7 @@ import * as fs from "node:fs";
 import * as path from "node:path";
 import { makeExtrapolationCheck } from "../evaluate/extrapolation.ts";
 import { gridModelParallel } from "../evaluate/parallel.ts";
-import { errorLattice, gridStandardErrorParallel, latticePlaces, makeErrorEstimator, placesMatch } from "../evaluate/stderr.ts";
+import { errorLattice, type ErrorEstimator, gridStandardErrorParallel, latticePlaces, makeErrorEstimator, placesMatch } from "../evaluate/stderr.ts";
 import { valueRange } from "../numbers.ts";
 import { type MaskFile } from "../read/mask.ts";
 import { gridLayout, type GridOptions } from "../evaluate/grid.ts";
@@ -17,7 +17,7 @@ import { fileListLines, type RunProducts, RUN_OUTPUTS, tableJob, tablePieces, wo
 import { runWorker, workersAvailable } from "../workers.ts";
 import { mapInputFromModel } from "../write/map.ts";
 import { type FitOptions } from "../fit/surface.ts";
-import { encodeModel, type SurfaceModel } from "../model/model.ts";
+import { encodeModel, type SurfaceModel, usesSidecar } from "../model/model.ts";
 import { checkWritableFolder, ensureFolder, fileBatch, refuseFolderAsOutput, refuseInputAsOutput } from "../write/atomic.ts";
 import { contourText, fmt, gridText, missedLevelWarnings, modelSummaryLines, summaryText } from "../write/summary.ts";
 import { fitPointsFile, gridOptionsFor, inputJson, isolationNotes, type LoadedPoints, pointNotes, type PointsSource, projectedFrom } from "./points.ts";
@@ -153,17 +153,19 @@ async function runInto(opts: RunOptions, files: Record<string, string>, inputs: 
   const bands = contourGeoJson(grid, rule, { bands: true, progress: opts.progress });
   opts.progress?.("standard errors");
   // One error estimator serves the estimates table and the error grid, from the fit's own factors.
-  let errorEstimator = makeErrorEstimator(model, fitted.factors, fitted.places);
+  let errorEstimator: ErrorEstimator | undefined = makeErrorEstimator(model, fitted.factors, fitted.places);
   if (fitted.places && !placesMatch(fitted.places, grid.spec, errorEstimator, model.points.x.length)) errorEstimator = makeErrorEstimator(model, fitted.factors);
   const est = await estimateTableParallel(model, locTable, errorEstimator);
   const errors = await gridStandardErrorParallel(model, grid, opts.progress, errorEstimator);
+  // Its packed copy of the model and its caches (hundreds of MB at 10⁶ points) are not needed again.
+  errorEstimator = undefined;
   const seRange = valueRange(errors.grid.values);
   const gridRange = valueRange(grid.values);
   const check = makeExtrapolationCheck(model);
 
   // The model as written; a global model has no binary part, so the run writes no model.rbfield.bin.
-  const modelFiles = encodeModel(model, path.basename(files.modelData));
-  const written = Object.fromEntries(Object.entries(files).filter(([key]) => key !== "modelData" || modelFiles.binary));
+  const sidecar = usesSidecar(model);
+  const written = Object.fromEntries(Object.entries(files).filter(([key]) => key !== "modelData" || sidecar));
   const s = grid.spec;
   let maskedCells = 0;
   for (const v of grid.values) if (Number.isNaN(v)) maskedCells++;
@@ -188,7 +190,7 @@ async function runInto(opts: RunOptions, files: Record<string, string>, inputs: 
   const date = opts.date ?? new Date().toISOString().slice(0, 10);
   const products: RunProducts = {
     model,
-    modelFiles,
+    modelFiles: encodeModel(model, path.basename(files.modelData)),
     grid,
     stderrGrid: errors.grid,
     contours: lines.text,
@@ -229,6 +231,8 @@ async function runInto(opts: RunOptions, files: Record<string, string>, inputs: 
       }
       const data = await o.render(products);
       if (data !== null) batch.add(files[o.key], data);
+      // The model's bytes are on disk now (the sidecar is about 100 bytes a point): let them go.
+      if (o.key === "modelData") products.modelFiles = { json: "", binary: null };
     }
     await Promise.all(background);
   } catch (e) {
@@ -238,7 +242,7 @@ async function runInto(opts: RunOptions, files: Record<string, string>, inputs: 
   }
   batch.commit();
   // A binary part left by an earlier local run in this folder belongs to no model now.
-  if (!modelFiles.binary) fs.rmSync(files.modelData, { force: true });
+  if (!sidecar) fs.rmSync(files.modelData, { force: true });
   const memory = { estimate: Math.max(estimate?.bytes ?? 0, gridEstimate.bytes), limit: limit.bytes, limitSource: limit.source, peak: peakResidentBytes() };
   return { model, files: written, summary, warnings: [...estimateWarnings(est), ...missed], input: inputJson(fitted, model), memory };
 }

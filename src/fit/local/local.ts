@@ -24,7 +24,7 @@
 //                     degrees of freedom. Not iterated (no data snooping): a blunder's neighbours in
 //                     the same patch can be flagged with it.
 import { ExitCode, opt, RbfieldError } from "../../errors.ts";
-import { boundingBox, convexHullRing, coordinateMapper, medianSpacing, pointIndex } from "../../geometry.ts";
+import { boundingBox, convexHullRing, coordinateMapper, pointIndex } from "../../geometry.ts";
 import type { LocalDiagnostics, LocalModel, ModelDiagnostics } from "../../model/model.ts";
 import { MODEL_FORMAT, MODEL_VERSION } from "../../model/model.ts";
 import type { CleanPoints, KernelName, TrendName } from "../../types.ts";
@@ -32,7 +32,7 @@ import { runWorker, runWorkerQueue, workersAvailable } from "../../workers.ts";
 import type { CandidateScore } from "../candidate.ts";
 import { hasShape, trendTerms } from "../kernels.ts";
 import type { FitOptions, SelectRule } from "../options.ts";
-import type { Prepared } from "../prepare.ts";
+import { type Prepared, spacingOf } from "../prepare.ts";
 import { chooseCandidate, kernelGroups } from "../select.ts";
 import { perTestLevel, tauCritical } from "../tau.ts";
 import {
@@ -175,7 +175,7 @@ function cutStage(input: LocalInput, layout: PatchLayout, data: PatchData, minPo
   for (const l of given) if (l.z) l.x.forEach((x, k) => at.add(`${x},${l.y[k]}`));
   const onLine = new Uint8Array(n);
   for (let i = 0; i < n; i++) if (at.has(`${input.points.x[i]},${input.points.y[i]}`)) onLine[i] = 1;
-  const { lines, faces } = separateFaces(given, input.points, onLine, medianSpacing(input.points.x, input.points.y), pointIndex(input.points.x, input.points.y));
+  const { lines, faces } = separateFaces(given, input.points, onLine, spacingOf(input.points, input.options), pointIndex(input.points.x, input.points.y));
   if (faces) input.options.progress?.(`${faces} vertical faces: coincident line vertices with different levels kept apart`);
   const extra = linePoints(lines, map, step);
   const q = extra.x.length;
@@ -699,7 +699,7 @@ function assemble(st: Stage, choice: Choice, blocks: PatchBlock[], places?: { x:
     },
     extent: boundingBox(points.x, points.y),
     hull: convexHullRing(points.x, points.y),
-    spacing: medianSpacing(points.x, points.y),
+    spacing: spacingOf(points, options),
     local: {
       scaling: { cx: prep.cx, cy: prep.cy, s: prep.s },
       coverage: 1 / st.settings.overlap,
