@@ -68,34 +68,3 @@ describe("a batch of output files", () => {
     expect(fs.readFileSync(inPieces).equals(fs.readFileSync(whole))).toBe(true);
   });
 });
-
-describe("a run's big tables written by a worker thread", () => {
-  it("residuals.csv and (from a table made by hand, without written cells) estimates.csv from tables_worker.ts equal the same tables written in this thread", async () => {
-    const { fitSurface } = await import("../src/fit/surface.ts");
-    const { makePoints, franke } = await import("./helpers.ts");
-    const { runWorker } = await import("../src/workers.ts");
-    const { tableJob, tablePieces } = await import("../src/write/table_jobs.ts");
-    const pts = makePoints(60, 3, (x, y) => 100 + franke(x, y));
-    const model = fitSurface(pts, { kernel: "thin-plate", trend: "linear" });
-    const table = {
-      columns: ["x", "y", "note"],
-      rows: Array.from(pts.x, (x, i) => [String(x), String(pts.y[i]), i % 7 ? "" : 'kerb, "top"']),
-      lines: Array.from(pts.x, (_, i) => i + 2),
-      xColumn: 0,
-      yColumn: 1,
-      zColumn: -1,
-      hasHeader: true,
-    };
-    const columns = [{ name: "estimate", values: Float64Array.from(pts.z, (z) => z + 0.125) }, { name: "extrapolation", values: Array.from(pts.z, (_, i) => (i % 5 ? "" : "far from data")) }];
-    const products = { model, estimates: { table: table as never, columns } };
-    for (const key of ["residuals", "estimates"]) {
-      const job = tableJob(key, products)!;
-      const here = path.join(dir, `${key}-here.csv`), there = path.join(dir, `${key}-worker.csv`);
-      writeFileAtomic(here, tablePieces(job));
-      const reply = await runWorker<{ done?: boolean }>(new URL("../src/write/tables_worker.ts", import.meta.url), { ...job, file: there });
-      expect(reply.done).toBe(true);
-      expect(fs.readFileSync(there).equals(fs.readFileSync(here)), key).toBe(true);
-      expect(fs.readFileSync(here, "utf8").split("\r\n").length).toBe(62);
-    }
-  });
-});

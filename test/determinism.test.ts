@@ -10,7 +10,6 @@ import * as os from "node:os";
 import * as path from "node:path";
 import { fileURLToPath } from "node:url";
 import { main } from "../src/cli.ts";
-import { runJob } from "../src/job/run.ts";
 import { cleanPoints } from "../src/clean/clean.ts";
 import { gridModel } from "../src/evaluate/grid.ts";
 import { gridModelParallel } from "../src/evaluate/parallel.ts";
@@ -67,20 +66,6 @@ describe("same input and options → byte-identical outputs", () => {
     expect(ra.out.replaceAll(a, "<out>")).toBe(rb.out.replaceAll(b, "<out>"));
     // No temporary or probe files are left beside the outputs.
     expect(files(a).filter((n) => n.startsWith("."))).toEqual([]);
-  }, 120_000);
-
-  it("run with residuals.csv written by a worker thread (as from 50,000 points): every output identical to the run in one thread", async () => {
-    const base = { file: SAMPLE, crs: "EPSG:32632", date: "2026-12-02" };
-    const a = path.join(tmp, "tables-here"), b = path.join(tmp, "tables-workers");
-    await runJob({ ...base, outDir: a });
-    const said: string[] = [];
-    await runJob({ ...base, outDir: b, tableWorkerPoints: 0, progress: (m) => said.push(m) });
-    // A worker that failed would leave its table to this thread, and say so.
-    expect(said.filter((m) => m.includes("in this thread"))).toEqual([]);
-    expect(files(b)).toEqual(files(a));
-    for (const name of files(a).filter((n) => n !== "run-summary.txt")) {
-      expect(fs.readFileSync(path.join(b, name)).equals(fs.readFileSync(path.join(a, name))), name).toBe(true);
-    }
   }, 120_000);
 
   it("fit, grid and contour verbs, twice with the same paths: identical bytes, including a run replacing its own output", async () => {

@@ -13,8 +13,7 @@ import { boundingBox } from "../geometry.ts";
 import { checkMemory, estimateMemory, fmtBytes, memoryAdvice, type MemoryEstimate, memoryLimit, methodFor, peakResidentBytes } from "./memory.ts";
 import { contourGeoJson } from "../write/contours.ts";
 import { chooseLevelRule } from "../write/levels.ts";
-import { fileListLines, type RunProducts, RUN_OUTPUTS, tableJob, tablePieces, workerTable } from "../write/outputs.ts";
-import { runWorker, workersAvailable } from "../workers.ts";
+import { fileListLines, type RunProducts, RUN_OUTPUTS } from "../write/outputs.ts";
 import { mapInputFromModel } from "../write/map.ts";
 import { type FitOptions } from "../fit/surface.ts";
 import { encodeModel, type SurfaceModel, usesSidecar } from "../model/model.ts";
@@ -48,8 +47,6 @@ export interface RunOptions extends PointsSource {
   progress?: (message: string, fraction?: number) => void;
   /** Memory limit in bytes (default: half of the machine's memory; job/memory.ts). */
   maxMemory?: number;
-  /** Points from which residuals.csv is written in a worker thread (default TABLE_WORKER_POINTS; tests set 0). */
-  tableWorkerPoints?: number;
 }
 
 export interface RunResult {
@@ -72,12 +69,6 @@ export interface MemoryReport {
   limitSource: string;
   peak: number | null;
 }
-
-/**
- * Points from which run writes residuals.csv in a worker thread (about 0.2 s of formatting per 10⁵
- * rows, against the cost of starting a worker and copying the columns).
- */
-const TABLE_WORKER_POINTS = 50_000;
 
 /** The whole job on a points file into an output folder (files: RUN_OUTPUTS). */
 export async function runJob(opts: RunOptions): Promise<RunResult> {
@@ -211,32 +202,16 @@ async function runInto(opts: RunOptions, files: Record<string, string>, inputs: 
   };
   // Each file goes to a temporary file as soon as it is made (its text need not be kept: a 10⁶-point
   // run's tables are hundreds of MB); all are renamed over their targets once every one is written.
-  // Above TABLE_WORKER_POINTS residuals.csv is written by a worker thread while this thread writes
-  // the rest (the same code: write/tables_worker.ts); where the worker fails, here.
   const batch = fileBatch();
-  const background: Promise<void>[] = [];
-  const inWorkers = model.points.x.length >= (opts.tableWorkerPoints ?? TABLE_WORKER_POINTS) && workersAvailable(navigator.hardwareConcurrency || 1);
   try {
     for (const [i, o] of RUN_OUTPUTS.entries()) {
       opts.progress?.("writing the map, the report and the other files", i / RUN_OUTPUTS.length);
-      const job = inWorkers && workerTable(o.key) ? tableJob(o.key, products) : null;
-      if (job) {
-        const slot = batch.reserve(files[o.key]);
-        const url = new URL("../write/tables_worker.ts", import.meta.url);
-        background.push(runWorker<unknown>(url, { ...job, file: slot.file }).then(() => {}, (e) => {
-          opts.progress?.(`writing ${o.file} in this thread (worker thread: ${(e as Error).message})`);
-          slot.fill(tablePieces(job));
-        }));
-        continue;
-      }
       const data = await o.render(products);
       if (data !== null) batch.add(files[o.key], data);
       // The model's bytes are on disk now (the sidecar is about 100 bytes a point): let them go.
       if (o.key === "modelData") products.modelFiles = { json: "", binary: null };
     }
-    await Promise.all(background);
   } catch (e) {
-    await Promise.allSettled(background);
     batch.abort();
     throw e;
   }

@@ -179,18 +179,8 @@ export function writeFilesAtomic(files: [string, FileData][]): void {
  */
 export interface FileBatch {
   add(target: string, data: FileData): void;
-  /**
-   * A temporary file for `target` that another thread writes (writeTemporary): renamed with the
-   * others by `commit`, removed by `abort`. `fill` writes it here instead (a partial one is replaced).
-   */
-  reserve(target: string): { file: string; fill(data: FileData): void };
   commit(): void;
   abort(): void;
-}
-
-/** Write a temporary file that fileBatch().reserve named (in a worker thread): created new, synced. */
-export function writeTemporary(file: string, data: FileData): void {
-  writeNewFile(file, data, true);
 }
 
 export function fileBatch(): FileBatch {
@@ -209,22 +199,13 @@ export function fileBatch(): FileBatch {
   };
   return {
     add(target, data) {
-      this.reserve(target).fill(data);
-    },
-    reserve(target) {
       const tmp = temporaryName(path.dirname(path.resolve(target)), path.basename(target));
       pending.push([tmp, target]);
-      return {
-        file: tmp,
-        fill(data) {
-          try {
-            fs.rmSync(tmp, { force: true });
-            writeNewFile(tmp, data, true);
-          } catch (e) {
-            fail(e, target);
-          }
-        },
-      };
+      try {
+        writeNewFile(tmp, data, true);
+      } catch (e) {
+        fail(e, target);
+      }
     },
     commit() {
       while (pending.length > 0) {

@@ -9,8 +9,8 @@ import { renderReport, type ReportInput } from "./report.ts";
 import { bandText, encodeGeoTiff } from "./geotiff.ts";
 import { type DuplicateGroup, duplicatesCsv, type SkippedEntry, skippedCsv } from "./tables.ts";
 import type { FileData } from "./atomic.ts";
-import { tableJob, tablePieces } from "./table_jobs.ts";
-export { type TableJob, tableJob, tablePieces, workerTable } from "./table_jobs.ts";
+import { estimatesCsvPieces } from "./csv.ts";
+import { residualsCsvPieces } from "./residuals.ts";
 
 /** Everything a run has computed, which the outputs render. */
 export interface RunProducts {
@@ -56,8 +56,8 @@ export const RUN_OUTPUTS: readonly OutputWriter[] = [
   { key: "stderr", file: "stderr.tif", label: "std error", render: (p) => encodeGeoTiff(p.stderrGrid, { band: bandText(p.model.source.z, "standard errors") }) },
   { key: "contours", file: "contours.geojson", label: "contours", render: (p) => p.contours },
   { key: "bands", file: "bands.geojson", label: "bands", render: (p) => p.bands },
-  { key: "estimates", file: "estimates.csv", label: "estimates", render: (p) => tablePieces(tableJob("estimates", p)!) },
-  { key: "residuals", file: "residuals.csv", label: "residuals", render: (p) => tablePieces(tableJob("residuals", p)!) },
+  { key: "estimates", file: "estimates.csv", label: "estimates", render: (p) => estimatesCsvPieces(p.estimates.table, p.estimates.columns) },
+  { key: "residuals", file: "residuals.csv", label: "residuals", render: (p) => residualsCsvPieces(p.model) },
   { key: "skipped", file: "skipped.csv", label: "skipped", render: (p) => skippedCsv(p.input.skipped) },
   { key: "duplicates", file: "duplicates.csv", label: "duplicates", render: (p) => duplicatesCsv(p.input.duplicates) },
   { key: "map", file: "map.pdf", label: "map", render: (p) => mapToPdf(renderMap(p.map, RUN_MAP_OPTIONS), { creationDate: new Date(`${p.date}T00:00:00Z`) }) },
