@@ -11,6 +11,8 @@ import * as os from "node:os";
 import * as path from "node:path";
 import { main } from "../src/cli.ts";
 import { readGrid } from "../src/job/points.ts";
+import { methodSummary } from "../src/write/map/method.ts";
+import { formatSignificant } from "../src/text.ts";
 import { describe, expect, it } from "vitest";
 import { Matrix, solve } from "ml-matrix";
 import { fitSurface, fitSurfaceParallel, fitSurfaceWithFactors, LOCAL_AUTO_POINTS, MAX_GLOBAL_POINTS } from "../src/fit/surface.ts";
@@ -508,6 +510,15 @@ describe("local method: model choice, blunders and the method switch", () => {
     expect(e.exitCode).toBe(ExitCode.numerical);
     expect(e.options).toContain("method");
     expect(e.message).toMatch(/local/);
+  });
+
+  it("the map's and report's method paragraph gives each patch's λ by GCV (range and median), not one λ", () => {
+    const model = local(fitSurface(noisyFranke(2500, 23), { method: "local" }));
+    const text = methodSummary(model);
+    const l = model.diagnostics.local!;
+    expect(text).not.toContain("smoothing λ =");
+    expect(text).toContain(`smoothing λ by GCV in each of ${l.patches.toLocaleString("en")} patches (${formatSignificant(l.lambda.min)} to ${formatSignificant(l.lambda.max)}, median ${formatSignificant(l.lambda.median)})`);
+    expect(l.lambda.min).toBeLessThan(l.lambda.max);
   });
 
   it("fits log-transformed, weighted and stretched readings", () => {

@@ -129,8 +129,9 @@ function localInput(plan: FitPlan): LocalInput {
 }
 
 /**
- * Which method runs: as asked, or with "auto" the local method above LOCAL_AUTO_POINTS points (where
- * it is faster than the global method at about the same accuracy; measured, see DEVELOPERS.md).
+ * Which method runs: as asked, or with "auto" the local method above LOCAL_AUTO_POINTS points, where
+ * the global method grows slow (it is the more accurate where it runs: bench/switch.ts, README "Large
+ * surveys").
  * The global method refuses more than MAX_GLOBAL_POINTS points.
  */
 function chooseMethod(n: number, asked: MethodChoice): { method: "global" | "local"; why: string } {
@@ -149,7 +150,11 @@ function chooseMethod(n: number, asked: MethodChoice): { method: "global" | "loc
   if (asked === "global") return { method: "global", why: "global method, as asked" };
   if (asked === "local") return { method: "local", why: "local method (partition of unity), as asked" };
   return n > LOCAL_AUTO_POINTS
-    ? { method: "local", why: `local method (partition of unity): ${count} points are more than ${limit}, above which it is faster than the global method at about the same accuracy` }
+    ? {
+      method: "local",
+      why: `local method (partition of unity): ${count} points are more than ${limit}, where the global method's time grows as N³` +
+        (n <= MAX_GLOBAL_POINTS ? ` (${opt("method")} global fits up to ${MAX_GLOBAL_POINTS.toLocaleString("en")} points, slower and often more accurate)` : ""),
+    }
     : { method: "global", why: `global method: ${count} points, at most ${limit} (above that the local method runs)` };
 }
 

@@ -31,6 +31,19 @@ export function residualUnit(model: SurfaceModel, unit: string): string {
   return model.transform === "log" ? "log units" : unit;
 }
 
+/**
+ * The smoothing: one λ for the global method; for the local one, each patch's own (by GCV: its range
+ * and median over the patches, the model's λ being that median).
+ */
+function smoothingText(model: SurfaceModel): string {
+  const d = model.diagnostics;
+  const how = d.smoothingChoice === "gcv" ? "by GCV" : "given";
+  const local = d.local;
+  if (model.method !== "local" || !local || d.smoothingChoice !== "gcv") return `smoothing λ = ${formatSignificant(model.lambda)} (${how})`;
+  const l = local.lambda;
+  return `smoothing λ by GCV in each of ${local.patches.toLocaleString("en")} patches (${formatSignificant(l.min)} to ${formatSignificant(l.max)}, median ${formatSignificant(l.median)})`;
+}
+
 /** One paragraph: kernel, trend, shape, λ, edf, leave-one-out RMSE, how the model was chosen. */
 export function methodSummary(model: SurfaceModel, unit = ""): string {
   const d = model.diagnostics;
@@ -39,7 +52,7 @@ export function methodSummary(model: SurfaceModel, unit = ""): string {
   const parts = [
     `Radial-basis-function regression: ${kernel} with ${trendOf(model)} trend`,
     model.shape === null ? "" : `shape ε = ${formatSignificant(model.shape)} ${perUnitText(model.crs)}`,
-    `smoothing λ = ${formatSignificant(model.lambda)} (${d.smoothingChoice === "gcv" ? "by GCV" : "given"})`,
+    smoothingText(model),
     `${formatSignificant(d.edf)} effective degrees of freedom from ${d.n.toLocaleString("en")} points`,
     `leave-one-out RMSE ${formatSignificant(d.loocvRmse, 3)}${ru ? ` ${ru}` : ""}`,
   ].filter((p) => p !== "");
