@@ -180,10 +180,6 @@ export function startGrid(model: SurfaceModel, options: GridOptions = {}): { spe
   }
 }
 
-/**
- * Evaluate grid rows [rowStart, rowEnd) into `out` (row rowStart at out[0]); cells outside the mask
- * (given for the same rows) are NaN. Shared by gridModel and the worker threads.
- */
 /** The surface at places (NaN where x or y is not a finite number); the same code in every thread. */
 export function evaluatePlaces(ev: Evaluator, x: Float64Array, y: Float64Array): Float64Array {
   const values = new Float64Array(x.length);
@@ -191,6 +187,10 @@ export function evaluatePlaces(ev: Evaluator, x: Float64Array, y: Float64Array):
   return values;
 }
 
+/**
+ * Evaluate grid rows [rowStart, rowEnd) into `out` (row rowStart at out[0]); cells outside the mask
+ * (given for the same rows) are NaN. Shared by gridModel and the worker threads.
+ */
 export function evaluateRows(
   ev: Evaluator,
   spec: GridSpec,

@@ -195,6 +195,9 @@ export function fileBatch(): FileBatch {
   };
   const fail = (e: unknown, file: string): never => {
     abort();
+    // A file-system error (it has a code: ENOSPC, EACCES, …) is the user's to fix; anything else
+    // (a table's pieces failing as they are made) is passed on as it is.
+    if (e instanceof RbfieldError || !(e as { code?: string })?.code) throw e;
     throw new RbfieldError(`cannot write the file (${reason(e)}); check the folder and free space, or choose another output path`, ExitCode.io, { file });
   };
   return {
