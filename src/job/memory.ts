@@ -50,9 +50,14 @@ export const GLOBAL_ERRORS_PER_N2 = 60;
  * (7 numbers per patch member, about 3.5 members per point), the model's arrays and its binary part,
  * and the garbage the engine has not collected yet. Measured (peak less the process and workers)
  * 1.4–2.6 KB per point between 5·10⁴ and 2·10⁵ points (peaks 310–315 MiB at 5·10⁴, 420–565 MiB at
- * 10⁵, 564–566 MiB at 2·10⁵); taken with the model's share as 2,400 + 600.
+ * 10⁵, 564–566 MiB at 2·10⁵); taken with the model's share as 2,400 + 600. Beyond 2·10⁵ points the
+ * garbage weighs less: the whole run's resident set during the fit grew by about 380 bytes a point
+ * from 2·10⁵ to 10⁶ (788–905 MiB at 10⁶, bench/run_large.ts), so each point past LOCAL_FIT_KNEE
+ * counts LOCAL_FIT_PER_POINT_BEYOND (700, about 1.8 × that).
  */
 export const LOCAL_FIT_PER_POINT = 2400;
+export const LOCAL_FIT_KNEE = 200_000;
+export const LOCAL_FIT_PER_POINT_BEYOND = 700;
 /** The model held in memory, bytes per point: a local model's arrays (about 12 numbers per point and 3 per patch member), a global one's. */
 const LOCAL_MODEL_PER_POINT = 600;
 const GLOBAL_MODEL_PER_POINT = 120;
@@ -80,11 +85,13 @@ export const RUN_PER_CELL = 200;
 /**
  * The run's map (map.pdf) and report draw at most MAX_DRAWN_POINTS survey points (an even sample
  * above that): the PDF conversion of the map took about 45 KB per drawn point and the report 7 KB,
- * 52 KB per drawn point. Every point still has its rows in residuals.csv and estimates.csv and its
- * leave-one-out residual in the report's histogram: RUN_PER_POINT bytes (the texts as strings).
+ * 52 KB per drawn point. Every point still has its estimate, standard error and note, its rows in
+ * residuals.csv and estimates.csv (written in pieces as they are made) and its leave-one-out residual
+ * in the report's histogram: RUN_PER_POINT bytes. Measured at 10⁶ points: the writing stage's resident
+ * set rose 300–360 MiB above the stage before, the map and report included (bench/run_large.ts).
  */
 export const MAP_PER_POINT = 52 * 1024;
-export const RUN_PER_POINT = 1000;
+export const RUN_PER_POINT = 400;
 /** When nothing says how much memory the machine has. */
 export const FALLBACK_LIMIT = 4 * GiB;
 /** Share of the machine's memory a job may plan to use by default. */
@@ -157,7 +164,10 @@ export function estimateMemory(job: JobSize): MemoryEstimate {
     }
   } else {
     const p = job.patchPoints ?? DEFAULT_PATCH_POINTS;
-    if (job.fits) parts.push({ what: `local fit of ${count} points`, bytes: LOCAL_FIT_PER_POINT * n + PATCH_WORK_PER_N2 * (2 * p) ** 2 * Math.max(workers, 1), kind: "local" });
+    if (job.fits) {
+      const perPoints = LOCAL_FIT_PER_POINT * Math.min(n, LOCAL_FIT_KNEE) + LOCAL_FIT_PER_POINT_BEYOND * Math.max(0, n - LOCAL_FIT_KNEE);
+      parts.push({ what: `local fit of ${count} points`, bytes: perPoints + PATCH_WORK_PER_N2 * (2 * p) ** 2 * Math.max(workers, 1), kind: "local" });
+    }
     if (errors) {
       const threadsFactorising = job.errorsFromFit ? 1 : Math.max(workers, 1);
       const bytes = threadsFactorising * (Math.min(LOCAL_ERRORS_PER_POINT * n, STDERR_CACHE_PEAK) + PACKED_ERRORS_PER_POINT * n);
