@@ -325,35 +325,41 @@ describe("local method: standard errors", () => {
     }
   });
 
-  it("`run`'s error grid (from the fit's factors) equals `grid --stderr` on its saved model (patches factorised again)", async () => {
-    const dir = fs.mkdtempSync(path.join(os.tmpdir(), "rbfield-local-stderr-"));
-    try {
-      const pts = noisyFranke(2500, 21);
-      const csv = path.join(dir, "points.csv");
-      fs.writeFileSync(csv, "x,y,z\n" + Array.from(pts.x, (x, i) => `${(100 * x).toFixed(3)},${(100 * pts.y[i]).toFixed(3)},${pts.z[i].toFixed(4)}`).join("\n") + "\n");
-      let said = "";
-      const io = { out: () => {}, err: (s: string) => (said += s + "\n") };
-      const grid = ["--cell", "0.25", "--extent", "0,0,100,100"];
-      expect(await main(["run", csv, "--out", path.join(dir, "run"), "--method", "local", ...grid], io)).toBe(0);
-      // The route taken: no patch factorised again for the error grid.
-      expect(said).toMatch(/standard errors at [\d,]+ places from the patch fits/);
-      const model = path.join(dir, "run", "model.rbfield.json");
-      expect(await main(["grid", model, "--out", path.join(dir, "g.tif"), "--stderr", path.join(dir, "se.tif"), "--quiet", ...grid], io)).toBe(0);
-      const a = await readGrid(path.join(dir, "run", "stderr.tif")), b = await readGrid(path.join(dir, "se.tif"));
-      expect(a.values.length).toBe(400 * 400);
-      let worst = 0, cells = 0;
-      a.values.forEach((v, k) => {
-        if (Number.isNaN(v) && Number.isNaN(b.values[k])) return;
-        worst = Math.max(worst, Math.abs(v - b.values[k]) / b.values[k]);
-        cells++;
-      });
-      expect(cells).toBeGreaterThan(100_000);
-      // Float32 cells; the two routes differ only by rounding in the factors (measured 3.6e-7 in float64).
-      expect(worst).toBeLessThan(1e-5);
-    } finally {
-      fs.rmSync(dir, { recursive: true, force: true });
-    }
-  });
+  // Plain; and log-transformed, stretched, weighted and robust (each changes the patch systems the
+  // errors come from: √ω and robustness weights in D, the stretched frame, the log units).
+  for (const extra of [[], ["--transform", "log", "--stretch", "45:2", "--weight", "w", "--robust"]]) {
+    it(`\`run\`'s error grid (from the fit's factors) equals \`grid --stderr\` on its saved model (patches factorised again)${extra.length ? ", " + extra.filter((a) => a.startsWith("--")).join(" ") : ""}`, async () => {
+      const dir = fs.mkdtempSync(path.join(os.tmpdir(), "rbfield-local-stderr-"));
+      try {
+        const pts = noisyFranke(2500, 21);
+        const csv = path.join(dir, "points.csv");
+        // Positive values for the log case (Franke's function is 0–1.2); weights 0.5–1.5.
+        const rows = Array.from(pts.x, (x, i) => `${(100 * x).toFixed(3)},${(100 * pts.y[i]).toFixed(3)},${(2 + pts.z[i]).toFixed(4)},${(0.5 + (i % 11) / 10).toFixed(1)}`);
+        fs.writeFileSync(csv, "x,y,z,w\n" + rows.join("\n") + "\n");
+        let said = "";
+        const io = { out: () => {}, err: (s: string) => (said += s + "\n") };
+        const grid = ["--cell", "0.25", "--extent", "0,0,100,100"];
+        expect(await main(["run", csv, "--out", path.join(dir, "run"), "--method", "local", ...extra, ...grid], io), said).toBe(0);
+        // The route taken: no patch factorised again for the error grid.
+        expect(said).toMatch(/standard errors at [\d,]+ places from the patch fits/);
+        const model = path.join(dir, "run", "model.rbfield.json");
+        expect(await main(["grid", model, "--out", path.join(dir, "g.tif"), "--stderr", path.join(dir, "se.tif"), "--quiet", ...grid], io)).toBe(0);
+        const a = await readGrid(path.join(dir, "run", "stderr.tif")), b = await readGrid(path.join(dir, "se.tif"));
+        expect(a.values.length).toBe(400 * 400);
+        let worst = 0, cells = 0;
+        a.values.forEach((v, k) => {
+          if (Number.isNaN(v) && Number.isNaN(b.values[k])) return;
+          worst = Math.max(worst, Math.abs(v - b.values[k]) / b.values[k]);
+          cells++;
+        });
+        expect(cells).toBeGreaterThan(100_000);
+        // Float32 cells; the two routes differ only by rounding in the factors (measured 3.6e-7 in float64).
+        expect(worst).toBeLessThan(1e-5);
+      } finally {
+        fs.rmSync(dir, { recursive: true, force: true });
+      }
+    });
+  }
 });
 
 describe("local method: smoothness and determinism", () => {
