@@ -216,7 +216,7 @@ describe("the report of a local-method model", () => {
       title: "local",
       date: "2026-01-31",
     });
-    expect(page).toMatch(/<td>Method<\/td><td>local \(partition of unity\): \d+ patches of \d+–\d+ points/);
+    expect(page).toMatch(/<td>Method<\/td><td>local \(partition of unity\): [\d,]+ patches of \d+–\d+ points/);
     expect(page).toContain("λ was chosen by GCV in each patch of the local method");
     expect(page).not.toContain("smoothing given");
   });

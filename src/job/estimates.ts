@@ -140,7 +140,7 @@ export function estimateSummaryLines(est: EstimateTable, model: SurfaceModel): s
   const lines = (l: number[]) => `line${l.length === 1 ? "" : "s"} ${l.slice(0, 5).join(", ")}${l.length > 5 ? ", …" : ""}`;
   const nu = est.unusable.length;
   const out = [
-    `Estimates: ${est.estimates.length - nu} locations` +
+    `Estimates: ${(est.estimates.length - nu).toLocaleString("en")} locations` +
     (nu ? `; ${nu} ${nu === 1 ? "row" : "rows"} without usable coordinates left empty (${lines(est.unusable)})` : ""),
   ];
   if (est.outsideHull.length || est.farFromData.length) {

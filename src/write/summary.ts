@@ -94,7 +94,7 @@ function labelOfLine(model: SurfaceModel): (line: number) => string {
 export function localPatchText(model: SurfaceModel): string | null {
   const l = model.diagnostics.local;
   if (!l) return null;
-  return `${l.patches} patches of ${l.pointsPerPatch.min}–${l.pointsPerPatch.max} points (median ${fmt(l.pointsPerPatch.median)}) blended with Wendland weights; ` +
+  return `${l.patches.toLocaleString("en")} patches of ${l.pointsPerPatch.min}–${l.pointsPerPatch.max} points (median ${fmt(l.pointsPerPatch.median)}) blended with Wendland weights; ` +
     `λ by GCV in each patch from ${fmt(l.lambda.min)} to ${fmt(l.lambda.max)}`;
 }
 
@@ -130,7 +130,7 @@ export function modelSummaryLines(model: SurfaceModel, projectedFrom?: string): 
       `Selection: ${sel.ranking.length} candidate models ranked by ${byText}` +
         (sel.onSubsample
           ? model.method === "local" && d.local?.consensus
-            ? ` on ${d.local.consensus.samples} sample patches (${sel.onSubsample} patch members pooled${d.local.consensus.distinctPoints ? `, ${d.local.consensus.distinctPoints} distinct points` : ""})`
+            ? ` on ${d.local.consensus.samples} sample patches (${sel.onSubsample.toLocaleString("en")} patch members pooled${d.local.consensus.distinctPoints ? `, ${d.local.consensus.distinctPoints.toLocaleString("en")} distinct points` : ""})`
             : ` on a ${sel.onSubsample}-point subsample`
           : "") + " (best first):",
     );
@@ -156,7 +156,7 @@ export function modelSummaryLines(model: SurfaceModel, projectedFrom?: string): 
       );
     }
   }
-  lines.push(`Model: ${KERNEL_TABLE[model.kernel].text}, ${model.trend} trend, ${d.n} points`);
+  lines.push(`Model: ${KERNEL_TABLE[model.kernel].text}, ${model.trend} trend, ${d.n.toLocaleString("en")} points`);
   if (d.methodChoice) lines.push(`  ${d.methodChoice}`);
   if (d.local) {
     const l = d.local;
@@ -184,7 +184,7 @@ export function modelSummaryLines(model: SurfaceModel, projectedFrom?: string): 
   const shape = model.shape === null ? "none (scale-free kernel)" : `ε = ${fmt(model.shape)} ${perUnitText(model.crs)} (${d.shapeChoice === "auto" ? "chosen by GCV" : "given"})`;
   lines.push(`  shape: ${shape}`);
   const how = d.smoothingChoice === "gcv" ? "chosen by GCV" : d.smoothingChoice === "given" ? "given" : "given, raised for stability";
-  lines.push(`  smoothing λ = ${fmt(model.lambda)} (${how}); effective degrees of freedom ${fmt(d.edf)} of ${d.n}`);
+  lines.push(`  smoothing λ = ${fmt(model.lambda)} (${how}); effective degrees of freedom ${fmt(d.edf)} of ${d.n.toLocaleString("en")}`);
   lines.push(
     `  GCV score ${fmt(d.gcv)}; leave-one-out RMSE ${fmt(d.loocvRmse)}; fit RMSE ${fmt(d.rmse)}; noise σ estimate ${fmt(d.sigma)}` +
       (d.sigma === 0 ? " (the surface passes through every reading, which it takes as exact)" : ""),
