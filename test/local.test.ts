@@ -11,6 +11,7 @@ import * as os from "node:os";
 import * as path from "node:path";
 import { main } from "../src/cli.ts";
 import { readGrid } from "../src/job/points.ts";
+import { estimateTable } from "../src/job/estimates.ts";
 import { methodSummary } from "../src/write/map/method.ts";
 import { formatSignificant } from "../src/text.ts";
 import { describe, expect, it } from "vitest";
@@ -323,6 +324,18 @@ describe("local method: standard errors", () => {
         expect(Math.abs(est.at(x, y) - expected) / expected).toBeLessThan(1e-6);
       }
     }
+  });
+
+  it("estimates at places in any order: the same standard errors as asked one by one in file order (patches cached)", () => {
+    const model = local(fitSurface(noisyFranke(3000, 25), { method: "local", patchPoints: 60 }));
+    const u = mulberry32(8);
+    const n = 3000;
+    const x = Array.from({ length: n }, () => u().toFixed(6)), y = Array.from({ length: n }, () => u().toFixed(6));
+    const table = { columns: ["x", "y"], rows: x.map((xi, i) => [xi, y[i]]), lines: x.map((_, i) => i + 2), xColumn: 0, yColumn: 1, zColumn: -1, hasHeader: true };
+    const est = estimateTable(model, table as never);
+    const fresh = makeErrorEstimator(model);
+    const direct = Float64Array.from(x, (xi, i) => fresh.at(Number(xi), Number(y[i])));
+    expect(Buffer.from(est.stdErrors!.buffer).equals(Buffer.from(direct.buffer))).toBe(true);
   });
 
   // Plain; and log-transformed, stretched, weighted and robust (each changes the patch systems the

@@ -98,7 +98,7 @@ async function evaluateInBlocks(model: SurfaceModel, x: Float64Array, y: Float64
 }
 
 /** Places ordered by the cells of a grid of about 16 places a cell (rows of cells, then input order); non-finite places last. */
-function placeOrder(x: Float64Array, y: Float64Array): Int32Array {
+export function placeOrder(x: Float64Array, y: Float64Array): Int32Array {
   const n = x.length;
   let xmin = Infinity, xmax = -Infinity, ymin = Infinity, ymax = -Infinity;
   for (let i = 0; i < n; i++) {

@@ -2,7 +2,7 @@
 // extrapolation marks, and what the summary and stderr say about them.
 import { ExitCode, RbfieldError } from "../errors.ts";
 import { makeEvaluator } from "../evaluate/evaluate.ts";
-import { evaluatePlacesParallel } from "../evaluate/parallel.ts";
+import { evaluatePlacesParallel, placeOrder } from "../evaluate/parallel.ts";
 import { extrapolationNote, FAR_SPACINGS, makeExtrapolationCheck } from "../evaluate/extrapolation.ts";
 import { type ErrorEstimator, makeErrorEstimator } from "../evaluate/stderr.ts";
 import { describeCrs } from "../crs/crs.ts";
@@ -83,6 +83,11 @@ export function estimateTable(
   const out: EstimateTable = { estimates: est, stdErrors: err, nearest, notes, unusable: [], outsideHull: [], farFromData: [], outOfRange: [] };
   // The typed coordinates (projected into the model's CRS where they were given in another).
   const xs = coordinateColumn(table, table.xColumn), ys = coordinateColumn(table, table.yColumn);
+  // Standard errors in the order of a coarse grid's cells (placeOrder): a local model's estimator keeps
+  // the patches it factorised in a bounded cache, which places in file order would keep evicting
+  // (20,000 random places at 10⁵ points: 20 s in file order).
+  const seAt = se ? new Float64Array(rows) : null;
+  if (se && seAt) for (const i of placeOrder(xs, ys)) seAt[i] = Number.isFinite(xs[i]) && Number.isFinite(ys[i]) ? se.at(xs[i], ys[i]) : NaN;
   table.lines.forEach((_line, i) => {
     const x = xs[i], y = ys[i];
     const value = values ? values[i] : Number.isFinite(x) && Number.isFinite(y) ? ev!.at(x, y) : NaN;
@@ -94,7 +99,7 @@ export function estimateTable(
       return;
     }
     est[i] = value;
-    if (err && se) err[i] = se.at(x, y);
+    if (err && seAt) err[i] = seAt[i];
     const c = check.at(x, y);
     const wild = check.outOfRange(value);
     nearest[i] = c.distance;
