@@ -5,6 +5,8 @@
 import { describe, expect, it } from "vitest";
 import { EigenvalueDecomposition, Matrix, solve } from "ml-matrix";
 import { tridiagonalEigenvalues, tridiagonalize } from "../src/fit/linalg.ts";
+import { SPLIT_MIN, tridiagonalizeSplit } from "../src/fit/tridiag_split.ts";
+import { execFileSync, spawnSync } from "node:child_process";
 import { fitSurface } from "../src/fit/surface.ts";
 import { fitCore } from "../src/fit/core.ts";
 import { influenceComplementDiagonal, influenceComplementDiagonalCholesky, rotatedBasis } from "../src/fit/influence.ts";
@@ -26,6 +28,50 @@ describe("symmetric tridiagonal eigenvalues", () => {
     const { d, e } = tridiagonalize(Float64Array.from(a), n);
     const mine = tridiagonalEigenvalues(d, e);
     for (let i = 0; i < n; i++) expect(Math.abs(mine[i] - ref[i])).toBeLessThan(1e-12);
+  });
+});
+
+describe("tridiagonalisation of large matrices on two threads (tridiag_split.ts)", () => {
+  // A kernel matrix above SPLIT_MIN: tridiagonalize splits each step between this thread and a helper.
+  const n = SPLIT_MIN + 100;
+  const r = mulberry32(17);
+  const u = Float64Array.from({ length: n }, () => r()), v = Float64Array.from({ length: n }, () => r());
+  const k = new Float64Array(n * n);
+  for (let i = 0; i < n; i++) for (let j = 0; j <= i; j++) k[i * n + j] = k[j * n + i] = Math.sqrt(1 + 9 * ((u[i] - u[j]) ** 2 + (v[i] - v[j]) ** 2));
+  const split = tridiagonalizeSplit(k, n);
+  const mine = tridiagonalEigenvalues(split.d, split.e);
+
+  it("gives the same bits with the helper thread as in one thread, and tridiagonalize takes that route", () => {
+    expect(split.threads).toBe(2);
+    const alone = tridiagonalizeSplit(k, n, false);
+    expect(alone.threads).toBe(1);
+    const routed = tridiagonalize(Float64Array.from(k), n);
+    expect(Buffer.from(routed.d.buffer).equals(Buffer.from(split.d.buffer))).toBe(true);
+    expect(Buffer.from(alone.d.buffer).equals(Buffer.from(split.d.buffer))).toBe(true);
+    expect(Buffer.from(alone.e.buffer).equals(Buffer.from(split.e.buffer))).toBe(true);
+    alone.reflectors.forEach((rf, i) => expect(Buffer.from(rf.v.buffer).equals(Buffer.from(split.reflectors[i].v.buffer)) && rf.beta === split.reflectors[i].beta).toBe(true));
+  });
+
+  it("keeps the trace and the Frobenius norm (Σλ = Σaᵢᵢ, Σλ² = ‖A‖²_F: similarity invariants)", () => {
+    let trace = 0, frob = 0, sl = 0, sl2 = 0;
+    for (let i = 0; i < n; i++) {
+      trace += k[i * n + i];
+      for (let j = 0; j < n; j++) frob += k[i * n + j] ** 2;
+    }
+    for (const l of mine) sl += l, sl2 += l * l;
+    expect(Math.abs(sl - trace) / frob ** 0.5).toBeLessThan(1e-12);
+    expect(Math.abs(sl2 - frob) / frob).toBeLessThan(1e-12);
+  });
+
+  const numpy = spawnSync("/usr/bin/python3", ["-c", "import numpy"]).status === 0;
+  it.skipIf(!numpy)("matches numpy.linalg.eigvalsh (LAPACK; Debian python3-numpy) to 1e-12 of the largest eigenvalue", () => {
+    const out = execFileSync("/usr/bin/python3", ["-c", "import sys, numpy as np; a = np.frombuffer(sys.stdin.buffer.read(), dtype='<f8').reshape(" + n + ", " + n + "); sys.stdout.write(' '.join(repr(x) for x in np.linalg.eigvalsh(a)))"], {
+      input: Buffer.from(k.buffer),
+      maxBuffer: 1 << 26,
+    }).toString();
+    const ref = out.trim().split(" ").map(Number);
+    const scale = Math.max(...ref.map(Math.abs));
+    for (let i = 0; i < n; i++) expect(Math.abs(mine[i] - ref[i])).toBeLessThan(1e-12 * scale);
   });
 });
 

@@ -3,6 +3,8 @@
 // 4th ed. (2013): Householder reflections §5.1, tridiagonalisation §8.3.1, implicit symmetric QL
 // (as in the EISPACK routine tql1), Cholesky §4.2.
 
+import { SPLIT_MIN, tridiagonalizeSplit } from "./tridiag_split.ts";
+
 /** A Householder reflection H = I − β v vᵀ acting on indices [start, n). */
 export interface Reflector {
   start: number;
@@ -106,13 +108,36 @@ export function householderQR(p: Float64Array, nRows: number, m: number): { refl
  * Householder tridiagonalisation of a symmetric n×n matrix (GVL Alg. 8.3.1), using and
  * updating only the lower triangle. Returns diagonal d, sub-diagonal e (e[i] = T[i+1][i],
  * e[n−1] = 0) and the reflectors, so that Hᵀ A H = T with H = H₀H₁…H_{n−3}.
- * The input matrix is overwritten. About (4/3)n³ flops.
+ * The input matrix is overwritten (below SPLIT_MIN; above it, left as it was). About (4/3)n³ flops.
  */
 export function tridiagonalize(a: Float64Array, n: number): { d: Float64Array; e: Float64Array; reflectors: Reflector[] } {
+  // Large matrices: each step's loops split between two threads (tridiag_split.ts; the same numbers
+  // with or without the helper thread).
+  if (n >= SPLIT_MIN) return tridiagonalizeSplit(a, n);
+  const p = new Float64Array(n);
+  return householderSteps(a, n, (start, m, v, beta) => {
+    // p = β A₂₂ v using the lower triangle of the trailing block (lowerMatvecRows), then w (in p).
+    p.fill(0, 0, m);
+    lowerMatvecRows(a, n, start, v, 0, m, p);
+    reflectorUpdateVector(p, v, m, beta);
+    // A₂₂ ← A₂₂ − v wᵀ − w vᵀ on the lower triangle (lowerRank2Rows).
+    lowerRank2Rows(a, n, start, v, p, 0, m);
+  });
+}
+
+/**
+ * The loop of tridiagonalize: for each column k the Householder vector of its part below the
+ * diagonal, d and e, and `step(start, m, v, β)`, which must apply the two-sided update to the
+ * trailing m × m block's lower triangle (rows and columns start…).
+ */
+export function householderSteps(
+  a: Float64Array,
+  n: number,
+  step: (start: number, m: number, v: Float64Array, beta: number) => void,
+): { d: Float64Array; e: Float64Array; reflectors: Reflector[] } {
   const d = new Float64Array(n);
   const e = new Float64Array(n);
   const reflectors: Reflector[] = [];
-  const p = new Float64Array(n);
   for (let k = 0; k < n - 2; k++) {
     const start = k + 1;
     const m = n - start;
@@ -122,100 +147,7 @@ export function tridiagonalize(a: Float64Array, n: number): { d: Float64Array; e
     reflectors.push({ start, v: h.v, beta: h.beta });
     d[k] = a[k * n + k];
     e[k] = h.beta === 0 ? x[0] : h.alpha;
-    if (h.beta === 0) continue;
-    const v = h.v;
-    const beta = h.beta;
-    // p = β A₂₂ v using the lower triangle of the trailing block. Rows go four at a time, which
-    // gives four independent dot-product chains and shares the loads of v; every sum keeps its order
-    // of operations (each pⱼ takes its rows in increasing order), so the bits are those of one row
-    // at a time.
-    p.fill(0, 0, m);
-    let i = 0;
-    for (; i + 3 < m; i += 4) {
-      const r0 = (start + i) * n + start, r1 = r0 + n, r2 = r1 + n, r3 = r2 + n;
-      const v0 = v[i], v1 = v[i + 1], v2 = v[i + 2], v3 = v[i + 3];
-      let s0 = 0, s1 = 0, s2 = 0, s3 = 0;
-      for (let j = 0; j < i; j++) {
-        const a0 = a[r0 + j], a1 = a[r1 + j], a2 = a[r2 + j], a3 = a[r3 + j], vj = v[j];
-        s0 += a0 * vj;
-        s1 += a1 * vj;
-        s2 += a2 * vj;
-        s3 += a3 * vj;
-        let pj = p[j];
-        pj += a0 * v0;
-        pj += a1 * v1;
-        pj += a2 * v2;
-        pj += a3 * v3;
-        p[j] = pj;
-      }
-      // The 4×4 diagonal block, row by row.
-      p[i] += s0 + a[r0 + i] * v0;
-      let t = a[r1 + i];
-      s1 += t * v[i];
-      p[i] += t * v1;
-      p[i + 1] += s1 + a[r1 + i + 1] * v1;
-      t = a[r2 + i];
-      s2 += t * v[i];
-      p[i] += t * v2;
-      t = a[r2 + i + 1];
-      s2 += t * v[i + 1];
-      p[i + 1] += t * v2;
-      p[i + 2] += s2 + a[r2 + i + 2] * v2;
-      t = a[r3 + i];
-      s3 += t * v[i];
-      p[i] += t * v3;
-      t = a[r3 + i + 1];
-      s3 += t * v[i + 1];
-      p[i + 1] += t * v3;
-      t = a[r3 + i + 2];
-      s3 += t * v[i + 2];
-      p[i + 2] += t * v3;
-      p[i + 3] += s3 + a[r3 + i + 3] * v3;
-    }
-    for (; i < m; i++) {
-      const row = (start + i) * n + start;
-      let s = 0;
-      const vi = v[i];
-      for (let j = 0; j < i; j++) {
-        const aij = a[row + j];
-        s += aij * v[j];
-        p[j] += aij * vi;
-      }
-      p[i] += s + a[row + i] * vi;
-    }
-    let vp = 0;
-    for (let i = 0; i < m; i++) {
-      p[i] *= beta;
-      vp += v[i] * p[i];
-    }
-    const half = 0.5 * beta * vp;
-    for (let i = 0; i < m; i++) p[i] -= half * v[i];
-    // A₂₂ ← A₂₂ − v wᵀ − w vᵀ on the lower triangle (w stored in p), four rows at a time sharing
-    // the loads of p and v (every entry is updated once, as before).
-    let q = 0;
-    for (; q + 3 < m; q += 4) {
-      const r0 = (start + q) * n + start, r1 = r0 + n, r2 = r1 + n, r3 = r2 + n;
-      const v0 = v[q], w0 = p[q], v1 = v[q + 1], w1 = p[q + 1], v2 = v[q + 2], w2 = p[q + 2], v3 = v[q + 3], w3 = p[q + 3];
-      for (let j = 0; j <= q; j++) {
-        const pj = p[j], vj = v[j];
-        a[r0 + j] -= v0 * pj + w0 * vj;
-        a[r1 + j] -= v1 * pj + w1 * vj;
-        a[r2 + j] -= v2 * pj + w2 * vj;
-        a[r3 + j] -= v3 * pj + w3 * vj;
-      }
-      a[r1 + q + 1] -= v1 * p[q + 1] + w1 * v[q + 1];
-      a[r2 + q + 1] -= v2 * p[q + 1] + w2 * v[q + 1];
-      a[r2 + q + 2] -= v2 * p[q + 2] + w2 * v[q + 2];
-      a[r3 + q + 1] -= v3 * p[q + 1] + w3 * v[q + 1];
-      a[r3 + q + 2] -= v3 * p[q + 2] + w3 * v[q + 2];
-      a[r3 + q + 3] -= v3 * p[q + 3] + w3 * v[q + 3];
-    }
-    for (; q < m; q++) {
-      const row = (start + q) * n + start;
-      const vi = v[q];
-      const wi = p[q];
-      for (let j = 0; j <= q; j++) a[row + j] -= vi * p[j] + wi * v[j];
-    }
+    if (h.beta !== 0) step(start, m, h.v, h.beta);
   }
   if (n >= 2) {
     d[n - 2] = a[(n - 2) * n + n - 2];
@@ -224,6 +156,111 @@ export function tridiagonalize(a: Float64Array, n: number): { d: Float64Array; e
   if (n >= 1) d[n - 1] = a[(n - 1) * n + n - 1];
   e[n - 1] = 0;
   return { d, e, reflectors };
+}
+
+/** p = A₂₂v (its first m entries) → w = βp − ½β²(vᵀp)v in place (GVL §8.3.1), the update's vector. */
+export function reflectorUpdateVector(p: Float64Array, v: Float64Array, m: number, beta: number): void {
+  let vp = 0;
+  for (let i = 0; i < m; i++) {
+    p[i] *= beta;
+    vp += v[i] * p[i];
+  }
+  const half = 0.5 * beta * vp;
+  for (let i = 0; i < m; i++) p[i] -= half * v[i];
+}
+
+/**
+ * Rows [from, to) of p += A₂₂v for the trailing block of tridiagonalize (rows and columns start…,
+ * local indices), from its lower triangle: row i adds Σⱼ≤ᵢ aᵢⱼvⱼ to pᵢ and aᵢⱼvᵢ to every pⱼ, j < i.
+ * Rows go four at a time, which gives four independent dot-product chains and shares the loads of v;
+ * every sum keeps its order of operations (each pⱼ takes its rows in increasing order), so the bits
+ * are those of one row at a time.
+ */
+export function lowerMatvecRows(a: Float64Array, n: number, start: number, v: Float64Array, from: number, to: number, p: Float64Array): void {
+  let i = from;
+  for (; i + 3 < to; i += 4) {
+    const r0 = (start + i) * n + start, r1 = r0 + n, r2 = r1 + n, r3 = r2 + n;
+    const v0 = v[i], v1 = v[i + 1], v2 = v[i + 2], v3 = v[i + 3];
+    let s0 = 0, s1 = 0, s2 = 0, s3 = 0;
+    for (let j = 0; j < i; j++) {
+      const a0 = a[r0 + j], a1 = a[r1 + j], a2 = a[r2 + j], a3 = a[r3 + j], vj = v[j];
+      s0 += a0 * vj;
+      s1 += a1 * vj;
+      s2 += a2 * vj;
+      s3 += a3 * vj;
+      let pj = p[j];
+      pj += a0 * v0;
+      pj += a1 * v1;
+      pj += a2 * v2;
+      pj += a3 * v3;
+      p[j] = pj;
+    }
+    // The 4×4 diagonal block, row by row.
+    p[i] += s0 + a[r0 + i] * v0;
+    let t = a[r1 + i];
+    s1 += t * v[i];
+    p[i] += t * v1;
+    p[i + 1] += s1 + a[r1 + i + 1] * v1;
+    t = a[r2 + i];
+    s2 += t * v[i];
+    p[i] += t * v2;
+    t = a[r2 + i + 1];
+    s2 += t * v[i + 1];
+    p[i + 1] += t * v2;
+    p[i + 2] += s2 + a[r2 + i + 2] * v2;
+    t = a[r3 + i];
+    s3 += t * v[i];
+    p[i] += t * v3;
+    t = a[r3 + i + 1];
+    s3 += t * v[i + 1];
+    p[i + 1] += t * v3;
+    t = a[r3 + i + 2];
+    s3 += t * v[i + 2];
+    p[i + 2] += t * v3;
+    p[i + 3] += s3 + a[r3 + i + 3] * v3;
+  }
+  for (; i < to; i++) {
+    const row = (start + i) * n + start;
+    let s = 0;
+    const vi = v[i];
+    for (let j = 0; j < i; j++) {
+      const aij = a[row + j];
+      s += aij * v[j];
+      p[j] += aij * vi;
+    }
+    p[i] += s + a[row + i] * vi;
+  }
+}
+
+/**
+ * Rows [q0, q1) of A₂₂ ← A₂₂ − v wᵀ − w vᵀ on the lower triangle of tridiagonalize's trailing block
+ * (w in `p`), four rows at a time sharing the loads of w and v (every entry is updated once).
+ */
+export function lowerRank2Rows(a: Float64Array, n: number, start: number, v: Float64Array, p: Float64Array, q0: number, q1: number): void {
+  let q = q0;
+  for (; q + 3 < q1; q += 4) {
+    const r0 = (start + q) * n + start, r1 = r0 + n, r2 = r1 + n, r3 = r2 + n;
+    const v0 = v[q], w0 = p[q], v1 = v[q + 1], w1 = p[q + 1], v2 = v[q + 2], w2 = p[q + 2], v3 = v[q + 3], w3 = p[q + 3];
+    for (let j = 0; j <= q; j++) {
+      const pj = p[j], vj = v[j];
+      a[r0 + j] -= v0 * pj + w0 * vj;
+      a[r1 + j] -= v1 * pj + w1 * vj;
+      a[r2 + j] -= v2 * pj + w2 * vj;
+      a[r3 + j] -= v3 * pj + w3 * vj;
+    }
+    a[r1 + q + 1] -= v1 * p[q + 1] + w1 * v[q + 1];
+    a[r2 + q + 1] -= v2 * p[q + 1] + w2 * v[q + 1];
+    a[r2 + q + 2] -= v2 * p[q + 2] + w2 * v[q + 2];
+    a[r3 + q + 1] -= v3 * p[q + 1] + w3 * v[q + 1];
+    a[r3 + q + 2] -= v3 * p[q + 2] + w3 * v[q + 2];
+    a[r3 + q + 3] -= v3 * p[q + 3] + w3 * v[q + 3];
+  }
+  for (; q < q1; q++) {
+    const row = (start + q) * n + start;
+    const vi = v[q];
+    const wi = p[q];
+    for (let j = 0; j <= q; j++) a[row + j] -= vi * p[j] + wi * v[j];
+  }
 }
 
 /** y ← Hᵀ y for H = H₀H₁…: apply H₀ first. */
