@@ -6,6 +6,8 @@ import { describe, expect, it } from "vitest";
 import { EigenvalueDecomposition, Matrix, solve } from "ml-matrix";
 import { tridiagonalEigenvalues, tridiagonalize } from "../src/fit/linalg.ts";
 import { SPLIT_MIN, tridiagonalizeSplit } from "../src/fit/tridiag_split.ts";
+import { lowerInverse } from "../src/fit/inverse_split.ts";
+import { lowerInverseColumns } from "../src/fit/linalg.ts";
 import { execFileSync, spawnSync } from "node:child_process";
 import { fitSurface } from "../src/fit/surface.ts";
 import { fitCore } from "../src/fit/core.ts";
@@ -72,6 +74,34 @@ describe("tridiagonalisation of large matrices on two threads (tridiag_split.ts)
     const ref = out.trim().split(" ").map(Number);
     const scale = Math.max(...ref.map(Math.abs));
     for (let i = 0; i < n; i++) expect(Math.abs(mine[i] - ref[i])).toBeLessThan(1e-12 * scale);
+  });
+});
+
+describe("inverse of a large Cholesky factor on two threads (inverse_split.ts)", () => {
+  it("L·X = I (the definition of the inverse), the same bits with or without the helper and as one column range", () => {
+    const nb = SPLIT_MIN + 37;
+    const r = mulberry32(23);
+    const l = new Float64Array(nb * nb);
+    for (let i = 0; i < nb; i++) {
+      for (let j = 0; j < i; j++) l[i * nb + j] = (r() - 0.5) / Math.sqrt(nb);
+      l[i * nb + i] = 1 + r();
+    }
+    const info: { threads?: number } = {};
+    const two = lowerInverse(l, nb, true, info), one = lowerInverse(l, nb, false);
+    expect(info.threads).toBe(2);
+    const whole = new Float64Array(nb * nb);
+    lowerInverseColumns(l, whole, nb, 0, nb);
+    expect(Buffer.from(two.buffer).equals(Buffer.from(one.buffer))).toBe(true);
+    expect(Buffer.from(one.buffer).equals(Buffer.from(whole.buffer))).toBe(true);
+    let worst = 0;
+    for (let i = 0; i < nb; i += 7) {
+      for (let j = 0; j < nb; j += 5) {
+        let s = 0;
+        for (let k = j; k <= i; k++) s += l[i * nb + k] * two[k * nb + j];
+        worst = Math.max(worst, Math.abs(s - (i === j ? 1 : 0)));
+      }
+    }
+    expect(worst).toBeLessThan(1e-12);
   });
 });
 

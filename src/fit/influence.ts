@@ -11,6 +11,7 @@ import {
   reflectSymmetric,
   solveTridiagonal,
 } from "./linalg.ts";
+import { lowerInverse } from "./inverse_split.ts";
 
 /**
  * Zᵀ = Hᵀ Q₂ᵀ (nb × N, row-major): the orthonormal basis in which (B + λI) is tridiagonal.
@@ -147,52 +148,8 @@ export function influenceComplementDiagonalCholesky(state: FitState, lambda: num
   for (let i = 0; i < nb; i++) l[i * nb + i] += lambda;
   if (!cholesky(l, nb)) return undefined;
   if (factor) factor.l = l;
-  // X = L⁻¹, row by row: X[i,:] = (eᵢ − Σ_{k<i} L[i,k] X[k,:]) / L[i,i] (contiguous row updates).
-  // Rows go four at a time sharing the loads of X[k,:]; each entry keeps its order of operations.
-  const x = new Float64Array(nb * nb);
-  const update = (ri: number, kk: number, lik: number) => {
-    const rk = kk * nb;
-    for (let j = 0; j <= kk; j++) x[ri + j] -= lik * x[rk + j];
-  };
-  const finish = (i: number) => {
-    const ri = i * nb;
-    x[ri + i] += 1;
-    const inv = 1 / l[ri + i];
-    for (let j = 0; j <= i; j++) x[ri + j] *= inv;
-  };
-  let i = 0;
-  for (; i + 3 < nb; i += 4) {
-    const r0 = i * nb, r1 = r0 + nb, r2 = r1 + nb, r3 = r2 + nb;
-    for (let kk = 0; kk < i; kk++) {
-      const l0 = l[r0 + kk], l1 = l[r1 + kk], l2 = l[r2 + kk], l3 = l[r3 + kk];
-      if (l0 !== 0 && l1 !== 0 && l2 !== 0 && l3 !== 0) {
-        const rk = kk * nb;
-        for (let j = 0; j <= kk; j++) {
-          const xk = x[rk + j];
-          x[r0 + j] -= l0 * xk;
-          x[r1 + j] -= l1 * xk;
-          x[r2 + j] -= l2 * xk;
-          x[r3 + j] -= l3 * xk;
-        }
-      } else {
-        if (l0 !== 0) update(r0, kk, l0);
-        if (l1 !== 0) update(r1, kk, l1);
-        if (l2 !== 0) update(r2, kk, l2);
-        if (l3 !== 0) update(r3, kk, l3);
-      }
-    }
-    // The 4×4 diagonal block, row by row.
-    for (let q = 0; q < 4; q++) {
-      const rq = r0 + q * nb;
-      for (let kk = i; kk < i + q; kk++) if (l[rq + kk] !== 0) update(rq, kk, l[rq + kk]);
-      finish(i + q);
-    }
-  }
-  for (; i < nb; i++) {
-    const ri = i * nb;
-    for (let kk = 0; kk < i; kk++) if (l[ri + kk] !== 0) update(ri, kk, l[ri + kk]);
-    finish(i);
-  }
+  // X = L⁻¹ (lowerInverseColumns; large ones by column blocks on two threads, the same bits).
+  const x = lowerInverse(l, nb);
   const colNorm = new Float64Array(nb);
   for (let i = 0; i < nb; i++) {
     const ri = i * nb;

@@ -263,6 +263,59 @@ export function lowerRank2Rows(a: Float64Array, n: number, start: number, v: Flo
   }
 }
 
+/**
+ * Columns [c0, c1) of X = L⁻¹ for lower-triangular L (row-major nb × nb; X zero there beforehand),
+ * row by row: X[i,:] = (eᵢ − Σ_{k<i} L[i,k] X[k,:]) / L[i,i]. Rows go four at a time sharing the
+ * loads of X[k,:]. Every entry takes its terms in increasing k and is then scaled, whatever the
+ * column range, so columns computed in separate calls (threads) hold the bits of one call.
+ */
+export function lowerInverseColumns(l: Float64Array, x: Float64Array, nb: number, c0: number, c1: number): void {
+  const update = (ri: number, kk: number, lik: number) => {
+    const rk = kk * nb, top = Math.min(kk, c1 - 1);
+    for (let j = c0; j <= top; j++) x[ri + j] -= lik * x[rk + j];
+  };
+  const finish = (i: number) => {
+    const ri = i * nb;
+    if (i < c1) x[ri + i] += 1;
+    const inv = 1 / l[ri + i];
+    const top = Math.min(i, c1 - 1);
+    for (let j = c0; j <= top; j++) x[ri + j] *= inv;
+  };
+  let i = c0;
+  for (; i + 3 < nb; i += 4) {
+    const r0 = i * nb, r1 = r0 + nb, r2 = r1 + nb, r3 = r2 + nb;
+    for (let kk = c0; kk < i; kk++) {
+      const l0 = l[r0 + kk], l1 = l[r1 + kk], l2 = l[r2 + kk], l3 = l[r3 + kk];
+      if (l0 !== 0 && l1 !== 0 && l2 !== 0 && l3 !== 0) {
+        const rk = kk * nb, top = Math.min(kk, c1 - 1);
+        for (let j = c0; j <= top; j++) {
+          const xk = x[rk + j];
+          x[r0 + j] -= l0 * xk;
+          x[r1 + j] -= l1 * xk;
+          x[r2 + j] -= l2 * xk;
+          x[r3 + j] -= l3 * xk;
+        }
+      } else {
+        if (l0 !== 0) update(r0, kk, l0);
+        if (l1 !== 0) update(r1, kk, l1);
+        if (l2 !== 0) update(r2, kk, l2);
+        if (l3 !== 0) update(r3, kk, l3);
+      }
+    }
+    // The 4×4 diagonal block, row by row.
+    for (let q = 0; q < 4; q++) {
+      const rq = r0 + q * nb;
+      for (let kk = i; kk < i + q; kk++) if (l[rq + kk] !== 0) update(rq, kk, l[rq + kk]);
+      finish(i + q);
+    }
+  }
+  for (; i < nb; i++) {
+    const ri = i * nb;
+    for (let kk = c0; kk < i; kk++) if (l[ri + kk] !== 0) update(ri, kk, l[ri + kk]);
+    finish(i);
+  }
+}
+
 /** y ← Hᵀ y for H = H₀H₁…: apply H₀ first. */
 export function applyReflectorsTransposed(reflectors: Reflector[], y: Float64Array): void {
   for (let k = 0; k < reflectors.length; k++) applyReflector(reflectors[k], y);
