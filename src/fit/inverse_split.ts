@@ -6,8 +6,10 @@ import { lowerInverseColumns } from "./linalg.ts";
 import { SPLIT_MIN } from "./tridiag_split.ts";
 import { workersAvailable } from "../workers.ts";
 
-/** A helper that does not answer within this long is taken as gone. */
+/** A helper that does not finish within this long is taken as gone. */
 const HELPER_TIMEOUT_MS = 120_000;
+/** A helper that has not started within this long (its module not loaded) is given up. */
+const START_TIMEOUT_MS = 10_000;
 
 /**
  * The first column of the helper's block: column j costs about (nb − j)²/2, so [0, c) holds half the
@@ -32,6 +34,7 @@ export function lowerInverse(l: Float64Array, nb: number, useHelper = true, info
   lShared.set(l.subarray(0, nb * nb));
   const x = new Float64Array(new SharedArrayBuffer(8 * nb * nb));
   const ctl = new SharedArrayBuffer(8);
+  // ctrl[0]: 1 when the helper is done, 2 when it failed; ctrl[1]: 1 once it has started.
   const ctrl = new Int32Array(ctl);
   const c = splitColumn(nb);
   let helper: Worker | null = null;
@@ -46,11 +49,11 @@ export function lowerInverse(l: Float64Array, nb: number, useHelper = true, info
   try {
     lowerInverseColumns(lShared, x, nb, 0, c);
     if (helper) {
-      // ctrl[0]: 1 when the helper is done, 2 when it failed.
       const t0 = Date.now();
       while (Atomics.load(ctrl, 0) === 0) {
-        if (Date.now() - t0 > HELPER_TIMEOUT_MS) break;
-        Atomics.wait(ctrl, 0, 0, 1000);
+        const waited = Date.now() - t0;
+        if (waited > HELPER_TIMEOUT_MS || (waited > START_TIMEOUT_MS && Atomics.load(ctrl, 1) === 0)) break;
+        Atomics.wait(ctrl, 0, 0, 200);
       }
       if (Atomics.load(ctrl, 0) !== 1) {
         helper.terminate();

@@ -18,6 +18,8 @@ export const SPLIT_MIN = 1200;
 const HAND_OVER_MIN = 400;
 /** A helper that does not answer within this long is taken as gone (a step takes milliseconds). */
 const HELPER_TIMEOUT_MS = 60_000;
+/** A helper not started within this long (its module not loaded) is given up: this thread does both parts. */
+const START_TIMEOUT_MS = 10_000;
 
 /** Control words of the shared Int32Array. */
 export const CTRL = { command: 0, ack: 1, kind: 2, start: 3, m: 4, ready: 5 } as const;
@@ -46,7 +48,7 @@ function startHelper(mat: SharedArrayBuffer, vec: SharedArrayBuffer, ctl: Shared
   }
   const t0 = Date.now();
   while (Atomics.load(ctrl, CTRL.ready) !== 1) {
-    if (Date.now() - t0 > HELPER_TIMEOUT_MS) {
+    if (Date.now() - t0 > START_TIMEOUT_MS) {
       worker.terminate();
       return null;
     }
