@@ -5,9 +5,9 @@
 import { describe, expect, it } from "vitest";
 import { EigenvalueDecomposition, Matrix, solve } from "ml-matrix";
 import { tridiagonalEigenvalues, tridiagonalize } from "../src/fit/linalg.ts";
-import { SPLIT_MIN, tridiagonalizeSplit } from "../src/fit/tridiag_split.ts";
+import { choleskySplit, SPLIT_MIN, tridiagonalizeSplit } from "../src/fit/tridiag_split.ts";
 import { lowerInverse } from "../src/fit/inverse_split.ts";
-import { lowerInverseColumns } from "../src/fit/linalg.ts";
+import { cholesky, choleskyColumn, choleskyUpdateRows, lowerInverseColumns } from "../src/fit/linalg.ts";
 import { execFileSync, spawnSync } from "node:child_process";
 import { fitSurface } from "../src/fit/surface.ts";
 import { fitCore } from "../src/fit/core.ts";
@@ -74,6 +74,41 @@ describe("tridiagonalisation of large matrices on two threads (tridiag_split.ts)
     const ref = out.trim().split(" ").map(Number);
     const scale = Math.max(...ref.map(Math.abs));
     for (let i = 0; i < n; i++) expect(Math.abs(mine[i] - ref[i])).toBeLessThan(1e-12 * scale);
+  });
+});
+
+describe("Cholesky factorisation of a large matrix on two threads (choleskySplit)", () => {
+  it("L·Lᵀ = A (the definition), with the bits of one thread (the serial loop, column by column)", () => {
+    const n = SPLIT_MIN + 21;
+    const r = mulberry32(29);
+    const u = Float64Array.from({ length: n }, () => r()), v = Float64Array.from({ length: n }, () => r());
+    const a = new Float64Array(n * n);
+    for (let i = 0; i < n; i++) for (let j = 0; j <= i; j++) a[i * n + j] = a[j * n + i] = Math.exp(-4 * ((u[i] - u[j]) ** 2 + (v[i] - v[j]) ** 2)) + (i === j ? 0.5 : 0);
+    const info: { threads?: number } = {};
+    const two = Float64Array.from(a);
+    expect(choleskySplit(two, n, true, info)).toBe(true);
+    expect(info.threads).toBe(2);
+    const serial = Float64Array.from(a), col = new Float64Array(n);
+    for (let k = 0; k < n; k++) {
+      expect(choleskyColumn(serial, n, k, col)).toBe(true);
+      choleskyUpdateRows(serial, n, k, col, k + 1, n);
+    }
+    for (let i = 0; i < n; i++) {
+      for (let j = 0; j <= i; j++) if (!Object.is(two[i * n + j], serial[i * n + j])) throw new Error(`L[${i}][${j}] differs`);
+    }
+    let worst = 0;
+    for (let i = 0; i < n; i += 11) {
+      for (let j = 0; j <= i; j += 7) {
+        let s2 = 0;
+        for (let k = 0; k <= j; k++) s2 += two[i * n + k] * two[j * n + k];
+        worst = Math.max(worst, Math.abs(s2 - a[i * n + j]));
+      }
+    }
+    expect(worst).toBeLessThan(1e-12);
+    // Not positive definite: refused, as in one thread.
+    const bad = Float64Array.from(a);
+    bad[(n - 1) * n + n - 1] = -1;
+    expect(cholesky(bad, n)).toBe(false);
   });
 });
 

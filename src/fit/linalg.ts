@@ -3,7 +3,7 @@
 // 4th ed. (2013): Householder reflections §5.1, tridiagonalisation §8.3.1, implicit symmetric QL
 // (as in the EISPACK routine tql1), Cholesky §4.2.
 
-import { SPLIT_MIN, tridiagonalizeSplit } from "./tridiag_split.ts";
+import { choleskySplit, SPLIT_MIN, tridiagonalizeSplit } from "./tridiag_split.ts";
 
 /** A Householder reflection H = I − β v vᵀ acting on indices [start, n). */
 export interface Reflector {
@@ -426,43 +426,59 @@ export function solveTridiagonal(d: Float64Array, e: Float64Array, shift: number
  * dot-product chain is not.
  */
 export function cholesky(a: Float64Array, n: number): boolean {
+  // Large matrices: each column's trailing update split between two threads (tridiag_split.ts's
+  // helper; every entry is updated once per column, so the bits are those of one thread).
+  if (n >= SPLIT_MIN) return choleskySplit(a, n);
   const col = new Float64Array(n);
   for (let k = 0; k < n; k++) {
-    const s = a[k * n + k];
-    if (!(s > 0)) return false;
-    const lkk = Math.sqrt(s);
-    a[k * n + k] = lkk;
-    for (let i = k + 1; i < n; i++) {
-      const l = a[i * n + k] / lkk;
-      a[i * n + k] = l;
-      col[i] = l;
-    }
-    // Trailing update, four rows at a time sharing the loads of column k.
-    let i = k + 1;
-    for (; i + 3 < n; i += 4) {
-      const r0 = i * n, r1 = r0 + n, r2 = r1 + n, r3 = r2 + n;
-      const l0 = col[i], l1 = col[i + 1], l2 = col[i + 2], l3 = col[i + 3];
-      for (let j = k + 1; j <= i; j++) {
-        const cj = col[j];
-        a[r0 + j] -= l0 * cj;
-        a[r1 + j] -= l1 * cj;
-        a[r2 + j] -= l2 * cj;
-        a[r3 + j] -= l3 * cj;
-      }
-      a[r1 + i + 1] -= l1 * col[i + 1];
-      a[r2 + i + 1] -= l2 * col[i + 1];
-      a[r2 + i + 2] -= l2 * col[i + 2];
-      a[r3 + i + 1] -= l3 * col[i + 1];
-      a[r3 + i + 2] -= l3 * col[i + 2];
-      a[r3 + i + 3] -= l3 * col[i + 3];
-    }
-    for (; i < n; i++) {
-      const ri = i * n;
-      const lik = col[i];
-      for (let j = k + 1; j <= i; j++) a[ri + j] -= lik * col[j];
-    }
+    if (!choleskyColumn(a, n, k, col)) return false;
+    choleskyUpdateRows(a, n, k, col, k + 1, n);
   }
   return true;
+}
+
+/** Column k of the Cholesky factor in place (L[k][k] = √a, L[i][k] = a/L[k][k]), copied into col; false when a[k][k] ≤ 0. */
+export function choleskyColumn(a: Float64Array, n: number, k: number, col: Float64Array): boolean {
+  const s = a[k * n + k];
+  if (!(s > 0)) return false;
+  const lkk = Math.sqrt(s);
+  a[k * n + k] = lkk;
+  for (let i = k + 1; i < n; i++) {
+    const l = a[i * n + k] / lkk;
+    a[i * n + k] = l;
+    col[i] = l;
+  }
+  return true;
+}
+
+/**
+ * Rows [i0, i1) of the trailing update after column k: aᵢⱼ −= lᵢₖ lⱼₖ for k < j ≤ i, four rows at a
+ * time sharing the loads of column k (each entry is updated once, whatever the rows given).
+ */
+export function choleskyUpdateRows(a: Float64Array, n: number, k: number, col: Float64Array, i0: number, i1: number): void {
+  let i = i0;
+  for (; i + 3 < i1; i += 4) {
+    const r0 = i * n, r1 = r0 + n, r2 = r1 + n, r3 = r2 + n;
+    const l0 = col[i], l1 = col[i + 1], l2 = col[i + 2], l3 = col[i + 3];
+    for (let j = k + 1; j <= i; j++) {
+      const cj = col[j];
+      a[r0 + j] -= l0 * cj;
+      a[r1 + j] -= l1 * cj;
+      a[r2 + j] -= l2 * cj;
+      a[r3 + j] -= l3 * cj;
+    }
+    a[r1 + i + 1] -= l1 * col[i + 1];
+    a[r2 + i + 1] -= l2 * col[i + 1];
+    a[r2 + i + 2] -= l2 * col[i + 2];
+    a[r3 + i + 1] -= l3 * col[i + 1];
+    a[r3 + i + 2] -= l3 * col[i + 2];
+    a[r3 + i + 3] -= l3 * col[i + 3];
+  }
+  for (; i < i1; i++) {
+    const ri = i * n;
+    const lik = col[i];
+    for (let j = k + 1; j <= i; j++) a[ri + j] -= lik * col[j];
+  }
 }
 
 /** Solve the upper-triangular system R x = b (m×m, row-major) in place. */

@@ -5,7 +5,7 @@
 // depends on m alone and the helper's partial p is added to this thread's in a fixed order, so the
 // numbers are the same whether a helper runs or this thread does both parts (no worker threads:
 // same bits). GVL Alg. 8.3.1 as in tridiagonalize (linalg.ts), whose row kernels both threads use.
-import { householderSteps, lowerMatvecRows, lowerRank2Rows, type Reflector, reflectorUpdateVector } from "./linalg.ts";
+import { choleskyColumn, choleskyUpdateRows, householderSteps, lowerMatvecRows, lowerRank2Rows, type Reflector, reflectorUpdateVector } from "./linalg.ts";
 import { workersAvailable } from "../workers.ts";
 
 /**
@@ -23,7 +23,7 @@ const START_TIMEOUT_MS = 10_000;
 
 /** Control words of the shared Int32Array. */
 export const CTRL = { command: 0, ack: 1, kind: 2, start: 3, m: 4, ready: 5 } as const;
-export const KIND = { matvec: 1, update: 2, stop: 3 } as const;
+export const KIND = { matvec: 1, update: 2, stop: 3, cholesky: 4 } as const;
 
 /** First row of the second part: the lower triangle's work (row i weighs i) halved, a multiple of 4. */
 export function splitRow(m: number): number {
@@ -57,11 +57,8 @@ function startHelper(mat: SharedArrayBuffer, vec: SharedArrayBuffer, ctl: Shared
   return worker;
 }
 
-/**
- * tridiagonalize with each step's loops split by rows (see the top of this file); `aIn` is not
- * changed. `useHelper: false` does both parts in this thread (the same numbers; for tests).
- */
-export function tridiagonalizeSplit(aIn: Float64Array, n: number, useHelper = true): { d: Float64Array; e: Float64Array; reflectors: Reflector[]; threads: number } {
+/** The shared matrix, vectors and helper of a split computation, and the hand-over to the helper. */
+function sharedWork(aIn: Float64Array, n: number, useHelper: boolean) {
   const mat = new SharedArrayBuffer(8 * n * n), vec = new SharedArrayBuffer(24 * n), ctl = new SharedArrayBuffer(32);
   const a = new Float64Array(mat);
   a.set(aIn.subarray(0, n * n));
@@ -79,10 +76,25 @@ export function tridiagonalizeSplit(aIn: Float64Array, n: number, useHelper = tr
   const awaitHelper = () => {
     const t0 = Date.now();
     for (let seen = Atomics.load(ctrl, CTRL.ack); seen !== command; seen = Atomics.load(ctrl, CTRL.ack)) {
-      if (Date.now() - t0 > HELPER_TIMEOUT_MS) throw new Error("the tridiagonalisation's helper thread stopped answering");
+      if (Date.now() - t0 > HELPER_TIMEOUT_MS) throw new Error("the helper thread of a split factorisation stopped answering");
       Atomics.wait(ctrl, CTRL.ack, seen, 1000);
     }
   };
+  const stop = () => {
+    if (helper) {
+      handOver(KIND.stop, 0, 0);
+      helper.terminate();
+    }
+  };
+  return { a, v, w, pw, helper, handOver, awaitHelper, stop };
+}
+
+/**
+ * tridiagonalize with each step's loops split by rows (see the top of this file); `aIn` is not
+ * changed. `useHelper: false` does both parts in this thread (the same numbers; for tests).
+ */
+export function tridiagonalizeSplit(aIn: Float64Array, n: number, useHelper = true): { d: Float64Array; e: Float64Array; reflectors: Reflector[]; threads: number } {
+  const { a, v, w, pw, helper, handOver, awaitHelper, stop } = sharedWork(aIn, n, useHelper);
   const pa = new Float64Array(n);
   let result: { d: Float64Array; e: Float64Array; reflectors: Reflector[] };
   try {
@@ -108,10 +120,37 @@ export function tridiagonalizeSplit(aIn: Float64Array, n: number, useHelper = tr
       else lowerRank2Rows(a, n, start, v, w, split, m);
     });
   } finally {
-    if (helper) {
-      handOver(KIND.stop, 0, 0);
-      helper.terminate();
-    }
+    stop();
   }
   return { ...result, threads: helper ? 2 : 1 };
+}
+
+/**
+ * cholesky (linalg.ts) with each column's trailing update split by rows between this thread and the
+ * helper: rows k+1 … of the update are independent and every entry is updated once per column, so
+ * the factor has the bits of one thread. In place, like cholesky; false when A is not positive
+ * definite. `info.threads` tells how many threads did the work.
+ */
+export function choleskySplit(aIn: Float64Array, n: number, useHelper = true, info: { threads?: number } = {}): boolean {
+  const { a, v: col, helper, handOver, awaitHelper, stop } = sharedWork(aIn, n, useHelper);
+  info.threads = helper ? 2 : 1;
+  let ok = true;
+  try {
+    for (let k = 0; k < n && ok; k++) {
+      if (!choleskyColumn(a, n, k, col)) {
+        ok = false;
+        break;
+      }
+      const m = n - k - 1, split = k + 1 + splitRow(m);
+      const helped = helper !== null && m >= HAND_OVER_MIN;
+      if (helped) handOver(KIND.cholesky, k, n);
+      choleskyUpdateRows(a, n, k, col, k + 1, split);
+      if (helped) awaitHelper();
+      else choleskyUpdateRows(a, n, k, col, split, n);
+    }
+  } finally {
+    stop();
+  }
+  aIn.set(a);
+  return ok;
 }

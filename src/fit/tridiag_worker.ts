@@ -1,6 +1,7 @@
 // Helper thread of tridiag_split.ts: waits on the shared control words and does the second part of
-// each step (rows [splitRow(m), m)) of p = A₂₂v or of the rank-2 update, with the same row kernels.
-import { lowerMatvecRows, lowerRank2Rows } from "./linalg.ts";
+// each step (rows [splitRow(m), m)) of p = A₂₂v or of the rank-2 update, or of a Cholesky column's
+// trailing update, with the same row kernels.
+import { choleskyUpdateRows, lowerMatvecRows, lowerRank2Rows } from "./linalg.ts";
 import { CTRL, KIND, sharedVectors, splitRow } from "./tridiag_split.ts";
 
 globalThis.addEventListener("message", (e: Event) => {
@@ -15,6 +16,14 @@ globalThis.addEventListener("message", (e: Event) => {
     seen = Atomics.load(ctrl, CTRL.command);
     const kind = ctrl[CTRL.kind], start = ctrl[CTRL.start], m = ctrl[CTRL.m];
     if (kind === KIND.stop) break;
+    if (kind === KIND.cholesky) {
+      // Column `start` (k) of a Cholesky factorisation of order m (n): rows k + 1 + splitRow(n − k − 1) … n − 1.
+      const k = start;
+      choleskyUpdateRows(a, n, k, v, k + 1 + splitRow(m - k - 1), m);
+      Atomics.store(ctrl, CTRL.ack, seen);
+      Atomics.notify(ctrl, CTRL.ack);
+      continue;
+    }
     const split = splitRow(m);
     if (kind === KIND.matvec) {
       pw.fill(0, 0, m);
