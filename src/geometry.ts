@@ -87,6 +87,19 @@ interface BucketGrid {
   ys: Float64Array;
 }
 
+/**
+ * Items sorted by cell: a counting sort, stable (input order within a cell). Cell c holds
+ * order[start[c]] … order[start[c + 1] − 1].
+ */
+export function sortByCell(cellOf: Int32Array, cells: number): { start: Int32Array; order: Int32Array } {
+  const start = new Int32Array(cells + 1);
+  for (let i = 0; i < cellOf.length; i++) start[cellOf[i] + 1]++;
+  for (let c = 0; c < cells; c++) start[c + 1] += start[c];
+  const fill = start.slice(0, cells), order = new Int32Array(cellOf.length);
+  for (let i = 0; i < cellOf.length; i++) order[fill[cellOf[i]]++] = i;
+  return { start, order };
+}
+
 /** The bucket grid of a point set, or null when the points coincide or cluster too strongly for it (BUCKET_WORK). */
 function bucketGrid(x: Float64Array, y: Float64Array): BucketGrid | null {
   const n = x.length;
@@ -97,21 +110,14 @@ function bucketGrid(x: Float64Array, y: Float64Array): BucketGrid | null {
   const h = w > 0 && hgt > 0 ? Math.max(Math.sqrt((w * hgt) / cells), Math.max(w, hgt) / cells) : Math.max(w, hgt) / cells;
   const cols = Math.min(Math.floor(w / h) + 1, cells + 1), rows = Math.min(Math.floor(hgt / h) + 1, cells + 1);
   const cellOf = new Int32Array(n);
-  const start = new Int32Array(cols * rows + 1);
   for (let i = 0; i < n; i++) {
     const c = Math.min(cols - 1, Math.floor((x[i] - xmin) / h)), r = Math.min(rows - 1, Math.floor((y[i] - ymin) / h));
     cellOf[i] = r * cols + c;
-    start[cellOf[i] + 1]++;
   }
+  const { start, order } = sortByCell(cellOf, cols * rows);
   let work = 0;
-  for (let k = 0; k < cols * rows; k++) {
-    work += start[k + 1] * start[k + 1];
-    start[k + 1] += start[k];
-  }
+  for (let k = 0; k < cols * rows; k++) work += (start[k + 1] - start[k]) ** 2;
   if (work > BUCKET_WORK * n) return null;
-  const order = new Int32Array(n);
-  const fill = start.slice(0, cols * rows);
-  for (let i = 0; i < n; i++) order[fill[cellOf[i]]++] = i;
   // Coordinates in cell order, so that a cell's points are contiguous.
   const xs = Float64Array.from(order, (i) => x[i]), ys = Float64Array.from(order, (i) => y[i]);
   return { xmin, ymin, h, cols, rows, start, order, cellOf, xs, ys };

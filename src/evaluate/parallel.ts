@@ -4,6 +4,7 @@
 import type { SurfaceModel } from "../model/model.ts";
 import type { GridSpec, GridValues } from "../types.ts";
 import { runWorker, workersAvailable } from "../workers.ts";
+import { sortByCell } from "../geometry.ts";
 import { evaluatorOf, type PackedSurface, packSurface, surfaceBuffers } from "./evaluate.ts";
 import { checkFiniteCells, evaluatePlaces, evaluateRows, gridLayout, gridModel, type GridOptions, type GridWindow, startGrid } from "./grid.ts";
 
@@ -69,8 +70,7 @@ export async function evaluateWindow(
  * The places are evaluated in the order of a coarse grid's cells (placeOrder), so that neighbouring
  * evaluations meet the same patches (a file's readings may come in any order).
  */
-export async function evaluatePlacesParallel(model: SurfaceModel, x: Float64Array, y: Float64Array, threads = navigator.hardwareConcurrency || 1): Promise<Float64Array> {
-  const order = placeOrder(x, y);
+export async function evaluatePlacesParallel(model: SurfaceModel, x: Float64Array, y: Float64Array, threads = navigator.hardwareConcurrency || 1, order = placeOrder(x, y)): Promise<Float64Array> {
   const sx = Float64Array.from(order, (i) => x[i]), sy = Float64Array.from(order, (i) => y[i]);
   const sorted = await evaluateInBlocks(model, sx, sy, threads);
   const values = new Float64Array(x.length);
@@ -108,15 +108,9 @@ export function placeOrder(x: Float64Array, y: Float64Array): Int32Array {
   const side = Math.max(1, Math.min(4096, Math.round(Math.sqrt(n / 16))));
   const w = (xmax - xmin) / side || 1, h = (ymax - ymin) / side || 1;
   const cellOf = new Int32Array(n);
-  const count = new Int32Array(side * side + 2);
   for (let i = 0; i < n; i++) {
     const ok = Number.isFinite(x[i]) && Number.isFinite(y[i]);
-    const c = ok ? Math.min(side - 1, Math.floor((x[i] - xmin) / w)) + side * Math.min(side - 1, Math.floor((y[i] - ymin) / h)) : side * side;
-    cellOf[i] = c;
-    count[c + 1]++;
+    cellOf[i] = ok ? Math.min(side - 1, Math.floor((x[i] - xmin) / w)) + side * Math.min(side - 1, Math.floor((y[i] - ymin) / h)) : side * side;
   }
-  for (let c = 0; c <= side * side; c++) count[c + 1] += count[c];
-  const order = new Int32Array(n);
-  for (let i = 0; i < n; i++) order[count[cellOf[i]]++] = i;
-  return order;
+  return sortByCell(cellOf, side * side + 1).order;
 }

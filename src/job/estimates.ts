@@ -65,13 +65,15 @@ export interface EstimateTable {
 /**
  * Estimates (and standard errors) at the rows of a locations table. Rows without usable x, y (or
  * so far away that the estimate is not a finite number) get empty cells and are listed in `unusable`.
- * `values`, when given, are the surface at the rows already (evaluatePlacesParallel, the same numbers).
+ * `values`, when given, are the surface at the rows already (evaluatePlacesParallel, the same numbers);
+ * `order`, the rows' placeOrder when the caller has it.
  */
 export function estimateTable(
   model: SurfaceModel,
   table: PointTable,
   se: ErrorEstimator | null = makeErrorEstimator(model),
   values?: Float64Array,
+  order?: Int32Array,
 ): EstimateTable {
   const ev = values ? undefined : makeEvaluator(model);
   const check = makeExtrapolationCheck(model);
@@ -87,7 +89,7 @@ export function estimateTable(
   // the patches it factorised in a bounded cache, which places in file order would keep evicting
   // (20,000 random places at 10⁵ points: 20 s in file order).
   const seAt = se ? new Float64Array(rows) : null;
-  if (se && seAt) for (const i of placeOrder(xs, ys)) seAt[i] = Number.isFinite(xs[i]) && Number.isFinite(ys[i]) ? se.at(xs[i], ys[i]) : NaN;
+  if (se && seAt) for (const i of order ?? placeOrder(xs, ys)) seAt[i] = Number.isFinite(xs[i]) && Number.isFinite(ys[i]) ? se.at(xs[i], ys[i]) : NaN;
   table.lines.forEach((_line, i) => {
     const x = xs[i], y = ys[i];
     const value = values ? values[i] : Number.isFinite(x) && Number.isFinite(y) ? ev!.at(x, y) : NaN;
@@ -172,6 +174,7 @@ export function estimateSummaryLines(est: EstimateTable, model: SurfaceModel): s
 
 /** estimateTable with the surface evaluated in worker threads (evaluatePlacesParallel) for big tables. */
 export async function estimateTableParallel(model: SurfaceModel, table: PointTable, se: ErrorEstimator | null = makeErrorEstimator(model)): Promise<EstimateTable> {
-  const values = await evaluatePlacesParallel(model, coordinateColumn(table, table.xColumn), coordinateColumn(table, table.yColumn));
-  return estimateTable(model, table, se, values);
+  const x = coordinateColumn(table, table.xColumn), y = coordinateColumn(table, table.yColumn);
+  const order = placeOrder(x, y);
+  return estimateTable(model, table, se, await evaluatePlacesParallel(model, x, y, undefined, order), order);
 }

@@ -123,10 +123,11 @@ async function runInto(opts: RunOptions, files: Record<string, string>, inputs: 
     // Before the long work: the whole run's peak from the points and the grid they will get.
     const n = loaded.points.x.length;
     const method = methodFor(n, opts.fit?.method);
-    const errorsFromFit = method === "local" && !opts.breaklines && !opts.strings;
+    // The fit computes the error grid when the grid is planned now and there are no breaklines (errorPlaces).
+    const errorsFromFit = planned !== undefined && !opts.breaklines && !opts.strings;
     estimate = estimateMemory({ points: n, method, patchPoints: opts.fit?.patchPoints, cells, fits: true, run: true, errorsFromFit });
     opts.progress?.(`memory: about ${fmtBytes(estimate.bytes)} needed at the peak, limit ${fmtBytes(limit.bytes)}`);
-    const local = method === "global" ? estimateMemory({ points: n, method: "local", patchPoints: opts.fit?.patchPoints, cells, fits: true, run: true, errorsFromFit: !opts.breaklines && !opts.strings }) : undefined;
+    const local = method === "global" ? estimateMemory({ points: n, method: "local", patchPoints: opts.fit?.patchPoints, cells, fits: true, run: true, errorsFromFit }) : undefined;
     checkMemory(estimate, limit, memoryAdvice(estimate, { local }));
   });
   const model = fitted.model;

@@ -5,7 +5,7 @@
 // Patches are fitted in fixed blocks (PATCH_BLOCK), in this thread or in workers: each patch's
 // result depends only on its own points, so the model does not depend on the number of workers.
 import { ExitCode, RbfieldError } from "../../errors.ts";
-import { medianSpacing } from "../../geometry.ts";
+import { medianSpacing, sortByCell } from "../../geometry.ts";
 import type { KernelName, TrendName } from "../../types.ts";
 import { type FittedCandidate, fitOne, type KernelGroup, rankGroup, type CandidateScore } from "../candidate.ts";
 import {
@@ -77,12 +77,8 @@ export function bucketPlaces(u: Float64Array, v: Float64Array, h: number): Patch
   }
   if (!(u.length > 0)) u0 = v0 = u1 = v1 = 0;
   const cols = Math.min(Math.floor((u1 - u0) / h) + 1, 4096), rows = Math.min(Math.floor((v1 - v0) / h) + 1, 4096);
-  const cellOf = (k: number) => Math.min(rows - 1, Math.floor((v[k] - v0) / h)) * cols + Math.min(cols - 1, Math.floor((u[k] - u0) / h));
-  const start = new Int32Array(cols * rows + 1);
-  for (let k = 0; k < u.length; k++) start[cellOf(k) + 1]++;
-  for (let c = 0; c < cols * rows; c++) start[c + 1] += start[c];
-  const fill = start.slice(0, cols * rows), order = new Int32Array(u.length);
-  for (let k = 0; k < u.length; k++) order[fill[cellOf(k)]++] = k;
+  const cellOf = Int32Array.from(u, (uk, k) => Math.min(rows - 1, Math.floor((v[k] - v0) / h)) * cols + Math.min(cols - 1, Math.floor((uk - u0) / h)));
+  const { start, order } = sortByCell(cellOf, cols * rows);
   return { u, v, u0, v0, h, cols, rows, start, order };
 }
 
