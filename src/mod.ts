@@ -9,7 +9,7 @@ export { decodeGeoTiff } from "./read/geotiff.ts";
 // clean
 export { cleanPoints, type CleanOptions, describeCleaning } from "./clean/clean.ts";
 // fit and select
-export { fitSurface, fitSurfaceParallel, fitSurfaceWithFactors, type FitOptions, type FittedModel } from "./fit/surface.ts";
+export { fitSurface, fitSurfaceParallel, fitSurfaceWithPlaces, type FitOptions, type FittedModel } from "./fit/surface.ts";
 export { KERNEL_TABLE, KERNELS, minimumTrend, TRENDS } from "./fit/kernels.ts";
 export { MODEL_FORMAT, MODEL_VERSION, modelFromJson, modelToJson, type SurfaceModel } from "./model/model.ts";
 // evaluate: one surface interface whatever the method

@@ -16,7 +16,7 @@ import { methodSummary } from "../src/write/map/method.ts";
 import { formatSignificant } from "../src/text.ts";
 import { describe, expect, it } from "vitest";
 import { Matrix, solve } from "ml-matrix";
-import { fitSurface, fitSurfaceParallel, fitSurfaceWithFactors, LOCAL_AUTO_POINTS, MAX_GLOBAL_POINTS } from "../src/fit/surface.ts";
+import { fitSurface, fitSurfaceParallel, fitSurfaceWithPlaces, LOCAL_AUTO_POINTS, MAX_GLOBAL_POINTS } from "../src/fit/surface.ts";
 import type { FitOptions } from "../src/fit/options.ts";
 import { makeEvaluator } from "../src/evaluate/evaluate.ts";
 import { gridModel } from "../src/evaluate/grid.ts";
@@ -247,8 +247,7 @@ describe("local method against the global method (Franke's function, noise sd 0.
     const pts = noisyFranke(1000, 13);
     const opts: FitOptions = { kernel: "thin-plate", trend: "linear" };
     const sl = makeErrorEstimator(fitSurface(pts, { ...opts, method: "local" }));
-    const G = fitSurfaceWithFactors(pts, { ...opts, method: "global" });
-    const sg = makeErrorEstimator(G.model, G.factors);
+    const sg = makeErrorEstimator(fitSurface(pts, { ...opts, method: "global" }));
     const r = mulberry32(6);
     const ratios: number[] = [];
     for (let k = 0; k < 200; k++) {
@@ -300,7 +299,7 @@ describe("local method: standard errors", () => {
     const pts = noisyFranke(300, 14);
     const xs = Float64Array.from({ length: 9 }, (_, j) => 0.05 + 0.1125 * j), ys = Float64Array.from({ length: 7 }, (_, i) => 0.95 - 0.15 * i);
     let asked = 0;
-    const fitted = fitSurfaceWithFactors(pts, {
+    const fitted = fitSurfaceWithPlaces(pts, {
       method: "local",
       kernel: "thin-plate",
       trend: "linear",
@@ -313,7 +312,7 @@ describe("local method: standard errors", () => {
     expect(asked).toBeGreaterThan(0);
     const model = local(fitted.model);
     const places = fitted.places!;
-    const est = makeErrorEstimator(model, undefined, places);
+    const est = makeErrorEstimator(model, places);
     expect(est.fromFit).toBe(true);
     for (let i = 0; i < ys.length; i++) {
       for (let j = 0; j < xs.length; j++) {

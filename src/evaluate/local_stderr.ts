@@ -10,15 +10,11 @@
 // correlated, which neighbouring patches sharing most of their points nearly are). Measured against
 // the global method's standard error: see DEVELOPERS.md, "Local method".
 //
-// Each patch's quadratic form comes from one Cholesky factor (the null-space method, Golub & Van Loan
-// §12.1): with the trend's QR factorisation DP = Q[R; 0], Â = Qᵀ(DKD + λI)Q in blocks A₁₁ (m×m),
-// A₂₁ and B = A₂₂ = LLᵀ, and t = Qᵀ D k(x), a₁ = R⁻ᵀ p(x),
-//   sᵀM⁻¹s = 2 t₁ᵀa₁ − a₁ᵀA₁₁a₁ + ‖L⁻¹(t₂ − A₂₁a₁)‖²,
-// and the process scale b̂ = ỹᵀw̃/(n − m) = ‖L⁻¹ (Qᵀ D y)₂‖²/(n − m) (processScale). That is n³/6
-// multiply-adds per patch (the fit's tridiagonal reduction and explicit inverse took about 5n³)
-// and (n − m)²/2 per patch and place (the explicit inverse took n²). Where the Cholesky factorisation
-// fails (B not numerically positive definite) the patch is refitted and its bordered inverse formed
-// as before (fitCore, borderedInverse).
+// Each patch's quadratic form sᵀMⱼ⁻¹s comes from one Cholesky factor by the null-space method
+// (null_space.ts, shared with the global method's errors): (n − m)³/3 multiply-adds per patch (the
+// fit's tridiagonal reduction and explicit inverse took about 5n³) and (n − m)²/2 per patch and place
+// (the explicit inverse took n²). Where the Cholesky factorisation fails (B not numerically positive
+// definite) the patch is refitted and its bordered inverse formed (fitCore, borderedInverse).
 //
 // At a data point xᵢ the patch quantity is known from the fit itself: φ(0) − sᵀMⱼ⁻¹s = λⱼ Aᵢᵢ⁽ʲ⁾/ωᵢ
 // (Aᵢᵢ the hat diagonal, as for the leave-one-out residuals), so the fit stores the blended error at
@@ -31,14 +27,13 @@
 // whichever thread computes it.
 import { fitCore } from "../fit/core.ts";
 import { type BorderedInverse, borderedInverse, borderedQuadratic, processScale } from "../fit/influence.ts";
-import { cholesky, householderQR, type Reflector, reflectSymmetric, applyReflector } from "../fit/linalg.ts";
-import { kernelOfSquared, trendRow, weightedKernelMatrix } from "../fit/kernels.ts";
+import { kernelOfSquared, trendRow } from "../fit/kernels.ts";
 import { transformedValues } from "../fit/prepare.ts";
-import type { FitState } from "../fit/core.ts";
 import { exactPointLookup } from "../geometry.ts";
 import type { LocalModel } from "../model/model.ts";
 import type { TrendName } from "../types.ts";
 import { localBuffers, localEvaluator, makeBlender, nearestLine, type PackedLocal, packLocal, subsetPatches, taper } from "./local.ts";
+import { type CholeskyFactor, choleskyFactorOf, choleskyQuadratic } from "./null_space.ts";
 import type { ErrorEstimator } from "./stderr.ts";
 
 /** Bytes of patch factors kept at once per thread (least recently used dropped first; job/memory.ts counts it). */
@@ -100,52 +95,8 @@ export function localErrorBuffers(p: PackedLocalErrors): ArrayBuffer[] {
   return [...localBuffers(p.surface), ...[p.y, p.sqrtW, p.lambda, p.pointSe, p.px, p.py].map((a) => a.buffer as ArrayBuffer)];
 }
 
-/** A patch's factors by the Cholesky route (see the top of this file), with its process scale b̂. */
-export interface CholeskyFactor {
-  kind: "cholesky";
-  n: number;
-  nb: number;
-  m: number;
-  qr: Reflector[];
-  rInv: Float64Array;
-  a11: Float64Array;
-  a21: Float64Array;
-  l: Float64Array;
-  b: number;
-  bytes: number;
-}
-
 /** One patch's factors: from the Cholesky route, or (fallback) the bordered inverse. */
 type PatchFactor = CholeskyFactor | { kind: "bordered"; inv: BorderedInverse; b: number; bytes: number };
-
-/** R⁻¹ of an m×m upper-triangular R (row-major), so that a₁ = R⁻ᵀp costs m² per place. */
-function upperInverse(r: Float64Array, m: number): Float64Array {
-  const rInv = new Float64Array(m * m);
-  for (let c = 0; c < m; c++) {
-    for (let i = c; i >= 0; i--) {
-      let s = i === c ? 1 : 0;
-      for (let t = i + 1; t <= c; t++) s -= r[i * m + t] * rInv[t * m + c];
-      rInv[i * m + c] = s / r[i * m + i];
-    }
-  }
-  return rInv;
-}
-
-/**
- * A patch's Cholesky-route factors from its own fit, without refactorising: the fit keeps
- * A₁₁ = Q₁ᵀK̃Q₁, A₁₂ and B (fit/core.ts, keepReduced) and factorised B + λI = LLᵀ for the
- * leave-one-out diagonal (influence.ts); the blocks of Qᵀ(K̃ + λI)Q are A₁₁ + λI, A₂₁ = A₁₂ᵀ and
- * B + λI (Q is orthogonal). b̂ is the fit's process scale (processScale, the same quantity).
- */
-export function factorFromFit(state: FitState, lambda: number, l: Float64Array, b: number): CholeskyFactor {
-  const { n, m, qr, r, a11: a, a12 } = state;
-  const nb = n - m;
-  const a11 = Float64Array.from(a!);
-  for (let i = 0; i < m; i++) a11[i * m + i] += lambda;
-  const a21 = new Float64Array(nb * m);
-  for (let i = 0; i < nb; i++) for (let t = 0; t < m; t++) a21[i * m + t] = a12![t * nb + i];
-  return { kind: "cholesky", n, nb, m, qr, rInv: upperInverse(r, m), a11, a21, l, b, bytes: 0 };
-}
 
 /** k = D k(x) at patch-frame (x, y) for members a … a + n − 1 of pu, pv (kernel φ at ε²ρ², weights √ω or none). */
 export function placeKernel(phi: (r2: number) => number, eps2: number, pu: Float64Array, pv: Float64Array, sw: Float64Array | undefined, a: number, x: number, y: number, k: Float64Array): void {
@@ -153,33 +104,6 @@ export function placeKernel(phi: (r2: number) => number, eps2: number, pu: Float
     const du = x - pu[a + t], dv = y - pv[a + t];
     k[t] = phi(eps2 * (du * du + dv * dv)) * (sw ? sw[a + t] : 1);
   }
-}
-
-/**
- * sᵀM⁻¹s = 2 t₁ᵀa₁ − a₁ᵀA₁₁a₁ + ‖L⁻¹(t₂ − A₂₁a₁)‖² for s = [k; p] (the top of this file); `k` is
- * overwritten by Qᵀk, `a1` (m) and `z` (≥ n − m) are scratch.
- */
-export function choleskyQuadratic(f: CholeskyFactor, k: Float64Array, tr: Float64Array, a1: Float64Array, z: Float64Array): number {
-  const m = f.m;
-  for (const refl of f.qr) applyReflector(refl, k);
-  let q = 0;
-  for (let i = 0; i < m; i++) {
-    let s = 0;
-    for (let t = 0; t <= i; t++) s += f.rInv[t * m + i] * tr[t];
-    a1[i] = s;
-    q += 2 * k[i] * s;
-  }
-  for (let i = 0; i < m; i++) for (let t = 0; t < m; t++) q -= a1[i] * f.a11[i * m + t] * a1[t];
-  const nb = f.nb, l = f.l;
-  for (let i = 0; i < nb; i++) {
-    let s = k[m + i];
-    for (let t = 0; t < m; t++) s -= f.a21[i * m + t] * a1[t];
-    const row = i * nb;
-    for (let t = 0; t < i; t++) s -= l[row + t] * z[t];
-    z[i] = s / l[row + i];
-    q += z[i] * z[i];
-  }
-  return q;
 }
 
 /**
@@ -216,38 +140,18 @@ export function localErrorEstimatorPacked(pe: PackedLocalErrors, places?: PlaceE
 
   /** Patch j by the Cholesky route (see the top of this file); undefined when B is not positive definite. */
   const choleskyFactor = (j: number): PatchFactor | undefined => {
-    const a = start[j], n = start[j + 1] - a, nb = n - m;
-    const u = pu.subarray(a, a + n), v = pv.subarray(a, a + n);
-    const sw = pe.sqrtW.length ? pe.sqrtW.subarray(a, a + n) : undefined;
-    const row = new Float64Array(Math.max(m, 1));
-    const p = new Float64Array(n * m);
-    for (let i = 0; i < n; i++) {
-      trendRow(u[i], v[i], m, row);
-      for (let t = 0; t < m; t++) p[i * m + t] = row[t] * (sw ? sw[i] : 1);
-    }
-    const { reflectors: qr, r } = householderQR(p, n, m);
+    const a = start[j], n = start[j + 1] - a;
     // φ at ε²ρ with φ written for ε = 1 (the thin-plate spline's patches have ε = 1).
-    const k = weightedKernelMatrix(packed.kernel, Math.sqrt(e2[j]), u, v, sw);
-    for (let i = 0; i < n; i++) k[i * n + i] += pe.lambda[j];
-    for (const refl of qr) reflectSymmetric(k, n, refl);
-    const a11 = new Float64Array(m * m), a21 = new Float64Array(nb * m), l = new Float64Array(nb * nb);
-    for (let i = 0; i < m; i++) for (let t = 0; t < m; t++) a11[i * m + t] = k[i * n + t];
-    for (let i = 0; i < nb; i++) {
-      for (let t = 0; t < m; t++) a21[i * m + t] = k[(m + i) * n + t];
-      for (let t = 0; t <= i; t++) l[i * nb + t] = k[(m + i) * n + m + t];
-    }
-    if (!cholesky(l, nb)) return undefined;
-    const rInv = upperInverse(r, m);
-    // b̂ = ‖L⁻¹ (Qᵀ D y)₂‖² / (n − m).
-    const qy = Float64Array.from(pe.y.subarray(a, a + n));
-    if (sw) for (let i = 0; i < n; i++) qy[i] *= sw[i];
-    for (const refl of qr) applyReflector(refl, qy);
-    const z = forward(l, nb, qy.subarray(m));
-    let zz = 0;
-    for (let i = 0; i < nb; i++) zz += z[i] * z[i];
-    const b = Math.max(zz, 0) / Math.max(n - m, 1);
-    const bytes = 8 * (nb * nb + nb * m + 2 * m * m + m * n);
-    return { kind: "cholesky", n, nb, m, qr, rInv, a11, a21, l, b, bytes } satisfies CholeskyFactor;
+    return choleskyFactorOf({
+      kernel: packed.kernel,
+      epsilonScaled: Math.sqrt(e2[j]),
+      u: pu.subarray(a, a + n),
+      v: pv.subarray(a, a + n),
+      sqrtW: pe.sqrtW.length ? pe.sqrtW.subarray(a, a + n) : undefined,
+      y: pe.y.subarray(a, a + n),
+      lambda: pe.lambda[j],
+      m,
+    });
   };
 
   /** Patch j refitted at its own shape and λ, with its bordered inverse (the fit's own route). */
@@ -424,14 +328,3 @@ export function subsetLocalErrors(pe: PackedLocalErrors, patches: Int32Array, bo
   };
 }
 
-/** Forward substitution L z = r for lower-triangular L (row-major nb×nb). */
-function forward(l: Float64Array, nb: number, r: Float64Array): Float64Array {
-  const z = new Float64Array(nb);
-  for (let i = 0; i < nb; i++) {
-    let s = r[i];
-    const row = i * nb;
-    for (let t = 0; t < i; t++) s -= l[row + t] * z[t];
-    z[i] = s / l[row + i];
-  }
-  return z;
-}

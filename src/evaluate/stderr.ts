@@ -14,16 +14,17 @@
 // Assumptions: the kernel describes the surface's spatial correlation, errors are independent with
 // the stated weights, and the model (kernel, shape, trend) is right. The figure is a model-based
 // error of the surface, not a survey tolerance; a new reading at x would scatter by a further σ.
-import { fitCore, type GlobalFactors } from "../fit/core.ts";
+import { fitCore } from "../fit/core.ts";
 import { borderedInverse, borderedQuadratic, processScale } from "../fit/influence.ts";
 import { kernelOfSquared, trendRow, trendTerms } from "../fit/kernels.ts";
 import { transformedValues } from "../fit/prepare.ts";
 import type { GlobalModel, SurfaceModel } from "../model/model.ts";
-import type { GridSpec, GridValues } from "../types.ts";
+import type { GridSpec, GridValues, TrendName } from "../types.ts";
 import type { GridWindow } from "./grid.ts";
 import { makeEvaluator } from "./evaluate.ts";
 import { coordinateMapper, scaledCentres } from "./global.ts";
 import { localErrorBuffers, localErrorEstimator, type PackedLocalErrors, packLocalErrors, type PlaceErrors } from "./local_stderr.ts";
+import { choleskyFactorOf, choleskyQuadratic, type SystemOfFit } from "./null_space.ts";
 import { runWorker, workersAvailable } from "../workers.ts";
 
 export interface ErrorEstimator {
@@ -38,47 +39,60 @@ export interface ErrorEstimator {
 }
 
 /**
- * The error estimator of a model, through the method that made it. `factors` are those the fit of
- * this run already has (fitSurfaceWithFactors); without them (a model read from a file) the system
- * is factorised once more at the model's own λ (O(N³), no search). For a local model, `places` are
- * the patch errors its fit computed at the nodes of this run's error lattice (local_stderr.ts).
+ * The error estimator of a model, through the method that made it. A global model's system is
+ * factorised once more at the model's own shape and λ by the Cholesky route (null_space.ts: about
+ * N³/6 multiply-adds, then N²/2 per place); for a local model, `places` are the patch errors its fit
+ * computed at the nodes of this run's error lattice (local_stderr.ts).
  */
-export function makeErrorEstimator(model: SurfaceModel, factors?: GlobalFactors, places?: PlaceErrors): ErrorEstimator {
+export function makeErrorEstimator(model: SurfaceModel, places?: PlaceErrors): ErrorEstimator {
   switch (model.method) {
     case "global":
-      return globalErrorEstimator(model, factors);
+      return globalErrorEstimator(model);
     case "local":
       return localErrorEstimator(model, places);
   }
 }
 
-/** The global fit's factors, recomputed from a model file at the model's own shape and λ. */
-function refactorise(model: GlobalModel): GlobalFactors {
+/** The global model's system as fitted: scaled centres, scaled values, weights, shape and λ. */
+function systemOfModel(model: GlobalModel): SystemOfFit & { zs: number; trend: TrendName } {
   const { zc, zs } = model.global.scaling;
   const { u, v } = scaledCentres(model);
   const values = transformedValues({ z: Float64Array.from(model.points.z), lines: model.points.line }, model.transform);
   const y = Float64Array.from(values, (z) => (z - zc) / zs);
   const sqrtW = model.points.weight ? Float64Array.from(model.points.weight, Math.sqrt) : undefined;
-  const fit = fitCore(u, v, y, zs, {
-    kernel: model.kernel,
-    trend: model.trend,
-    epsilonScaled: model.global.internal.epsilonScaled,
-    smoothing: model.global.internal.lambdaScaled,
-    lambdaToUser: 1,
-    sqrtWeights: sqrtW,
-  });
-  return { fit, u, v };
+  const { epsilonScaled, lambdaScaled: lambda } = model.global.internal;
+  return { kernel: model.kernel, epsilonScaled, u, v, sqrtW, y, lambda, m: trendTerms(model.trend), zs, trend: model.trend };
 }
 
-function globalErrorEstimator(model: GlobalModel, factors: GlobalFactors = refactorise(model)): ErrorEstimator {
-  const { zs } = model.global.scaling;
-  const n = model.points.x.length;
-  const { fit, u, v } = factors;
-  const sqrtW = fit.state.sqrtW;
-  const inv = borderedInverse(fit, u, v);
-  const m = trendTerms(model.trend);
-  const b = processScale(fit.state);
-  const phi = kernelOfSquared(model.kernel, fit.epsilonScaled);
+/**
+ * φ(0) − sᵀM⁻¹s at a scaled place (k and p filled by the caller) and b̂: by the Cholesky route, or
+ * where B + λI is not numerically positive definite by the bordered inverse of a refit at the
+ * model's λ (fit/influence.ts; O(N³) with a larger constant, N² per place).
+ */
+function globalQuadratic(sys: SystemOfFit & { zs: number; trend: TrendName }): { quadratic: (k: Float64Array, p: Float64Array) => number; b: number } {
+  const f = choleskyFactorOf(sys);
+  if (f) {
+    const a1 = new Float64Array(Math.max(sys.m, 1)), z = new Float64Array(f.nb);
+    return { quadratic: (k, p) => choleskyQuadratic(f, k, p, a1, z), b: f.b };
+  }
+  const fit = fitCore(sys.u, sys.v, sys.y, sys.zs, {
+    kernel: sys.kernel,
+    trend: sys.trend,
+    epsilonScaled: sys.epsilonScaled,
+    smoothing: sys.lambda,
+    lambdaToUser: 1,
+    sqrtWeights: sys.sqrtW,
+  });
+  const inv = borderedInverse(fit, sys.u, sys.v);
+  return { quadratic: (k, p) => borderedQuadratic(inv, k, p), b: processScale(fit.state) };
+}
+
+function globalErrorEstimator(model: GlobalModel): ErrorEstimator {
+  const sys = systemOfModel(model);
+  const { zs, u, v, sqrtW, m } = sys;
+  const n = u.length;
+  const { quadratic, b } = globalQuadratic(sys);
+  const phi = kernelOfSquared(model.kernel, sys.epsilonScaled);
   const phi0 = phi(0);
   const map = coordinateMapper({ scaling: model.global.scaling, stretch: model.stretch });
   const uv = new Float64Array(2);
@@ -92,7 +106,7 @@ function globalErrorEstimator(model: GlobalModel, factors: GlobalFactors = refac
       k[i] = phi(du * du + dv * dv) * (sqrtW ? sqrtW[i] : 1);
     }
     trendRow(uv[0], uv[1], m, p);
-    const q = borderedQuadratic(inv, k, p);
+    const q = quadratic(k, p);
     const se = zs * Math.sqrt(Math.max(b * (phi0 - q), 0));
     if (!estimate) return se;
     // Lognormal: the back-transformed estimate is ẑ = exp(f̂ + σ²/2); a log-scale error se makes it
@@ -261,7 +275,7 @@ const PARALLEL_WORK = 2e8;
 
 /**
  * gridStandardError with the lattice rows split over worker threads (local models; a global model's
- * bordered inverse is N² numbers, which each worker would copy, so it stays in this thread). Each
+ * Cholesky factor is N²/2 numbers, which each worker would copy, so it stays in this thread). Each
  * worker takes one contiguous range of lattice rows and factorises the patches its rows meet;
  * every node is computed by the same code as in gridStandardError, so the grid is identical
  * whatever the number of threads.

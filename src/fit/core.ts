@@ -130,13 +130,6 @@ export interface KernelFit {
   state: FitState;
 }
 
-/** The final fit of the global method with its scaled centres: what its standard errors need. */
-export interface GlobalFactors {
-  fit: KernelFit;
-  u: Float64Array;
-  v: Float64Array;
-}
-
 /** Factorisation pieces reused after λ is chosen. */
 export interface FitState {
   n: number; // N points

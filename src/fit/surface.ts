@@ -9,7 +9,7 @@ import { MODEL_FORMAT, MODEL_VERSION, type SurfaceModel } from "../model/model.t
 import type { CleanPoints, TrendName, KernelName } from "../types.ts";
 import { dataSnooping } from "./blunders.ts";
 import { type CandidateScore, type FittedCandidate, fitOne, type KernelGroup, rankGroup } from "./candidate.ts";
-import { type GlobalFactors, trendProblem } from "./core.ts";
+import { trendProblem } from "./core.ts";
 import { influenceDiagonal, leaveOneOutResiduals } from "./influence.ts";
 import { hasShape } from "./kernels.ts";
 import { fitLocal, fitLocalParallel, LOCAL_AUTO_POINTS, type LocalInput } from "./local/local.ts";
@@ -51,24 +51,22 @@ interface FitPlan {
 }
 
 /**
- * A fitted model with the factors of its system, handed on so that later stages (standard errors)
- * need not factorise again. Models read from a file, and local models (whose standard errors
- * refactorise each patch when first needed), have none.
+ * A fitted model and, for the local method, the patches' standard errors at the places
+ * FitOptions.errorPlaces asked for (computed while each patch's factors were at hand).
  */
 export interface FittedModel {
   model: SurfaceModel;
-  factors?: GlobalFactors;
   /** Local method: patch errors at the places FitOptions.errorPlaces asked for. */
   places?: PlaceErrors;
 }
 
 /** Fit the surface and build the model record. */
 export function fitSurface(points: CleanPoints, options: FitOptions = {}): SurfaceModel {
-  return fitSurfaceWithFactors(points, options).model;
+  return fitSurfaceWithPlaces(points, options).model;
 }
 
-/** fitSurface, also returning the factors of the final fit. */
-export function fitSurfaceWithFactors(points: CleanPoints, options: FitOptions = {}): FittedModel {
+/** fitSurface, also returning the local method's errors at the places asked for. */
+export function fitSurfaceWithPlaces(points: CleanPoints, options: FitOptions = {}): FittedModel {
   const plan = planFit(points, options);
   if (plan.method === "local") return fitLocal(localInput(plan));
   return finishFit(plan, rankHere(plan));
@@ -79,11 +77,11 @@ export function fitSurfaceWithFactors(points: CleanPoints, options: FitOptions =
  * per task). Every candidate is computed by the same code as in fitSurface, so the result is identical.
  */
 export async function fitSurfaceParallel(points: CleanPoints, options: FitOptions = {}, threads = navigator.hardwareConcurrency || 1): Promise<SurfaceModel> {
-  return (await fitSurfaceParallelWithFactors(points, options, threads)).model;
+  return (await fitSurfaceParallelWithPlaces(points, options, threads)).model;
 }
 
-/** fitSurfaceParallel, also returning the factors of the final fit. */
-export async function fitSurfaceParallelWithFactors(points: CleanPoints, options: FitOptions = {}, threads = navigator.hardwareConcurrency || 1): Promise<FittedModel> {
+/** fitSurfaceParallel, also returning the local method's errors at the places asked for. */
+export async function fitSurfaceParallelWithPlaces(points: CleanPoints, options: FitOptions = {}, threads = navigator.hardwareConcurrency || 1): Promise<FittedModel> {
   const plan = planFit(points, options);
   if (plan.method === "local") return await fitLocalParallel(localInput(plan), threads);
   if (plan.candidates.length <= 1 || !workersAvailable(threads)) return finishFit(plan, rankHere(plan));
@@ -347,5 +345,5 @@ function finishFit(plan: FitPlan, outcome: SelectionOutcome | null): FittedModel
       trendCoefficients: Array.from(fit.trendCoefficients),
     },
   };
-  return { model, factors: { fit, u: prep.u, v: prep.v } };
+  return { model };
 }

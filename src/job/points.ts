@@ -19,7 +19,7 @@ import { type BreaklineFile, breaklinesInCrs, readBreaklineFile, selfCrossing } 
 import { stringsFromCodes } from "../clean/strings.ts";
 import { describeLabValues, type LabValues, type NonDetectRule, readLabValues } from "../read/nondetects.ts";
 import { decimalsOf, formatNumber, lengthText } from "../text.ts";
-import { type FitOptions, type FittedModel, fitSurfaceParallelWithFactors } from "../fit/surface.ts";
+import { type FitOptions, type FittedModel, fitSurfaceParallelWithPlaces } from "../fit/surface.ts";
 import { modelFromJson, type SurfaceModel } from "../model/model.ts";
 import { sidecarPath } from "../model/binary.ts";
 import { decodeGeoTiff } from "../read/geotiff.ts";
@@ -336,7 +336,7 @@ export async function fitPointsFile(src: PointsSource, fit: FitOptions = {}, bef
   loaded.notes.push(...breaklineNotes);
   let fitted: FittedModel;
   try {
-    fitted = await fitSurfaceParallelWithFactors(loaded.points, {
+    fitted = await fitSurfaceParallelWithPlaces(loaded.points, {
       ...fit,
       // The isolated-sample search measured the same points' median spacing.
       spacing: loaded.isolation.spacing,

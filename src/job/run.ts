@@ -144,9 +144,10 @@ async function runInto(opts: RunOptions, files: Record<string, string>, inputs: 
   const lines = contourGeoJson(grid, rule, { threeD: opts.threeD, progress: opts.progress });
   const bands = contourGeoJson(grid, rule, { bands: true, progress: opts.progress });
   opts.progress?.("standard errors");
-  // One error estimator serves the estimates table and the error grid, from the fit's own factors.
-  let errorEstimator: ErrorEstimator | undefined = makeErrorEstimator(model, fitted.factors, fitted.places);
-  if (fitted.places && !placesMatch(fitted.places, grid.spec, errorEstimator, model.points.x.length)) errorEstimator = makeErrorEstimator(model, fitted.factors);
+  // One error estimator serves the estimates table and the error grid (a local fit's errors at the
+  // lattice nodes it planned, when the grid's lattice is that one).
+  let errorEstimator: ErrorEstimator | undefined = makeErrorEstimator(model, fitted.places);
+  if (fitted.places && !placesMatch(fitted.places, grid.spec, errorEstimator, model.points.x.length)) errorEstimator = makeErrorEstimator(model);
   const est = await estimateTableParallel(model, locTable, errorEstimator);
   const errors = await gridStandardErrorParallel(model, grid, opts.progress, errorEstimator);
   // Its packed copy of the model and its caches (hundreds of MB at 10⁶ points) are not needed again.

@@ -18,7 +18,8 @@ import {
 } from "../influence.ts";
 import { applyReflector, applyReflectors, solveTridiagonal } from "../linalg.ts";
 import { hasShape, kernelOfSquared, trendRow, trendTerms } from "../kernels.ts";
-import { choleskyQuadratic, factorFromFit, placeKernel } from "../../evaluate/local_stderr.ts";
+import { placeKernel } from "../../evaluate/local_stderr.ts";
+import { choleskyQuadratic, factorFromFit } from "../../evaluate/null_space.ts";
 import type { Prepared } from "../prepare.ts";
 import { robustFit } from "../robust.ts";
 
