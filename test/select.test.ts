@@ -5,7 +5,7 @@ import { describe, expect, it } from "vitest";
 import { inverse, Matrix, solve } from "ml-matrix";
 import { fitSurface, fitSurfaceParallel } from "../src/fit/surface.ts";
 import { evaluateModel } from "../src/evaluate/evaluate.ts";
-import { makeErrorEstimator } from "../src/evaluate/stderr.ts";
+import { errorsAt, makeErrorEstimator } from "../src/evaluate/stderr.ts";
 import type { SurfaceModel } from "../src/model/model.ts";
 import type { CleanPoints } from "../src/types.ts";
 import { franke, makePoints } from "./helpers.ts";
@@ -74,6 +74,21 @@ describe("standard error of the estimate (universal kriging variance; Rasmussen 
     const e2 = model.global.internal.epsilonScaled ** 2;
     const ref = referenceStdError(model, (r2) => 1 / Math.sqrt(1 + e2 * r2), (u, v) => [1, u, v], 0.4, 0.4, se.processScale);
     expect(Math.abs(se.at(0.4, 0.4) - ref)).toBeLessThan(1e-6 * ref);
+  });
+  it("errors at many places (four at a time, one pass over the factor) are the bits of one place at a time; log fits too", () => {
+    const pts = noisy(7, 70);
+    for (const model of [fitSurface(pts, { kernel: "thin-plate", trend: "quadratic" }), fitSurface(pts, { kernel: "gaussian", trend: "linear", shape: 2, transform: "log" })]) {
+      const se = makeErrorEstimator(model);
+      expect(se.atMany).toBeDefined();
+      // 11 places: two full blocks and a partial one, with a place without coordinates among them.
+      const r = mulberry32(9);
+      const x = Float64Array.from({ length: 11 }, () => 1.2 * r() - 0.1), y = Float64Array.from({ length: 11 }, () => 1.2 * r() - 0.1);
+      x[5] = NaN;
+      const out = new Float64Array(11);
+      errorsAt(se, x, y, out);
+      for (let i = 0; i < 11; i++) expect(Object.is(out[i], se.at(x[i], y[i]))).toBe(true);
+      expect(out.filter(Number.isFinite)).toHaveLength(10);
+    }
   });
   it("an interpolating fit has zero error at the data and more error far from it (kriging is exact at data points)", () => {
     const pts = makePoints(40, 6, franke);

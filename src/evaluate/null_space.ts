@@ -153,3 +153,59 @@ export function choleskyQuadratic(f: CholeskyFactor, k: Float64Array, tr: Float6
   }
   return q;
 }
+
+/** Places per block of choleskyQuadraticBlock. */
+export const PLACE_BLOCK = 4;
+
+/**
+ * choleskyQuadratic at PLACE_BLOCK places at once (k: PLACE_BLOCK × n, place b's kernel vector at
+ * b·n; tr: PLACE_BLOCK × m), into q: the forward substitution reads each row of L once for all of
+ * them (a large L does not fit the cache, and one place at a time streams it from memory every time).
+ * Every place's numbers take the same operations in the same order as choleskyQuadratic, so the
+ * results are bit for bit the same. `k` is overwritten; `z` (PLACE_BLOCK × (n − m)) is scratch.
+ * Unused places of a partial block must hold finite numbers (zeros will do).
+ */
+export function choleskyQuadraticBlock(f: CholeskyFactor, k: Float64Array, tr: Float64Array, q: Float64Array, a1: Float64Array, z: Float64Array): void {
+  const { m, n, nb, l, a21 } = f;
+  for (let b = 0; b < PLACE_BLOCK; b++) {
+    const kb = k.subarray(b * n, b * n + n);
+    for (const refl of f.qr) applyReflector(refl, kb);
+    let qb = 0;
+    for (let i = 0; i < m; i++) {
+      let s = 0;
+      for (let t = 0; t <= i; t++) s += f.rInv[t * m + i] * tr[b * m + t];
+      a1[b * m + i] = s;
+      qb += 2 * kb[i] * s;
+    }
+    for (let i = 0; i < m; i++) for (let t = 0; t < m; t++) qb -= a1[b * m + i] * f.a11[i * m + t] * a1[b * m + t];
+    q[b] = qb;
+  }
+  // z is interleaved: z[t·4 + b] is place b's t-th entry.
+  const n1 = n, n2 = 2 * n, n3 = 3 * n, m1 = m, m2 = 2 * m, m3 = 3 * m;
+  let q0 = q[0], q1 = q[1], q2 = q[2], q3 = q[3];
+  for (let i = 0; i < nb; i++) {
+    let s0 = k[m + i], s1 = k[n1 + m + i], s2 = k[n2 + m + i], s3 = k[n3 + m + i];
+    for (let t = 0; t < m; t++) {
+      const c = a21[i * m + t];
+      s0 -= c * a1[t];
+      s1 -= c * a1[m1 + t];
+      s2 -= c * a1[m2 + t];
+      s3 -= c * a1[m3 + t];
+    }
+    const row = i * nb;
+    for (let t = 0; t < i; t++) {
+      const lt = l[row + t], o = 4 * t;
+      s0 -= lt * z[o];
+      s1 -= lt * z[o + 1];
+      s2 -= lt * z[o + 2];
+      s3 -= lt * z[o + 3];
+    }
+    const d = l[row + i], o = 4 * i;
+    const z0 = (z[o] = s0 / d), z1 = (z[o + 1] = s1 / d), z2 = (z[o + 2] = s2 / d), z3 = (z[o + 3] = s3 / d);
+    q0 += z0 * z0;
+    q1 += z1 * z1;
+    q2 += z2 * z2;
+    q3 += z3 * z3;
+  }
+  q[0] = q0, q[1] = q1, q[2] = q2, q[3] = q3;
+}

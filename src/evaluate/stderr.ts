@@ -24,7 +24,7 @@ import type { GridWindow } from "./grid.ts";
 import { makeEvaluator } from "./evaluate.ts";
 import { coordinateMapper, scaledCentres } from "./global.ts";
 import { localErrorBuffers, localErrorEstimator, type PackedLocalErrors, packLocalErrors, type PlaceErrors } from "./local_stderr.ts";
-import { choleskyFactorOf, choleskyQuadratic, type SystemOfFit } from "./null_space.ts";
+import { choleskyFactorOf, choleskyQuadratic, choleskyQuadraticBlock, PLACE_BLOCK, type SystemOfFit } from "./null_space.ts";
 import { runWorker, workersAvailable } from "../workers.ts";
 
 export interface ErrorEstimator {
@@ -36,6 +36,14 @@ export interface ErrorEstimator {
   work?: number;
   /** The error grid's nodes come from the fit's own factors (PlaceErrors): computed in this thread, nothing to factorise. */
   fromFit?: boolean;
+  /** at() at many places into `out` (the same numbers), where the estimator has a faster way than one at a time. */
+  atMany?(x: Float64Array, y: Float64Array, out: Float64Array): void;
+}
+
+/** Standard errors at places (x, y) into `out`: at() one at a time, or the estimator's atMany. */
+export function errorsAt(est: ErrorEstimator, x: Float64Array, y: Float64Array, out: Float64Array): void {
+  if (est.atMany) est.atMany(x, y, out);
+  else for (let i = 0; i < x.length; i++) out[i] = est.at(x[i], y[i]);
 }
 
 /**
@@ -69,11 +77,19 @@ function systemOfModel(model: GlobalModel): SystemOfFit & { zs: number; trend: T
  * where B + λI is not numerically positive definite by the bordered inverse of a refit at the
  * model's λ (fit/influence.ts; O(N³) with a larger constant, N² per place).
  */
-function globalQuadratic(sys: SystemOfFit & { zs: number; trend: TrendName }): { quadratic: (k: Float64Array, p: Float64Array) => number; b: number } {
+function globalQuadratic(sys: SystemOfFit & { zs: number; trend: TrendName }): {
+  quadratic: (k: Float64Array, p: Float64Array) => number;
+  block?: (k: Float64Array, p: Float64Array, q: Float64Array) => void;
+  b: number;
+} {
   const f = choleskyFactorOf(sys);
   if (f) {
-    const a1 = new Float64Array(Math.max(sys.m, 1)), z = new Float64Array(f.nb);
-    return { quadratic: (k, p) => choleskyQuadratic(f, k, p, a1, z), b: f.b };
+    const a1 = new Float64Array(Math.max(sys.m, 1) * PLACE_BLOCK), z = new Float64Array(f.nb * PLACE_BLOCK);
+    return {
+      quadratic: (k, p) => choleskyQuadratic(f, k, p, a1, z),
+      block: (k, p, q) => choleskyQuadraticBlock(f, k, p, q, a1, z),
+      b: f.b,
+    };
   }
   const fit = fitCore(sys.u, sys.v, sys.y, sys.zs, {
     kernel: sys.kernel,
@@ -91,30 +107,68 @@ function globalErrorEstimator(model: GlobalModel): ErrorEstimator {
   const sys = systemOfModel(model);
   const { zs, u, v, sqrtW, m } = sys;
   const n = u.length;
-  const { quadratic, b } = globalQuadratic(sys);
+  const { quadratic, block, b } = globalQuadratic(sys);
   const phi = kernelOfSquared(model.kernel, sys.epsilonScaled);
   const phi0 = phi(0);
   const map = coordinateMapper({ scaling: model.global.scaling, stretch: model.stretch });
   const uv = new Float64Array(2);
-  const k = new Float64Array(n);
-  const p = new Float64Array(Math.max(m, 1));
+  const mm = Math.max(m, 1);
+  const k = new Float64Array(n * PLACE_BLOCK);
+  const p = new Float64Array(mm * PLACE_BLOCK);
+  const q = new Float64Array(PLACE_BLOCK);
   const estimate = model.transform === "log" ? makeEvaluator(model) : undefined;
-  const at = (x: number, yy: number): number => {
+  /** s = [D k(x); p(x)] of the place (x, y) into slot `slot` of k and p. */
+  const fill = (x: number, yy: number, slot: number) => {
     map(x, yy, uv);
+    const o = slot * n;
     for (let i = 0; i < n; i++) {
       const du = uv[0] - u[i], dv = uv[1] - v[i];
-      k[i] = phi(du * du + dv * dv) * (sqrtW ? sqrtW[i] : 1);
+      k[o + i] = phi(du * du + dv * dv) * (sqrtW ? sqrtW[i] : 1);
     }
-    trendRow(uv[0], uv[1], m, p);
-    const q = quadratic(k, p);
-    const se = zs * Math.sqrt(Math.max(b * (phi0 - q), 0));
+    trendRow(uv[0], uv[1], m, p.subarray(slot * mm, slot * mm + mm));
+  };
+  const errorOf = (x: number, yy: number, quad: number): number => {
+    const se = zs * Math.sqrt(Math.max(b * (phi0 - quad), 0));
     if (!estimate) return se;
     // Lognormal: the back-transformed estimate is ẑ = exp(f̂ + σ²/2); a log-scale error se makes it
     // lognormal with relative standard deviation √(exp(se²) − 1) (Aitchison & Brown 1957, moments of
     // the lognormal), so its standard error is ẑ·√(exp(se²) − 1) — positive, in value units.
     return estimate.at(x, yy) * Math.sqrt(Math.expm1(se * se));
   };
-  return { at, processScale: b };
+  const at = (x: number, yy: number): number => {
+    fill(x, yy, 0);
+    return errorOf(x, yy, quadratic(k.subarray(0, n), p.subarray(0, mm)));
+  };
+  // Places PLACE_BLOCK at a time (choleskyQuadraticBlock: the same numbers as at()); places whose
+  // coordinates are not finite one at a time after the blocks (at() uses the first slot).
+  const atMany = block
+    ? (xs: Float64Array, ys: Float64Array, out: Float64Array): void => {
+      const slots = new Int32Array(PLACE_BLOCK);
+      let used = 0;
+      const flush = () => {
+        for (let s = used; s < PLACE_BLOCK; s++) {
+          k.fill(0, s * n, s * n + n);
+          p.fill(0, s * mm, s * mm + mm);
+        }
+        block(k, p, q);
+        for (let s = 0; s < used; s++) out[slots[s]] = errorOf(xs[slots[s]], ys[slots[s]], q[s]);
+        used = 0;
+      };
+      const skipped: number[] = [];
+      for (let i = 0; i < xs.length; i++) {
+        if (!(Number.isFinite(xs[i]) && Number.isFinite(ys[i]))) {
+          skipped.push(i);
+          continue;
+        }
+        fill(xs[i], ys[i], used);
+        slots[used++] = i;
+        if (used === PLACE_BLOCK) flush();
+      }
+      if (used > 0) flush();
+      for (const i of skipped) out[i] = at(xs[i], ys[i]);
+    }
+    : undefined;
+  return { at, atMany, processScale: b };
 }
 
 /** Work (cells × the estimator's work per cell, N² for the global method) above which the error grid is computed on a coarser lattice and interpolated. */
@@ -155,12 +209,19 @@ export function errorsAtNodes(
 ): void {
   const { cols, stride } = lattice;
   const at = latticePlaces(spec, lattice);
+  const xs = new Float64Array(cols.length), ys = new Float64Array(cols.length), se = new Float64Array(cols.length);
+  const index = new Int32Array(cols.length);
   for (let i = from; i < to; i++) {
-    const y = at.y[i];
+    // The row's nodes to compute (with stride 1, its unmasked cells), all at once (errorsAt).
+    let count = 0;
     for (let j = 0; j < cols.length; j++) {
       const k = (i - from) * cols.length + j;
-      out[k] = stride === 1 && masked && masked[k] ? NaN : est.at(at.x[j], y);
+      out[k] = NaN;
+      if (stride === 1 && masked && masked[k]) continue;
+      xs[count] = at.x[j], ys[count] = at.y[i], index[count++] = k;
     }
+    errorsAt(est, xs.subarray(0, count), ys.subarray(0, count), se);
+    for (let c = 0; c < count; c++) out[index[c]] = se[c];
     onRow?.(i);
   }
 }

@@ -4,7 +4,7 @@ import { ExitCode, RbfieldError } from "../errors.ts";
 import { makeEvaluator } from "../evaluate/evaluate.ts";
 import { evaluatePlacesParallel, placeOrder } from "../evaluate/parallel.ts";
 import { extrapolationNote, FAR_SPACINGS, makeExtrapolationCheck } from "../evaluate/extrapolation.ts";
-import { type ErrorEstimator, makeErrorEstimator } from "../evaluate/stderr.ts";
+import { type ErrorEstimator, errorsAt, makeErrorEstimator } from "../evaluate/stderr.ts";
 import { describeCrs } from "../crs/crs.ts";
 import { projectTable } from "../read/project.ts";
 import { formatUncertainty, lengthText } from "../text.ts";
@@ -89,7 +89,13 @@ export function estimateTable(
   // the patches it factorised in a bounded cache, which places in file order would keep evicting
   // (20,000 random places at 10⁵ points: 20 s in file order).
   const seAt = se ? new Float64Array(rows) : null;
-  if (se && seAt) for (const i of order ?? placeOrder(xs, ys)) seAt[i] = Number.isFinite(xs[i]) && Number.isFinite(ys[i]) ? se.at(xs[i], ys[i]) : NaN;
+  if (se && seAt) {
+    const usable = Int32Array.from(order ?? placeOrder(xs, ys)).filter((i) => Number.isFinite(xs[i]) && Number.isFinite(ys[i]));
+    const out = new Float64Array(usable.length);
+    errorsAt(se, Float64Array.from(usable, (i) => xs[i]), Float64Array.from(usable, (i) => ys[i]), out);
+    seAt.fill(NaN);
+    usable.forEach((i, r) => (seAt[i] = out[r]));
+  }
   table.lines.forEach((_line, i) => {
     const x = xs[i], y = ys[i];
     const value = values ? values[i] : Number.isFinite(x) && Number.isFinite(y) ? ev!.at(x, y) : NaN;
