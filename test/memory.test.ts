@@ -211,11 +211,14 @@ describe.skipIf(skipTime)("the estimate against the measured peak (GNU time)", (
     expect(estimate, `${label}: the estimate is above 3 × the measured peak`).toBeLessThanOrEqual(3 * r.peak);
   }
 
-  it("global: an automatic fit of 1,500 points", () => {
+  it("global: an automatic fit of 1,500 points, then its grid with standard errors (the system factorised again)", () => {
     const file = pointsCsv("g1500.csv", 1500, 15);
-    const r = measure(["fit", file, "--out", path.join(tmp, "g1500.rbfield.json"), "--method", "global"]);
+    const model = path.join(tmp, "g1500.rbfield.json");
+    const r = measure(["fit", file, "--out", model, "--method", "global"]);
     expect(r.json.method).toBe("global");
     check("global fit, 1,500 points", r);
+    const grid = measure(["grid", model, "--out", path.join(tmp, "g1500.tif"), "--stderr", path.join(tmp, "g1500.se.tif"), "--cell", "4", "--mask", "none"]);
+    check("global grid with standard errors, 1,500 points", grid);
   });
 
   it("local: an automatic fit of 20,000 points, then its 500 × 500 grid with standard errors", () => {

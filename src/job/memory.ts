@@ -41,11 +41,12 @@ export const RANK_WORKER_BYTES = 45 * MiB;
  * and the reflectors (8 + 8 + 4), then the leave-one-out Cholesky factor and its inverse. Measured
  * (peak less the process) 25–60 between 1,000 and 3,000 points, falling with n; taken as 40: the
  * whole estimate was 1.07–1.9 × the peak for automatic fits of 500–3,000 points. The standard errors
- * add the bordered inverse (Zᵀ, Y, G and the kernel matrix again, 4 × 8): a run 60, a model read
- * from a file and refactorised 60.
+ * factorise once more (evaluate/null_space.ts: the kernel matrix, then its Cholesky factor, 8 + 8)
+ * after the fit's matrices are gone: taken as 40 too. Measured `run --method global` peaks 467, 493
+ * and 1,188 MiB at 2,000, 3,000 and 5,000 points against estimates of 626 MiB, 856 MiB and 1.6 GiB.
  */
 export const GLOBAL_FIT_PER_N2 = 40;
-export const GLOBAL_ERRORS_PER_N2 = 60;
+export const GLOBAL_ERRORS_PER_N2 = 40;
 /**
  * From SPLIT_MIN points the reduction, the Cholesky factorisation and the inverse work on a copy of
  * their matrix that the helper thread shares (fit/tridiag_split.ts): 8 more bytes per n². Measured:
