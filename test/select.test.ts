@@ -75,6 +75,22 @@ describe("standard error of the estimate (universal kriging variance; Rasmussen 
     const ref = referenceStdError(model, (r2) => 1 / Math.sqrt(1 + e2 * r2), (u, v) => [1, u, v], 0.4, 0.4, se.processScale);
     expect(Math.abs(se.at(0.4, 0.4) - ref)).toBeLessThan(1e-6 * ref);
   });
+  it("at the readings, the errors the fit stored (b̂λAᵢᵢ/ωᵢ) match the GP formula, and a model without them computes the same", () => {
+    const pts = noisy(12, 60);
+    const weights = Float64Array.from({ length: 60 }, (_, i) => (i % 4 === 0 ? 3 : 1));
+    // Smoothing given large enough that the reference's explicit inverse keeps its digits at the readings.
+    const model = fitSurface(pts, { kernel: "gaussian", trend: "linear", shape: 2, weights, smoothing: 0.05 });
+    expect(model.global.pointStdErrors).toHaveLength(60);
+    const se = makeErrorEstimator(model);
+    const bare = makeErrorEstimator({ ...model, global: { ...model.global, pointStdErrors: undefined } });
+    const e2 = model.global.internal.epsilonScaled ** 2;
+    for (const i of [0, 1, 4, 33]) {
+      const ref = referenceStdError(model, (r2) => Math.exp(-e2 * r2), (u, v) => [1, u, v], pts.x[i], pts.y[i], se.processScale);
+      expect(se.at(pts.x[i], pts.y[i])).toBe(model.global.pointStdErrors![i]);
+      expect(Math.abs(se.at(pts.x[i], pts.y[i]) - ref)).toBeLessThan(1e-6 * ref);
+      expect(Math.abs(bare.at(pts.x[i], pts.y[i]) - ref)).toBeLessThan(1e-6 * ref);
+    }
+  });
   it("errors at many places (four at a time, one pass over the factor) are the bits of one place at a time; log fits too", () => {
     const pts = noisy(7, 70);
     for (const model of [fitSurface(pts, { kernel: "thin-plate", trend: "quadratic" }), fitSurface(pts, { kernel: "gaussian", trend: "linear", shape: 2, transform: "log" })]) {

@@ -26,6 +26,7 @@ import { coordinateMapper, scaledCentres } from "./global.ts";
 import { localErrorBuffers, localErrorEstimator, type PackedLocalErrors, packLocalErrors, type PlaceErrors } from "./local_stderr.ts";
 import { choleskyFactorOf, choleskyQuadratic, choleskyQuadraticBlock, PLACE_BLOCK, type SystemOfFit } from "./null_space.ts";
 import { runWorker, workersAvailable } from "../workers.ts";
+import { exactPointLookup } from "../geometry.ts";
 
 export interface ErrorEstimator {
   /** Standard error of the estimate at a map coordinate (value units; back-transformed for log fits). */
@@ -127,8 +128,11 @@ function globalErrorEstimator(model: GlobalModel): ErrorEstimator {
     }
     trendRow(uv[0], uv[1], m, p.subarray(slot * mm, slot * mm + mm));
   };
-  const errorOf = (x: number, yy: number, quad: number): number => {
-    const se = zs * Math.sqrt(Math.max(b * (phi0 - quad), 0));
+  // At a reading, the error the fit stored there (GlobalPart.pointStdErrors), when the model has them.
+  const stored = model.global.pointStdErrors;
+  const pointAt = stored ? exactPointLookup(model.points.x, model.points.y) : () => -1;
+  const errorOf = (x: number, yy: number, quad: number): number => backTransform(x, yy, zs * Math.sqrt(Math.max(b * (phi0 - quad), 0)));
+  const backTransform = (x: number, yy: number, se: number): number => {
     if (!estimate) return se;
     // Lognormal: the back-transformed estimate is ẑ = exp(f̂ + σ²/2); a log-scale error se makes it
     // lognormal with relative standard deviation √(exp(se²) − 1) (Aitchison & Brown 1957, moments of
@@ -136,11 +140,13 @@ function globalErrorEstimator(model: GlobalModel): ErrorEstimator {
     return estimate.at(x, yy) * Math.sqrt(Math.expm1(se * se));
   };
   const at = (x: number, yy: number): number => {
+    const i = pointAt(x, yy);
+    if (i >= 0) return backTransform(x, yy, stored![i]);
     fill(x, yy, 0);
     return errorOf(x, yy, quadratic(k.subarray(0, n), p.subarray(0, mm)));
   };
-  // Places PLACE_BLOCK at a time (choleskyQuadraticBlock: the same numbers as at()); places whose
-  // coordinates are not finite one at a time after the blocks (at() uses the first slot).
+  // Places PLACE_BLOCK at a time (choleskyQuadraticBlock: the same numbers as at()); readings and
+  // places whose coordinates are not finite one at a time after the blocks (at() uses the first slot).
   const atMany = block
     ? (xs: Float64Array, ys: Float64Array, out: Float64Array): void => {
       const slots = new Int32Array(PLACE_BLOCK);
@@ -156,7 +162,7 @@ function globalErrorEstimator(model: GlobalModel): ErrorEstimator {
       };
       const skipped: number[] = [];
       for (let i = 0; i < xs.length; i++) {
-        if (!(Number.isFinite(xs[i]) && Number.isFinite(ys[i]))) {
+        if (!(Number.isFinite(xs[i]) && Number.isFinite(ys[i])) || pointAt(xs[i], ys[i]) >= 0) {
           skipped.push(i);
           continue;
         }

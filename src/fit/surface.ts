@@ -10,7 +10,7 @@ import type { CleanPoints, TrendName, KernelName } from "../types.ts";
 import { dataSnooping } from "./blunders.ts";
 import { type CandidateScore, type FittedCandidate, fitOne, type KernelGroup, rankGroup } from "./candidate.ts";
 import { trendProblem } from "./core.ts";
-import { influenceDiagonal, leaveOneOutResiduals } from "./influence.ts";
+import { influenceDiagonal, leaveOneOutResiduals, processScale } from "./influence.ts";
 import { hasShape } from "./kernels.ts";
 import { fitLocal, fitLocalParallel, LOCAL_AUTO_POINTS, type LocalInput } from "./local/local.ts";
 import type { PlaceErrors } from "../evaluate/local_stderr.ts";
@@ -255,6 +255,10 @@ function finishFit(plan: FitPlan, outcome: SelectionOutcome | null): FittedModel
   const level = options.flagLevel ?? 0.05;
   const snoop = dataSnooping(fit.state, fit.lambdaScaled, gii, level);
   const looRmse = looN > 0 ? Math.sqrt(looSs / looN) : NaN;
+  // Standard errors at the readings: φ(0) − sᵀM⁻¹s = λAᵢᵢ/ωᵢ there with Aᵢᵢ = 1 − λG̃ᵢᵢ (evaluate/stderr.ts),
+  // exact where the estimator's general formula loses digits to cancellation.
+  const b = processScale(fit.state), lam = fit.lambdaScaled, fitW = fit.state.sqrtW;
+  const pointSe = Array.from(gii, (g, i) => sc.zs * Math.sqrt(Math.max((b * lam * (1 - lam * g)) / (fitW ? fitW[i] * fitW[i] : 1), 0)));
 
   const hull = convexHullRing(points.x, points.y);
   const extent = boundingBox(points.x, points.y);
@@ -343,6 +347,7 @@ function finishFit(plan: FitPlan, outcome: SelectionOutcome | null): FittedModel
       internal: { epsilonScaled: fit.epsilonScaled, lambdaScaled: fit.lambdaScaled },
       weights: Array.from(fit.weights),
       trendCoefficients: Array.from(fit.trendCoefficients),
+      ...(pointSe.every(Number.isFinite) ? { pointStdErrors: pointSe } : {}),
     },
   };
   return { model };

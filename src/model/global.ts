@@ -12,6 +12,12 @@ export interface GlobalPart {
   /** RBF weights (one per point) and trend coefficients, scaled units. */
   weights: number[];
   trendCoefficients: number[];
+  /**
+   * Standard error of the surface at each data point, from the fit: zs √(b̂ λ Aᵢᵢ / ωᵢ) (at a reading
+   * φ(0) − sᵀM⁻¹s = λAᵢᵢ/ωᵢ, Aᵢᵢ the hat diagonal; evaluate/stderr.ts), in value units (log units for
+   * log fits, before the back-transform). Optional (added within version 2; absent in earlier models).
+   */
+  pointStdErrors?: number[];
 }
 
 const finite = (v: unknown): v is number => typeof v === "number" && Number.isFinite(v);
@@ -38,6 +44,9 @@ export function checkGlobalPart(part: unknown, n: number, trend: TrendName, bad:
     !(finite(internal.lambdaScaled) && internal.lambdaScaled >= 0 && internal.lambdaScaled < 1e200)
   ) {
     throw bad("shape or smoothing missing or not numbers");
+  }
+  if (g.pointStdErrors !== undefined && !(finiteArray(g.pointStdErrors, n) && g.pointStdErrors.every((e) => e >= 0 && e < 1e200))) {
+    throw bad("standard errors at the points are not one number ≥ 0 per point");
   }
   return g as GlobalPart;
 }
