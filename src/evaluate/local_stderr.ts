@@ -11,7 +11,7 @@
 // the global method's standard error: see DEVELOPERS.md, "Local method".
 //
 // Each patch's quadratic form sᵀMⱼ⁻¹s comes from one Cholesky factor by the null-space method
-// (null_space.ts, shared with the global method's errors): (n − m)³/3 multiply-adds per patch (the
+// (null_space.ts, shared with the global method's errors): (n − m)³/6 multiply-adds per patch (the
 // fit's tridiagonal reduction and explicit inverse took about 5n³) and (n − m)²/2 per patch and place
 // (the explicit inverse took n²). Where the Cholesky factorisation fails (B not numerically positive
 // definite) the patch is refitted and its bordered inverse formed (fitCore, borderedInverse).

@@ -8,7 +8,7 @@
 //   sᵀM⁻¹s = 2 t₁ᵀa₁ − a₁ᵀA₁₁a₁ + ‖L⁻¹(t₂ − A₂₁a₁)‖²,
 // and the process scale b̂ = ỹᵀw̃/(n − m) = ‖L⁻¹ (Qᵀ D y)₂‖²/(n − m) (processScale in fit/influence.ts).
 // The standard error of the estimate at x is then √(b̂ (φ(0) − sᵀM⁻¹s)) in scaled units (universal
-// kriging with generalised covariance b·φ; Rasmussen & Williams 2006, eq. 2.42). Cost: (n − m)³/3
+// kriging with generalised covariance b·φ; Rasmussen & Williams 2006, eq. 2.42). Cost: (n − m)³/6
 // multiply-adds once (the factorisation), about (n − m)²/2 per place (one forward substitution).
 import { applyReflector, cholesky, householderQR, type Reflector, reflectSymmetric } from "../fit/linalg.ts";
 import type { FitState } from "../fit/core.ts";
