@@ -456,4 +456,30 @@ describe("the grid of a map or report drawn from a model", () => {
     // A sparse survey (40 m apart): its default 5 m cell stays.
     expect(drawingCell(fake(40))).toBe(5);
   });
+
+  // run draws its own (possibly much finer) grid on the map and in the report through drawingView.
+  // The mean of a linear function over a block of cell centres is its value at the block's centre
+  // (the centroid of points placed symmetrically about it): an exact check of the block means.
+  it("a run's grid is drawn in blocks of k × k cells, their means, masked where any cell is", async () => {
+    const { drawingView } = await import("../src/evaluate/grid.ts");
+    const cols = 2500, rows = 7, cell = 0.5, xmin = 100, ymax = 50;
+    const f = (x: number, y: number) => 3 + 0.25 * x - 0.5 * y;
+    const values = new Float64Array(cols * rows);
+    for (let r = 0; r < rows; r++) for (let c = 0; c < cols; c++) values[r * cols + c] = f(xmin + (c + 0.5) * cell, ymax - (r + 0.5) * cell);
+    values[4 * cols + 10] = NaN; // masks block (row 1, column 3) of the k = 3 blocks
+    const grid = { spec: { xmin, ymin: ymax - rows * cell, xmax: xmin + cols * cell, ymax, cell, cols, rows }, values, crs: { label: "local" } };
+    const view = drawingView(grid);
+    // k = ⌈2500 / 1000⌉ = 3: 834 × 3 blocks of 1.5 units, the north-west corner kept.
+    expect(view.spec).toEqual({ xmin, ymax, cell: 1.5, cols: 834, rows: 3, xmax: xmin + 834 * 1.5, ymin: ymax - 3 * 1.5 });
+    for (let r = 0; r < 2; r++) {
+      for (let c = 0; c < 833; c++) {
+        const v = view.values[r * 834 + c];
+        if (r === 1 && c === 3) expect(v).toBeNaN();
+        else expect(Math.abs(v - f(xmin + (c + 0.5) * 1.5, ymax - (r + 0.5) * 1.5))).toBeLessThan(1e-9);
+      }
+    }
+    // A grid of at most 1000 cells a side is drawn as it is.
+    const small = { ...grid, spec: { ...grid.spec, cols: 1000, rows: 7 }, values: values.subarray(0, 7000) };
+    expect(drawingView(small)).toBe(small);
+  });
 });

@@ -27,6 +27,36 @@ export function defaultCell(model: SurfaceModel): number {
  */
 export const DRAWING_CELLS = 1000;
 
+/**
+ * A grid as it is drawn (the run's map and report): unchanged up to DRAWING_CELLS cells along the
+ * longer side; above, blocks of k × k cells (k = ⌈longer side / DRAWING_CELLS⌉; partial blocks at the
+ * east and south edges) become one cell holding their mean, masked when any of them is. The block
+ * mean of a surface's cell values is its value at the block's centre to second order, and the sheet
+ * cannot show the difference; the grid files keep every cell.
+ */
+export function drawingView(grid: GridValues): GridValues {
+  const { spec, values } = grid;
+  const k = Math.ceil(Math.max(spec.cols, spec.rows) / DRAWING_CELLS);
+  if (k <= 1) return grid;
+  const cols = Math.ceil(spec.cols / k), rows = Math.ceil(spec.rows / k), cell = spec.cell * k;
+  const sum = new Float64Array(cols * rows), count = new Float64Array(cols * rows);
+  for (let r = 0; r < spec.rows; r++) {
+    const o = Math.floor(r / k) * cols;
+    for (let c = 0; c < spec.cols; c++) {
+      const b = o + Math.floor(c / k);
+      sum[b] += values[r * spec.cols + c];
+      count[b]++;
+    }
+  }
+  // NaN in any cell of a block makes its sum NaN: the block is masked.
+  const out = Float64Array.from(sum, (s, b) => s / count[b]);
+  return {
+    spec: { xmin: spec.xmin, ymax: spec.ymax, xmax: spec.xmin + cols * cell, ymin: spec.ymax - rows * cell, cell, cols, rows },
+    values: out,
+    crs: grid.crs,
+  };
+}
+
 /** The cell of a grid made only to be drawn: the default cell, or coarser so the longer side has about DRAWING_CELLS cells. */
 export function drawingCell(model: SurfaceModel, options: GridLayoutOptions = {}): number {
   const cell = defaultCell(model);

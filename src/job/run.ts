@@ -7,7 +7,7 @@ import { gridModelParallel } from "../evaluate/parallel.ts";
 import { errorLattice, type ErrorEstimator, gridStandardErrorParallel, latticePlaces, makeErrorEstimator, placesMatch } from "../evaluate/stderr.ts";
 import { valueRange } from "../numbers.ts";
 import { type MaskFile } from "../read/mask.ts";
-import { gridLayout, type GridOptions } from "../evaluate/grid.ts";
+import { drawingView, gridLayout, type GridOptions } from "../evaluate/grid.ts";
 import type { GridSpec } from "../types.ts";
 import { boundingBox } from "../geometry.ts";
 import { checkMemory, estimateMemory, fmtBytes, memoryAdvice, type MemoryEstimate, memoryLimit, methodFor, peakResidentBytes } from "./memory.ts";
@@ -191,9 +191,11 @@ async function runInto(opts: RunOptions, files: Record<string, string>, inputs: 
     estimates: { table: locTable, columns: estimateColumns(est) },
     summary,
     input: fitted.input,
-    map: mapInputFromModel(model, grid, { rule, title: opts.title, date }),
+    // The map and the report draw the grid as a sheet can show it (drawingView; the files keep every cell).
+    map: mapInputFromModel(model, drawingView(grid), { rule, title: opts.title, date }),
     report: {
       stderrGrid: errors.grid,
+      stderrDrawing: drawingView(errors.grid),
       stderrNote: errors.stride > 1 ? `computed every ${errors.stride} cells and interpolated` : undefined,
       cleaning: { rowsRead: fitted.points.rowsRead, skipped: fitted.points.skipped, merged: fitted.points.merged },
       warnings: [...estimateWarnings(est), ...missed],

@@ -27,6 +27,8 @@ export interface ReportInput {
   mapOptions?: Partial<MapOptions>;
   /** Standard-error grid (gridStandardError(model, grid).grid), on the surface grid's cells. */
   stderrGrid?: GridValues;
+  /** The standard errors as drawn, when coarser than stderrGrid (job/run.ts: drawingView). */
+  stderrDrawing?: GridValues;
   /** How the standard-error grid was computed (e.g. "computed every 3 cells and interpolated"). */
   stderrNote?: string;
   /** Rows the cleaning stage skipped or merged, with their input lines. */
@@ -108,7 +110,8 @@ export function renderReport(input: ReportInput): string {
     const interval = hi > lo ? roundStepBelow((hi - lo) / 2) : 1;
     const seMap: MapInput = {
       ...input.map,
-      ...contoured(input.stderrGrid, intervalRule(interval)),
+      // Drawn from stderrDrawing when given (the grid as a sheet shows it); the range above is the whole grid's.
+      ...contoured(input.stderrDrawing ?? input.stderrGrid, intervalRule(interval)),
       reliefGrid: undefined,
       title: `Standard error of the estimate: ${input.map.title}`,
       valueName: "Standard error",
