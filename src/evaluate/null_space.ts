@@ -128,10 +128,10 @@ export function factorFromFit(state: FitState, lambda: number, l: Float64Array, 
 }
 
 /**
- * sᵀM⁻¹s = 2 t₁ᵀa₁ − a₁ᵀA₁₁a₁ + ‖L⁻¹(t₂ − A₂₁a₁)‖² for s = [k; p] (the top of this file); `k` is
- * overwritten by Qᵀk, `a1` (m) and `z` (≥ n − m) are scratch.
+ * The trend's part of sᵀM⁻¹s for one place, 2 t₁ᵀa₁ − a₁ᵀA₁₁a₁: `k` becomes t = Qᵀk and `a1` gets
+ * a₁ = R⁻ᵀp (p in `tr`); shared by choleskyQuadratic and choleskyQuadraticBlock.
  */
-export function choleskyQuadratic(f: CholeskyFactor, k: Float64Array, tr: Float64Array, a1: Float64Array, z: Float64Array): number {
+function trendPart(f: CholeskyFactor, k: Float64Array, tr: Float64Array, a1: Float64Array): number {
   const m = f.m;
   for (const refl of f.qr) applyReflector(refl, k);
   let q = 0;
@@ -142,6 +142,16 @@ export function choleskyQuadratic(f: CholeskyFactor, k: Float64Array, tr: Float6
     q += 2 * k[i] * s;
   }
   for (let i = 0; i < m; i++) for (let t = 0; t < m; t++) q -= a1[i] * f.a11[i * m + t] * a1[t];
+  return q;
+}
+
+/**
+ * sᵀM⁻¹s = 2 t₁ᵀa₁ − a₁ᵀA₁₁a₁ + ‖L⁻¹(t₂ − A₂₁a₁)‖² for s = [k; p] (the top of this file); `k` is
+ * overwritten by Qᵀk, `a1` (m) and `z` (≥ n − m) are scratch.
+ */
+export function choleskyQuadratic(f: CholeskyFactor, k: Float64Array, tr: Float64Array, a1: Float64Array, z: Float64Array): number {
+  const m = f.m;
+  let q = trendPart(f, k, tr, a1);
   const nb = f.nb, l = f.l;
   for (let i = 0; i < nb; i++) {
     let s = k[m + i];
@@ -168,17 +178,7 @@ export const PLACE_BLOCK = 4;
 export function choleskyQuadraticBlock(f: CholeskyFactor, k: Float64Array, tr: Float64Array, q: Float64Array, a1: Float64Array, z: Float64Array): void {
   const { m, n, nb, l, a21 } = f;
   for (let b = 0; b < PLACE_BLOCK; b++) {
-    const kb = k.subarray(b * n, b * n + n);
-    for (const refl of f.qr) applyReflector(refl, kb);
-    let qb = 0;
-    for (let i = 0; i < m; i++) {
-      let s = 0;
-      for (let t = 0; t <= i; t++) s += f.rInv[t * m + i] * tr[b * m + t];
-      a1[b * m + i] = s;
-      qb += 2 * kb[i] * s;
-    }
-    for (let i = 0; i < m; i++) for (let t = 0; t < m; t++) qb -= a1[b * m + i] * f.a11[i * m + t] * a1[b * m + t];
-    q[b] = qb;
+    q[b] = trendPart(f, k.subarray(b * n, b * n + n), tr.subarray(b * m, b * m + m), a1.subarray(b * m, b * m + m));
   }
   // z is interleaved: z[t·4 + b] is place b's t-th entry.
   const n1 = n, n2 = 2 * n, n3 = 3 * n, m1 = m, m2 = 2 * m, m3 = 3 * m;
